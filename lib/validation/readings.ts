@@ -1,0 +1,80 @@
+import { z } from 'zod';
+
+// The reading contract shared by the bridge (what it parses and uploads) and the server (what it accepts).
+// Plain zod, no server imports: the bridge bundles nothing from the web app but this.
+
+export const COMPARATORS = ['<', '>'] as const;
+
+export const parsedReadingSchema = z.object({
+  kind: z.literal('reading').default('reading'),
+  analyte: z.string().trim().min(1, 'analyte is required').max(64),
+  value: z.number().finite().nullable(),
+  comparator: z.enum(COMPARATORS).nullable().default(null),
+  unit: z.string().trim().max(32).nullable().default(null),
+  flags: z.array(z.string().trim().min(1).max(32)).max(16).default([]),
+  sampleId: z.string().trim().max(64).nullable().default(null),
+  patientRef: z.string().trim().max(64).nullable().default(null),
+  measuredAt: z.iso.datetime({ offset: true }).nullable().default(null),
+  instrumentSerial: z.string().trim().max(64).nullable().default(null),
+  raw: z.string().max(65536),
+});
+export type ParsedReading = z.infer<typeof parsedReadingSchema>;
+
+export const unparsedFragmentSchema = z.object({
+  kind: z.literal('unparsed'),
+  raw: z.string().max(65536),
+  reason: z.string().trim().min(1).max(200),
+});
+export type UnparsedFragment = z.infer<typeof unparsedFragmentSchema>;
+
+/** What a dialect parser yields: a reading, or bytes it could not turn into one (kept, never dropped). */
+export const parserOutputSchema = z.discriminatedUnion('kind', [parsedReadingSchema, unparsedFragmentSchema]);
+export type ParserOutput = ParsedReading | UnparsedFragment;
+
+/** One spooled record as the bridge sends it: the idempotency key is fixed when the record is first spooled. */
+export const bridgeRecordSchema = z.object({
+  key: z
+    .string()
+    .min(8)
+    .max(128)
+    .regex(/^[A-Za-z0-9._:-]+$/, 'key may hold letters, digits and . _ : - only'),
+  instrument: z.string().trim().min(1).max(64),
+  receivedAt: z.iso.datetime({ offset: true }),
+  payload: parserOutputSchema,
+});
+export type BridgeRecord = z.infer<typeof bridgeRecordSchema>;
+
+export const MAX_BATCH = 200;
+
+export const bridgeBatchSchema = z.object({
+  bridgeVersion: z.string().max(32).optional(),
+  records: z.array(bridgeRecordSchema).min(1, 'a batch holds at least one record').max(MAX_BATCH),
+});
+export type BridgeBatch = z.infer<typeof bridgeBatchSchema>;
+
+export const bridgeBatchResultSchema = z.object({
+  results: z.array(
+    z.object({
+      key: z.string(),
+      status: z.enum(['created', 'duplicate']),
+      id: z.string(),
+    }),
+  ),
+});
+export type BridgeBatchResult = z.infer<typeof bridgeBatchResultSchema>;
+
+export const bridgeHeartbeatSchema = z.object({
+  bridgeVersion: z.string().max(32).optional(),
+  spoolDepth: z.number().int().min(0),
+  sources: z
+    .array(
+      z.object({
+        instrument: z.string().max(64),
+        state: z.enum(['open', 'connecting', 'closed', 'error']),
+        detail: z.string().max(200).optional(),
+      }),
+    )
+    .max(64)
+    .default([]),
+});
+export type BridgeHeartbeat = z.infer<typeof bridgeHeartbeatSchema>;
