@@ -1,0 +1,60 @@
+import 'server-only';
+import fs from 'node:fs';
+import path from 'node:path';
+import { PGlite } from '@electric-sql/pglite';
+import { drizzle, type PgliteDatabase } from 'drizzle-orm/pglite';
+import { migrate } from 'drizzle-orm/pglite/migrator';
+import * as schema from './schema';
+import { dataDir } from '@/lib/config';
+
+export type Db = PgliteDatabase<typeof schema>;
+export type Tx = Parameters<Parameters<Db['transaction']>[0]>[0];
+/** Anything that runs queries: the database or an open transaction. */
+export type Executor = Db | Tx;
+
+export interface Database {
+  db: Db;
+  /** LISTEN on a channel; resolves to an unsubscribe function. */
+  listen(channel: string, onPayload: (payload: string) => void): Promise<() => Promise<void>>;
+  close(): Promise<void>;
+}
+
+const MIGRATIONS = path.join(process.cwd(), 'db', 'migrations');
+
+/**
+ * Opens embedded PostgreSQL (PGlite) at dir, or in memory when dir is undefined, and applies
+ * the committed migrations. PGlite allows one process per data directory.
+ */
+export async function openDatabase(dir?: string): Promise<Database> {
+  if (dir) fs.mkdirSync(dir, { recursive: true });
+  const pg = await PGlite.create(dir);
+  const db = drizzle({ client: pg, schema, casing: 'snake_case' });
+  await migrate(db, { migrationsFolder: MIGRATIONS });
+  return {
+    db,
+    listen: (channel, onPayload) => pg.listen(channel, onPayload),
+    close: () => pg.close(),
+  };
+}
+
+// One database per process, shared by server.ts and Next's route bundles (which load their own
+// copies of this module): a process-wide symbol holds it.
+const KEY = Symbol.for('benchwire.database');
+type Holder = { [KEY]?: Promise<Database> };
+const holder = globalThis as Holder;
+
+export function getDatabase(): Promise<Database> {
+  holder[KEY] ??= openDatabase(path.join(dataDir(), 'pgdata'));
+  return holder[KEY];
+}
+
+/** For tests and start-up: install an already opened database as the process's one. */
+export function useDatabase(database: Database): void {
+  holder[KEY] = Promise.resolve(database);
+}
+
+export async function db(): Promise<Db> {
+  return (await getDatabase()).db;
+}
+
+export { schema };

@@ -1,0 +1,57 @@
+import 'server-only';
+import { and, eq, isNull } from 'drizzle-orm';
+import { db } from '@/db/client';
+import { bridges, staffUsers, type Bridge, type StaffRole } from '@/db/schema';
+import { ApiError } from '@/lib/http';
+import { allowed, type Permission } from './roles';
+import { SESSION_COOKIE, cookieValue, unsealSession } from './session';
+import { bearerToken, hashBridgeToken } from './tokens';
+
+/** The signed-in staff member acting on a request. */
+export interface Actor {
+  userId: string;
+  clinicId: string;
+  role: StaffRole;
+  displayName: string;
+  email: string;
+}
+
+/** Resolves a sealed session cookie to an active staff member, re-reading role and status from the database. */
+export async function actorFromSeal(seal: string | null | undefined): Promise<Actor | null> {
+  const session = await unsealSession(seal);
+  if (!session) return null;
+  const database = await db();
+  const [user] = await database
+    .select()
+    .from(staffUsers)
+    .where(and(eq(staffUsers.id, session.userId), eq(staffUsers.clinicId, session.clinicId)));
+  if (!user || !user.active) return null;
+  return { userId: user.id, clinicId: user.clinicId, role: user.role, displayName: user.displayName, email: user.email };
+}
+
+export function actorFromRequest(request: Request): Promise<Actor | null> {
+  return actorFromSeal(cookieValue(request.headers.get('cookie'), SESSION_COOKIE));
+}
+
+/** 401 without a valid session, 403 when the role lacks the permission. */
+export async function requireActor(request: Request, permission?: Permission): Promise<Actor> {
+  const actor = await actorFromRequest(request);
+  if (!actor) throw new ApiError(401, 'unauthenticated', 'Sign in to continue.');
+  if (permission && !allowed(actor.role, permission)) {
+    throw new ApiError(403, 'forbidden', 'Your role does not allow this.');
+  }
+  return actor;
+}
+
+/** A bridge authenticates with its bearer token; revoked tokens are refused. */
+export async function requireBridge(request: Request): Promise<Bridge> {
+  const token = bearerToken(request);
+  if (!token) throw new ApiError(401, 'unauthenticated', 'A bridge token is required (Authorization: Bearer …).');
+  const database = await db();
+  const [bridge] = await database
+    .select()
+    .from(bridges)
+    .where(and(eq(bridges.tokenHash, hashBridgeToken(token)), isNull(bridges.revokedAt)));
+  if (!bridge) throw new ApiError(401, 'invalid_token', 'This bridge token is unknown or has been revoked.');
+  return bridge;
+}

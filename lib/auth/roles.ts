@@ -1,0 +1,24 @@
+// Who may do what. Checked on the server in every handler; the UI only mirrors it.
+import type { StaffRole } from '@/db/schema';
+
+export const ROLES = ['admin', 'veterinarian', 'technician'] as const satisfies readonly StaffRole[];
+
+export const can = {
+  readResults: ['admin', 'veterinarian', 'technician'],
+  assignReadings: ['admin', 'veterinarian', 'technician'],
+  voidReadings: ['admin', 'veterinarian', 'technician'],
+  reviewResults: ['veterinarian'],
+  manageClinic: ['admin'],
+} as const satisfies Record<string, readonly StaffRole[]>;
+
+export type Permission = keyof typeof can;
+
+export const roleLabel: Record<StaffRole, string> = {
+  admin: 'Administrator',
+  veterinarian: 'Veterinarian',
+  technician: 'Veterinary technician',
+};
+
+export function allowed(role: StaffRole, permission: Permission): boolean {
+  return (can[permission] as readonly StaffRole[]).includes(role);
+}

@@ -1,0 +1,133 @@
+import 'server-only';
+import { and, asc, eq, isNull } from 'drizzle-orm';
+import { db } from '@/db/client';
+import { bridges, instruments } from '@/db/schema';
+import type { Actor } from '@/lib/auth/guards';
+import { newBridgeToken } from '@/lib/auth/tokens';
+import { recordAudit } from '@/lib/audit';
+import { ApiError, notFound } from '@/lib/http';
+import { isUniqueViolation } from '@/lib/staff';
+import type { BridgeHeartbeat } from '@/lib/validation/readings';
+import type { NewInstrumentInput } from '@/lib/validation/api';
+
+const bridgeColumns = {
+  id: bridges.id,
+  name: bridges.name,
+  tokenHint: bridges.tokenHint,
+  createdAt: bridges.createdAt,
+  revokedAt: bridges.revokedAt,
+  lastSeenAt: bridges.lastSeenAt,
+  lastHeartbeat: bridges.lastHeartbeat,
+};
+
+export async function listBridges(actor: Actor) {
+  const database = await db();
+  return database.select(bridgeColumns).from(bridges).where(eq(bridges.clinicId, actor.clinicId)).orderBy(asc(bridges.name));
+}
+
+/** Creates a bridge and returns its token: the only time the token is ever shown. */
+export async function createBridge(actor: Actor, name: string) {
+  const database = await db();
+  const { token, hash, hint } = newBridgeToken();
+  return database.transaction(async (tx) => {
+    const [bridge] = await tx
+      .insert(bridges)
+      .values({ clinicId: actor.clinicId, name, tokenHash: hash, tokenHint: hint, createdBy: actor.userId })
+      .returning(bridgeColumns);
+    await recordAudit(tx, {
+      clinicId: actor.clinicId,
+      actorUserId: actor.userId,
+      action: 'bridge.created',
+      entityType: 'bridge',
+      entityId: bridge.id,
+      details: { name },
+    });
+    return { bridge, token };
+  });
+}
+
+export async function revokeBridge(actor: Actor, bridgeId: string) {
+  const database = await db();
+  return database.transaction(async (tx) => {
+    const [bridge] = await tx
+      .update(bridges)
+      .set({ revokedAt: new Date() })
+      .where(and(eq(bridges.id, bridgeId), eq(bridges.clinicId, actor.clinicId), isNull(bridges.revokedAt)))
+      .returning(bridgeColumns);
+    if (!bridge) throw notFound('An active bridge with this id');
+    await recordAudit(tx, {
+      clinicId: actor.clinicId,
+      actorUserId: actor.userId,
+      action: 'bridge.revoked',
+      entityType: 'bridge',
+      entityId: bridgeId,
+    });
+    return bridge;
+  });
+}
+
+export async function recordHeartbeat(bridgeId: string, heartbeat: BridgeHeartbeat) {
+  const database = await db();
+  await database
+    .update(bridges)
+    .set({ lastSeenAt: new Date(), lastHeartbeat: { ...heartbeat, at: new Date().toISOString() } })
+    .where(eq(bridges.id, bridgeId));
+}
+
+export async function listInstruments(actor: Actor) {
+  const database = await db();
+  return database
+    .select({
+      id: instruments.id,
+      code: instruments.code,
+      name: instruments.name,
+      analytes: instruments.analytes,
+      dialect: instruments.dialect,
+      connection: instruments.connection,
+      serialNumber: instruments.serialNumber,
+      active: instruments.active,
+      bridgeId: instruments.bridgeId,
+      bridgeName: bridges.name,
+    })
+    .from(instruments)
+    .leftJoin(bridges, eq(bridges.id, instruments.bridgeId))
+    .where(eq(instruments.clinicId, actor.clinicId))
+    .orderBy(asc(instruments.name));
+}
+
+export async function addInstrument(actor: Actor, input: NewInstrumentInput) {
+  const database = await db();
+  try {
+    return await database.transaction(async (tx) => {
+      if (input.bridgeId) {
+        const [bridge] = await tx
+          .select({ id: bridges.id })
+          .from(bridges)
+          .where(and(eq(bridges.id, input.bridgeId), eq(bridges.clinicId, actor.clinicId)));
+        if (!bridge) throw new ApiError(400, 'invalid_request', 'That bridge is not one of this clinic’s.', [
+          { path: 'bridgeId', message: 'Unknown bridge.' },
+        ]);
+      }
+      const [instrument] = await tx
+        .insert(instruments)
+        .values({ ...input, clinicId: actor.clinicId, connection: input.connection ?? null })
+        .returning();
+      await recordAudit(tx, {
+        clinicId: actor.clinicId,
+        actorUserId: actor.userId,
+        action: 'instrument.added',
+        entityType: 'instrument',
+        entityId: instrument.id,
+        details: { code: instrument.code, dialect: instrument.dialect },
+      });
+      return instrument;
+    });
+  } catch (error) {
+    if (isUniqueViolation(error)) {
+      throw new ApiError(409, 'code_taken', 'Another instrument already uses this code.', [
+        { path: 'code', message: 'Already in use.' },
+      ]);
+    }
+    throw error;
+  }
+}

@@ -1,0 +1,33 @@
+import 'server-only';
+import { sql } from 'drizzle-orm';
+import type { Executor } from '@/db/client';
+import { getDatabase } from '@/db/client';
+import { LIVE_CHANNEL, LIVE_EVENT_TYPES, type LiveEvent } from './events';
+
+/**
+ * Publishes through PostgreSQL NOTIFY inside the caller's transaction: the event goes out only if the
+ * change commits, and every app instance on the same database hears it.
+ */
+export async function publish(tx: Executor, event: Omit<LiveEvent, 'at'> & { at?: string }): Promise<void> {
+  const full: LiveEvent = { ...event, at: event.at ?? new Date().toISOString() };
+  await tx.execute(sql`select pg_notify(${LIVE_CHANNEL}, ${JSON.stringify(full)})`);
+}
+
+export function parseLiveEvent(payload: string): LiveEvent | null {
+  try {
+    const event = JSON.parse(payload) as LiveEvent;
+    if (typeof event.clinicId !== 'string' || !LIVE_EVENT_TYPES.includes(event.type)) return null;
+    return event;
+  } catch {
+    return null;
+  }
+}
+
+/** LISTENs for events; returns the unsubscribe function. */
+export async function subscribe(onEvent: (event: LiveEvent) => void): Promise<() => Promise<void>> {
+  const database = await getDatabase();
+  return database.listen(LIVE_CHANNEL, (payload) => {
+    const event = parseLiveEvent(payload);
+    if (event) onEvent(event);
+  });
+}

@@ -1,0 +1,101 @@
+import 'server-only';
+import { and, eq, inArray } from 'drizzle-orm';
+import { db } from '@/db/client';
+import { bridges, instruments, readings, unparsedCaptures, type Bridge } from '@/db/schema';
+import { recordAudit } from '@/lib/audit';
+import { publish } from '@/lib/live/bus';
+import type { BridgeBatch, BridgeBatchResult } from '@/lib/validation/readings';
+
+/**
+ * Stores a bridge's batch in one transaction. A record whose key this bridge already sent is
+ * acknowledged as a duplicate and not stored again, so the bridge can resend freely.
+ */
+export async function ingestBatch(bridge: Bridge, batch: BridgeBatch): Promise<BridgeBatchResult> {
+  const database = await db();
+  return database.transaction(async (tx) => {
+    const codes = [...new Set(batch.records.map((r) => r.instrument))];
+    const known = await tx
+      .select({ id: instruments.id, code: instruments.code })
+      .from(instruments)
+      .where(and(eq(instruments.clinicId, bridge.clinicId), inArray(instruments.code, codes)));
+    const instrumentByCode = new Map(known.map((i) => [i.code, i.id]));
+
+    const results: BridgeBatchResult['results'] = [];
+    for (const record of batch.records) {
+      const common = {
+        clinicId: bridge.clinicId,
+        bridgeId: bridge.id,
+        idempotencyKey: record.key,
+        instrumentId: instrumentByCode.get(record.instrument) ?? null,
+        instrumentCode: record.instrument,
+        receivedAt: new Date(record.receivedAt),
+        raw: record.payload.raw,
+      };
+      const payload = record.payload;
+      if (payload.kind === 'unparsed') {
+        const [row] = await tx
+          .insert(unparsedCaptures)
+          .values({ ...common, reason: payload.reason })
+          .onConflictDoNothing({ target: [unparsedCaptures.bridgeId, unparsedCaptures.idempotencyKey] })
+          .returning({ id: unparsedCaptures.id });
+        if (!row) {
+          const [existing] = await tx
+            .select({ id: unparsedCaptures.id })
+            .from(unparsedCaptures)
+            .where(and(eq(unparsedCaptures.bridgeId, bridge.id), eq(unparsedCaptures.idempotencyKey, record.key)));
+          results.push({ key: record.key, status: 'duplicate', id: existing.id });
+          continue;
+        }
+        await recordAudit(tx, {
+          clinicId: bridge.clinicId,
+          actorBridgeId: bridge.id,
+          action: 'capture.received',
+          entityType: 'unparsed_capture',
+          entityId: row.id,
+          details: { instrument: record.instrument, reason: payload.reason },
+        });
+        await publish(tx, { type: 'capture.created', clinicId: bridge.clinicId, id: row.id });
+        results.push({ key: record.key, status: 'created', id: row.id });
+        continue;
+      }
+
+      const [row] = await tx
+        .insert(readings)
+        .values({
+          ...common,
+          instrumentSerial: payload.instrumentSerial,
+          analyte: payload.analyte,
+          value: payload.value,
+          comparator: payload.comparator,
+          unit: payload.unit,
+          flags: payload.flags,
+          sampleId: payload.sampleId,
+          patientRef: payload.patientRef,
+          measuredAt: payload.measuredAt ? new Date(payload.measuredAt) : null,
+        })
+        .onConflictDoNothing({ target: [readings.bridgeId, readings.idempotencyKey] })
+        .returning({ id: readings.id });
+      if (!row) {
+        const [existing] = await tx
+          .select({ id: readings.id })
+          .from(readings)
+          .where(and(eq(readings.bridgeId, bridge.id), eq(readings.idempotencyKey, record.key)));
+        results.push({ key: record.key, status: 'duplicate', id: existing.id });
+        continue;
+      }
+      await recordAudit(tx, {
+        clinicId: bridge.clinicId,
+        actorBridgeId: bridge.id,
+        action: 'reading.received',
+        entityType: 'reading',
+        entityId: row.id,
+        details: { instrument: record.instrument, analyte: payload.analyte, sampleId: payload.sampleId },
+      });
+      await publish(tx, { type: 'reading.created', clinicId: bridge.clinicId, id: row.id });
+      results.push({ key: record.key, status: 'created', id: row.id });
+    }
+
+    await tx.update(bridges).set({ lastSeenAt: new Date() }).where(eq(bridges.id, bridge.id));
+    return { results };
+  });
+}

@@ -1,0 +1,141 @@
+import 'server-only';
+import { and, asc, eq, sql } from 'drizzle-orm';
+import { db } from '@/db/client';
+import { clinics, staffUsers } from '@/db/schema';
+import type { Actor } from '@/lib/auth/guards';
+import { decoyHash, hashPassword, verifyPassword } from '@/lib/auth/password';
+import { recordAudit } from '@/lib/audit';
+import { ApiError, notFound } from '@/lib/http';
+import type { NewStaffInput, SetupInput } from '@/lib/validation/api';
+
+const isUniqueViolation = (error: unknown) =>
+  typeof error === 'object' && error !== null && ((error as { code?: string }).code === '23505' ||
+    (error as { cause?: { code?: string } }).cause?.code === '23505');
+
+/** Checks e-mail and password; the same answer and similar time whether the address exists or not. */
+export async function authenticate(email: string, password: string) {
+  const database = await db();
+  const [user] = await database
+    .select()
+    .from(staffUsers)
+    .where(sql`lower(${staffUsers.email}) = ${email.toLowerCase()}`);
+  const ok = await verifyPassword(password, user?.passwordHash ?? (await decoyHash()));
+  if (!user || !ok || !user.active) return null;
+  await database.transaction(async (tx) => {
+    await tx.update(staffUsers).set({ lastSignInAt: new Date() }).where(eq(staffUsers.id, user.id));
+    await recordAudit(tx, {
+      clinicId: user.clinicId,
+      actorUserId: user.id,
+      action: 'staff.signed_in',
+      entityType: 'staff_user',
+      entityId: user.id,
+    });
+  });
+  return user;
+}
+
+export async function clinicCount(): Promise<number> {
+  const database = await db();
+  const [row] = await database.select({ n: sql<number>`count(*)::int` }).from(clinics);
+  return row.n;
+}
+
+/** First run on an empty database: the clinic and its first administrator. Refused once any clinic exists. */
+export async function createFirstClinic(input: SetupInput) {
+  const database = await db();
+  const passwordHash = await hashPassword(input.password);
+  return database.transaction(async (tx) => {
+    // Serialise concurrent first-run attempts; only the first one finds the table empty.
+    await tx.execute(sql`lock table clinics in exclusive mode`);
+    const [{ n }] = await tx.select({ n: sql<number>`count(*)::int` }).from(clinics);
+    if (n > 0) throw new ApiError(409, 'already_set_up', 'This Benchwire is already set up. Sign in instead.');
+    const [clinic] = await tx.insert(clinics).values({ name: input.clinicName, timeZone: input.timeZone }).returning();
+    const [admin] = await tx
+      .insert(staffUsers)
+      .values({ clinicId: clinic.id, email: input.email, displayName: input.displayName, role: 'admin', passwordHash })
+      .returning();
+    await recordAudit(tx, {
+      clinicId: clinic.id,
+      actorUserId: admin.id,
+      action: 'clinic.created',
+      entityType: 'clinic',
+      entityId: clinic.id,
+      details: { name: clinic.name },
+    });
+    return { clinic, admin };
+  });
+}
+
+const staffColumns = {
+  id: staffUsers.id,
+  email: staffUsers.email,
+  displayName: staffUsers.displayName,
+  role: staffUsers.role,
+  active: staffUsers.active,
+  createdAt: staffUsers.createdAt,
+  lastSignInAt: staffUsers.lastSignInAt,
+};
+
+export async function listStaff(actor: Actor) {
+  const database = await db();
+  return database
+    .select(staffColumns)
+    .from(staffUsers)
+    .where(eq(staffUsers.clinicId, actor.clinicId))
+    .orderBy(asc(staffUsers.displayName));
+}
+
+export async function addStaff(actor: Actor, input: NewStaffInput) {
+  const database = await db();
+  const passwordHash = await hashPassword(input.password);
+  try {
+    return await database.transaction(async (tx) => {
+      const [user] = await tx
+        .insert(staffUsers)
+        .values({ clinicId: actor.clinicId, email: input.email, displayName: input.displayName, role: input.role, passwordHash })
+        .returning(staffColumns);
+      await recordAudit(tx, {
+        clinicId: actor.clinicId,
+        actorUserId: actor.userId,
+        action: 'staff.added',
+        entityType: 'staff_user',
+        entityId: user.id,
+        details: { role: user.role, email: user.email },
+      });
+      return user;
+    });
+  } catch (error) {
+    if (isUniqueViolation(error)) {
+      throw new ApiError(409, 'email_taken', 'Someone already signs in with this e-mail address.', [
+        { path: 'email', message: 'Already in use.' },
+      ]);
+    }
+    throw error;
+  }
+}
+
+export async function updateStaff(actor: Actor, userId: string, change: { role?: Actor['role']; active?: boolean }) {
+  if (userId === actor.userId && (change.active === false || (change.role && change.role !== 'admin'))) {
+    throw new ApiError(409, 'self_lockout', 'You cannot remove your own administrator access.');
+  }
+  const database = await db();
+  return database.transaction(async (tx) => {
+    const [user] = await tx
+      .update(staffUsers)
+      .set(change)
+      .where(and(eq(staffUsers.id, userId), eq(staffUsers.clinicId, actor.clinicId)))
+      .returning(staffColumns);
+    if (!user) throw notFound('The staff member');
+    await recordAudit(tx, {
+      clinicId: actor.clinicId,
+      actorUserId: actor.userId,
+      action: 'staff.updated',
+      entityType: 'staff_user',
+      entityId: userId,
+      details: change,
+    });
+    return user;
+  });
+}
+
+export { isUniqueViolation };

@@ -1,0 +1,100 @@
+import { z } from 'zod';
+import { ROLES } from '@/lib/auth/roles';
+
+// Request shapes shared by the forms in app/ and the route handlers.
+
+export const signInSchema = z.object({
+  email: z.email('Enter a valid e-mail address.').trim().toLowerCase().max(200),
+  password: z.string().min(1, 'Enter your password.').max(200),
+});
+export type SignInInput = z.infer<typeof signInSchema>;
+
+const password = z
+  .string()
+  .min(12, 'Use at least 12 characters.')
+  .max(200, 'Use at most 200 characters.');
+
+export const setupSchema = z.object({
+  clinicName: z.string().trim().min(2, 'Enter the clinic name.').max(120),
+  timeZone: z.string().trim().min(1).max(64).default('UTC'),
+  displayName: z.string().trim().min(2, 'Enter your name.').max(120),
+  email: z.email('Enter a valid e-mail address.').trim().toLowerCase().max(200),
+  password,
+});
+export type SetupInput = z.infer<typeof setupSchema>;
+
+export const newStaffSchema = z.object({
+  displayName: z.string().trim().min(2, 'Enter the name.').max(120),
+  email: z.email('Enter a valid e-mail address.').trim().toLowerCase().max(200),
+  role: z.enum(ROLES),
+  password,
+});
+export type NewStaffInput = z.infer<typeof newStaffSchema>;
+
+export const updateStaffSchema = z.object({
+  role: z.enum(ROLES).optional(),
+  active: z.boolean().optional(),
+});
+
+export const newBridgeSchema = z.object({
+  name: z.string().trim().min(2, 'Name the bridge (e.g. the lab PC it runs on).').max(80),
+});
+export type NewBridgeInput = z.infer<typeof newBridgeSchema>;
+
+export const instrumentCodeSchema = z
+  .string()
+  .trim()
+  .min(2)
+  .max(64)
+  .regex(/^[a-z0-9][a-z0-9-]*$/, 'Use lower-case letters, digits and dashes.');
+
+export const newInstrumentSchema = z.object({
+  code: instrumentCodeSchema,
+  name: z.string().trim().min(2, 'Name the instrument.').max(120),
+  analytes: z
+    .array(z.string().trim().min(1).max(64))
+    .min(1, 'List at least one analyte.')
+    .max(100),
+  dialect: z.string().trim().min(1).max(64),
+  serialNumber: z.string().trim().max(64).optional(),
+  bridgeId: z.uuid().optional(),
+  connection: z
+    .discriminatedUnion('kind', [
+      z.object({
+        kind: z.literal('serial'),
+        path: z.string().trim().min(1).max(200),
+        baudRate: z.coerce.number().int().min(110).max(921600),
+        dataBits: z.union([z.literal(5), z.literal(6), z.literal(7), z.literal(8)]),
+        parity: z.enum(['none', 'even', 'odd', 'mark', 'space']),
+        stopBits: z.union([z.literal(1), z.literal(1.5), z.literal(2)]),
+        flowControl: z.enum(['none', 'rtscts', 'xonxoff']).default('none'),
+      }),
+      z.object({
+        kind: z.literal('tcp'),
+        host: z.string().trim().min(1).max(200),
+        port: z.coerce.number().int().min(1).max(65535),
+      }),
+    ])
+    .optional(),
+});
+export type NewInstrumentInput = z.infer<typeof newInstrumentSchema>;
+
+export const readingStatusQuery = z.object({
+  status: z.enum(['unassigned', 'assigned', 'voided', 'all']).default('unassigned'),
+  limit: z.coerce.number().int().min(1).max(500).default(100),
+});
+
+export const assignSchema = z.object({
+  patientId: z.uuid('Choose a patient.'),
+});
+
+export const voidSchema = z.object({
+  reason: z.string().trim().min(3, 'Give a reason for voiding this reading.').max(500),
+});
+
+export const patientSearchQuery = z.object({
+  q: z.string().trim().max(100).default(''),
+  limit: z.coerce.number().int().min(1).max(200).default(50),
+});
+
+export const idParam = z.uuid('Not a valid id.');
