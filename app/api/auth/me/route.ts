@@ -1,0 +1,7 @@
+import { requireActor } from '@/lib/auth/guards';
+import { apiRoute, json } from '@/lib/http';
+
+export const GET = apiRoute(async (request) => {
+  const actor = await requireActor(request);
+  return json({ user: actor });
+});

@@ -1,0 +1,12 @@
+import { requireActor } from '@/lib/auth/guards';
+import { apiRoute, json } from '@/lib/http';
+import { getPatient } from '@/lib/patients';
+import { idParam } from '@/lib/validation/api';
+
+type Ctx = { params: Promise<{ patientId: string }> };
+
+export const GET = apiRoute<Ctx>(async (request, { params }) => {
+  const actor = await requireActor(request, 'readResults');
+  const patientId = idParam.parse((await params).patientId);
+  return json({ patient: await getPatient(actor, patientId) });
+});

@@ -1,0 +1,18 @@
+import { sealSession, sessionCookie } from '@/lib/auth/session';
+import { apiRoute, json, readJson } from '@/lib/http';
+import { clinicCount, createFirstClinic } from '@/lib/staff';
+import { setupSchema } from '@/lib/validation/api';
+
+export const dynamic = 'force-dynamic';
+
+export const GET = apiRoute(async () => json({ needsSetup: (await clinicCount()) === 0 }));
+
+/** First run only: creates the clinic and its first administrator, then signs them in. */
+export const POST = apiRoute(async (request) => {
+  const input = await readJson(request, setupSchema);
+  const { clinic, admin } = await createFirstClinic(input);
+  const seal = await sealSession({ userId: admin.id, clinicId: clinic.id, issuedAt: Date.now() });
+  const response = json({ clinic: { id: clinic.id, name: clinic.name } }, { status: 201 });
+  response.cookies.set(sessionCookie(seal));
+  return response;
+});

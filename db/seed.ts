@@ -1,0 +1,168 @@
+import 'server-only';
+// The demo clinic: an invented practice, its people and animals. Demo use only; every name is made up.
+import { sql } from 'drizzle-orm';
+import type { Db } from './client';
+import {
+  auditEvents,
+  bridges,
+  clinics,
+  instruments,
+  owners,
+  patients,
+  readings,
+  resultAssignments,
+  staffUsers,
+} from './schema';
+import { hashPassword } from '@/lib/auth/password';
+import { newBridgeToken } from '@/lib/auth/tokens';
+
+export const DEMO_PASSWORD = 'demo-only-pass';
+export const DEMO_STAFF = [
+  { email: 'admin@fernhollow.example', displayName: 'Maren Oakes', role: 'admin' },
+  { email: 'vet@fernhollow.example', displayName: 'Dr. Ilse Corvan', role: 'veterinarian' },
+  { email: 'vet2@fernhollow.example', displayName: 'Dr. Teodor Lunn', role: 'veterinarian' },
+  { email: 'tech@fernhollow.example', displayName: 'Pia Hartwell', role: 'technician' },
+] as const;
+
+export const DEMO_CRP_INSTRUMENT = 'crp-reader';
+
+const OWNERS = [
+  ['Agnes Whitlow', '+44 7700 900101'],
+  ['Bram Keswick', '+44 7700 900102'],
+  ['Cora Linwood', '+44 7700 900103'],
+  ['Dev Anand-Rooke', '+44 7700 900104'],
+  ['Elsa Marchetti', '+44 7700 900105'],
+  ['Finn Galloway', '+44 7700 900106'],
+  ['Greta Solberg', '+44 7700 900107'],
+  ['Hugo Penhale', '+44 7700 900108'],
+] as const;
+
+type SeedPatient = {
+  recordNumber: string;
+  name: string;
+  species: 'dog' | 'cat';
+  breed: string;
+  sex: 'male' | 'male_neutered' | 'female' | 'female_spayed';
+  dateOfBirth: string;
+  weightKg: number;
+  owner: number;
+};
+
+const PATIENTS: SeedPatient[] = [
+  { recordNumber: 'FH-1001', name: 'Biscuit', species: 'dog', breed: 'Labrador Retriever', sex: 'male_neutered', dateOfBirth: '2018-04-12', weightKg: 31.5, owner: 0 },
+  { recordNumber: 'FH-1002', name: 'Juniper', species: 'dog', breed: 'Border Collie', sex: 'female_spayed', dateOfBirth: '2020-09-03', weightKg: 18.2, owner: 1 },
+  { recordNumber: 'FH-1003', name: 'Moss', species: 'dog', breed: 'Cocker Spaniel', sex: 'male', dateOfBirth: '2016-01-22', weightKg: 13.9, owner: 2 },
+  { recordNumber: 'FH-1004', name: 'Pepper', species: 'dog', breed: 'Miniature Schnauzer', sex: 'female_spayed', dateOfBirth: '2019-06-30', weightKg: 7.8, owner: 3 },
+  { recordNumber: 'FH-1005', name: 'Otto', species: 'dog', breed: 'Dachshund', sex: 'male_neutered', dateOfBirth: '2015-11-08', weightKg: 9.1, owner: 4 },
+  { recordNumber: 'FH-1006', name: 'Willow', species: 'cat', breed: 'Domestic Shorthair', sex: 'female_spayed', dateOfBirth: '2017-03-15', weightKg: 4.2, owner: 4 },
+  { recordNumber: 'FH-1007', name: 'Tamsin', species: 'dog', breed: 'German Shepherd Dog', sex: 'female', dateOfBirth: '2021-02-19', weightKg: 29.0, owner: 5 },
+  { recordNumber: 'FH-1008', name: 'Rufus', species: 'dog', breed: 'Staffordshire Bull Terrier', sex: 'male_neutered', dateOfBirth: '2014-08-27', weightKg: 17.4, owner: 6 },
+  { recordNumber: 'FH-1009', name: 'Clementine', species: 'cat', breed: 'Maine Coon', sex: 'female_spayed', dateOfBirth: '2019-12-01', weightKg: 6.3, owner: 7 },
+  { recordNumber: 'FH-1010', name: 'Bramble', species: 'dog', breed: 'Golden Retriever', sex: 'female_spayed', dateOfBirth: '2017-07-07', weightKg: 27.6, owner: 0 },
+  { recordNumber: 'FH-1011', name: 'Sprocket', species: 'dog', breed: 'Jack Russell Terrier', sex: 'male', dateOfBirth: '2022-05-14', weightKg: 6.1, owner: 1 },
+  { recordNumber: 'FH-1012', name: 'Nimbus', species: 'dog', breed: 'Whippet', sex: 'male_neutered', dateOfBirth: '2020-10-10', weightKg: 12.7, owner: 2 },
+];
+
+/** Earlier canine CRP results for Biscuit after a (made-up) surgery, so the chart has history. */
+const HISTORY = [
+  { daysAgo: 6, value: 8.1, comparator: null },
+  { daysAgo: 4, value: 96.4, comparator: null },
+  { daysAgo: 3, value: 61.0, comparator: null },
+  { daysAgo: 2, value: 24.8, comparator: null },
+  { daysAgo: 1, value: 5.0, comparator: '<' as const },
+];
+
+export async function isEmpty(db: Db): Promise<boolean> {
+  const [row] = await db.select({ n: sql<number>`count(*)::int` }).from(clinics);
+  return row.n === 0;
+}
+
+/** Seeds the demo clinic into an empty database; returns the demo bridge's token (for the local demo bridge only). */
+export async function seedDemoClinic(db: Db): Promise<{ clinicId: string; bridgeToken: string }> {
+  const passwordHash = await hashPassword(DEMO_PASSWORD);
+  const token = newBridgeToken();
+  return db.transaction(async (tx) => {
+    const [clinic] = await tx
+      .insert(clinics)
+      .values({ name: 'Fernhollow Animal Clinic', timeZone: 'Europe/London' })
+      .returning();
+    const staff = await tx
+      .insert(staffUsers)
+      .values(DEMO_STAFF.map((s) => ({ ...s, clinicId: clinic.id, passwordHash })))
+      .returning();
+    const vet = staff.find((s) => s.role === 'veterinarian')!;
+    const tech = staff.find((s) => s.role === 'technician')!;
+    const admin = staff.find((s) => s.role === 'admin')!;
+
+    const ownerRows = await tx
+      .insert(owners)
+      .values(OWNERS.map(([name, phone]) => ({ clinicId: clinic.id, name, phone })))
+      .returning();
+    const patientRows = await tx
+      .insert(patients)
+      .values(
+        PATIENTS.map(({ owner, ...p }) => ({ ...p, clinicId: clinic.id, ownerId: ownerRows[owner].id, attendingVetId: vet.id })),
+      )
+      .returning();
+
+    const [bridge] = await tx
+      .insert(bridges)
+      .values({ clinicId: clinic.id, name: 'Lab PC (bench 1)', tokenHash: token.hash, tokenHint: token.hint, createdBy: admin.id })
+      .returning();
+    await tx.insert(instruments).values([
+      {
+        clinicId: clinic.id,
+        code: DEMO_CRP_INSTRUMENT,
+        name: 'CRP reader (bench 1)',
+        analytes: ['cCRP'],
+        dialect: 'plain-printout',
+        connection: { kind: 'tcp', host: '127.0.0.1', port: 4001 },
+        bridgeId: bridge.id,
+        serialNumber: 'SIM-0001',
+      },
+      {
+        clinicId: clinic.id,
+        code: 'chem-analyzer',
+        name: 'Chemistry analyzer (bench 2)',
+        analytes: ['GLU', 'CREA', 'BUN', 'ALT', 'ALP', 'TP', 'ALB'],
+        dialect: 'astm-e1394',
+        connection: { kind: 'serial', path: '/dev/ttyUSB1', baudRate: 9600, dataBits: 8, parity: 'none', stopBits: 1 },
+        bridgeId: bridge.id,
+        serialNumber: 'SIM-0002',
+      },
+    ]);
+
+    const biscuit = patientRows[0];
+    for (const [i, h] of HISTORY.entries()) {
+      const measuredAt = new Date(Date.now() - h.daysAgo * 86_400_000);
+      const printed = `${h.comparator ?? ''}${h.value.toFixed(1)} mg/L`;
+      const [reading] = await tx
+        .insert(readings)
+        .values({
+          clinicId: clinic.id,
+          bridgeId: bridge.id,
+          idempotencyKey: `seed-history-${i}`,
+          instrumentCode: DEMO_CRP_INSTRUMENT,
+          instrumentSerial: 'SIM-0001',
+          analyte: 'cCRP',
+          value: h.value,
+          comparator: h.comparator,
+          unit: 'mg/L',
+          measuredAt,
+          receivedAt: measuredAt,
+          raw: `(demo history) RESULT    ${printed}\n`,
+          status: 'assigned',
+          patientId: biscuit.id,
+        })
+        .returning();
+      await tx
+        .insert(resultAssignments)
+        .values({ clinicId: clinic.id, readingId: reading.id, patientId: biscuit.id, assignedBy: tech.id, assignedAt: measuredAt });
+      await tx.insert(auditEvents).values([
+        { clinicId: clinic.id, at: measuredAt, actorBridgeId: bridge.id, action: 'reading.received', entityType: 'reading', entityId: reading.id, details: { demo: true } },
+        { clinicId: clinic.id, at: measuredAt, actorUserId: tech.id, action: 'reading.assigned', entityType: 'reading', entityId: reading.id, details: { patientId: biscuit.id, method: 'manual', demo: true } },
+      ]);
+    }
+    return { clinicId: clinic.id, bridgeToken: token.token };
+  });
+}

@@ -1,0 +1,21 @@
+import path from 'node:path';
+import { defineConfig } from 'vitest/config';
+
+export default defineConfig({
+  resolve: {
+    alias: {
+      '@': path.resolve(import.meta.dirname),
+      // Tests run server code directly; the real guard only makes sense inside Next's build.
+      'server-only': path.resolve(import.meta.dirname, 'lib/server-only-shim.ts'),
+    },
+  },
+  test: {
+    include: ['tests/unit/**/*.test.ts', 'tests/integration/**/*.test.ts', 'tests/e2e/**/*.test.ts', 'bridge/**/*.test.ts'],
+    environment: 'node',
+    testTimeout: 30_000,
+    hookTimeout: 180_000,
+    // PGlite and the browser are heavy; two cores, two workers.
+    maxWorkers: 2,
+    reporters: ['default', './tests/summary-reporter.ts'],
+  },
+});
