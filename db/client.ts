@@ -49,7 +49,7 @@ export function getDatabase(): Promise<Database> {
 }
 
 /** For tests and start-up: install an already opened database as the process's one. */
-export function useDatabase(database: Database): void {
+export function installDatabase(database: Database): void {
   holder[KEY] = Promise.resolve(database);
 }
 

@@ -98,3 +98,10 @@ export const patientSearchQuery = z.object({
 });
 
 export const idParam = z.uuid('Not a valid id.');
+
+/** How the bridge reads each kind of instrument; names match the bridge's dialect registry. */
+export const DIALECT_LABELS: Record<string, string> = {
+  'plain-printout': 'Text printout (single-test reader)',
+  'astm-e1394': 'ASTM E1381/E1394 (LIS1/LIS2)',
+  hl7v2: 'HL7 v2 over MLLP',
+};

@@ -1,10 +1,10 @@
-import { openDatabase, useDatabase, type Database } from '@/db/client';
+import { openDatabase, installDatabase, type Database } from '@/db/client';
 import { seedDemoClinic } from '@/db/seed';
 
 /** A fresh in-memory PGlite with the committed migrations applied, installed as the process's database. */
 export async function freshDatabase(): Promise<Database> {
   const database = await openDatabase();
-  useDatabase(database);
+  installDatabase(database);
   return database;
 }
 

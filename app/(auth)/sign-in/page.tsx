@@ -1,0 +1,19 @@
+import type { Metadata } from 'next';
+import { redirect } from 'next/navigation';
+import { currentActor } from '@/lib/auth/current';
+import { clinicCount } from '@/lib/staff';
+import { SignInForm } from './sign-in-form';
+
+export const metadata: Metadata = { title: 'Sign in' };
+export const dynamic = 'force-dynamic';
+
+export default async function SignInPage() {
+  if ((await clinicCount()) === 0) redirect('/setup');
+  if (await currentActor()) redirect('/intake');
+  return (
+    <>
+      <h1 className="mb-4 text-lg font-semibold text-ink-950">Sign in</h1>
+      <SignInForm />
+    </>
+  );
+}

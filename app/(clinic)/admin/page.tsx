@@ -1,0 +1,22 @@
+import type { Metadata } from 'next';
+import { requirePageActor } from '@/lib/auth/current';
+import { PageHeader } from '@/app/components/ui';
+import { BridgesPanel } from './bridges-panel';
+import { InstrumentsPanel } from './instruments-panel';
+import { StaffPanel } from './staff-panel';
+
+export const metadata: Metadata = { title: 'Admin' };
+
+export default async function AdminPage() {
+  const actor = await requirePageActor('manageClinic');
+  return (
+    <>
+      <PageHeader title="Clinic administration" />
+      <div className="space-y-10">
+        <StaffPanel selfId={actor.userId} />
+        <BridgesPanel />
+        <InstrumentsPanel />
+      </div>
+    </>
+  );
+}

@@ -1,0 +1,169 @@
+'use client';
+import { useEffect, useRef, useState } from 'react';
+import useSWR from 'swr';
+import { fetcher } from '@/lib/client/fetcher';
+import { formatDateTime, formatValue, timeAgo } from '@/lib/format';
+import type { CaptureView, ReadingView } from '@/lib/readings/queries';
+import { Notice, buttonClass } from '@/app/components/ui';
+import { AssignDialog } from './assign-dialog';
+import { VoidDialog } from './void-dialog';
+
+type Serialized<T> = { [K in keyof T]: T[K] extends Date ? string : T[K] extends Date | null ? string | null : T[K] };
+export type IntakeReading = Serialized<ReadingView>;
+type IntakeCapture = Serialized<CaptureView>;
+
+/** Remembers which ids were already on screen, so rows that arrive later can be marked as new. */
+function useArrivals(ids: string[] | undefined) {
+  const seen = useRef<Set<string> | null>(null);
+  const [fresh, setFresh] = useState<Set<string>>(new Set());
+  useEffect(() => {
+    if (!ids) return;
+    if (seen.current === null) {
+      seen.current = new Set(ids);
+      return;
+    }
+    const added = ids.filter((id) => !seen.current!.has(id));
+    added.forEach((id) => seen.current!.add(id));
+    if (added.length) setFresh((prev) => new Set([...prev, ...added]));
+  }, [ids]);
+  return fresh;
+}
+
+export function IntakeBoard() {
+  const readings = useSWR<{ readings: IntakeReading[] }>('/api/readings?status=unassigned', fetcher, {
+    refreshInterval: 60_000,
+  });
+  const captures = useSWR<{ captures: IntakeCapture[] }>('/api/captures?status=open', fetcher, {
+    refreshInterval: 60_000,
+  });
+  const [assigning, setAssigning] = useState<IntakeReading | null>(null);
+  const [voiding, setVoiding] = useState<IntakeReading | null>(null);
+  const [done, setDone] = useState<string | null>(null);
+  const fresh = useArrivals(readings.data?.readings.map((r) => r.id));
+  // Re-render every 30 s so "3 min ago" stays true.
+  const [, tick] = useState(0);
+  useEffect(() => {
+    const timer = setInterval(() => tick((n) => n + 1), 30_000);
+    return () => clearInterval(timer);
+  }, []);
+
+  const list = readings.data?.readings ?? [];
+
+  return (
+    <div className="space-y-8">
+      {done && <Notice tone="ok">{done}</Notice>}
+      <section aria-labelledby="unassigned-heading">
+        <h2 id="unassigned-heading" className="mb-3 flex items-center gap-2 text-lg font-semibold text-ink-900">
+          Unassigned readings
+          <span className="rounded-full bg-ink-100 px-2 py-0.5 text-xs font-semibold text-ink-700" data-testid="unassigned-count">
+            {readings.data ? list.length : '…'}
+          </span>
+        </h2>
+        {readings.error && <Notice tone="error">Could not load readings: {readings.error.message}</Notice>}
+        {readings.data && list.length === 0 && (
+          <p className="rounded-lg border border-dashed border-ink-300 bg-white/60 px-4 py-8 text-center text-sm text-ink-700">
+            Nothing waiting. New readings appear here as soon as the analyzer prints them.
+          </p>
+        )}
+        {list.length > 0 && (
+          <div className="overflow-x-auto rounded-lg border border-ink-100 bg-white shadow-sm">
+            <table className="min-w-full divide-y divide-ink-100 text-sm">
+              <thead className="bg-paper-deep/60 text-left text-xs uppercase tracking-wide text-ink-700">
+                <tr>
+                  <th scope="col" className="px-4 py-2">Arrived</th>
+                  <th scope="col" className="px-4 py-2">Instrument</th>
+                  <th scope="col" className="px-4 py-2">Test</th>
+                  <th scope="col" className="px-4 py-2">Result</th>
+                  <th scope="col" className="px-4 py-2">Sample / patient ID</th>
+                  <th scope="col" className="px-4 py-2">Measured</th>
+                  <th scope="col" className="px-4 py-2"><span className="sr-only">Actions</span></th>
+                </tr>
+              </thead>
+              <tbody className="divide-y divide-ink-100">
+                {list.map((r) => (
+                  <tr key={r.id} data-reading-id={r.id} className={fresh.has(r.id) ? 'animate-arrive' : undefined}>
+                    <td className="whitespace-nowrap px-4 py-3 text-ink-700" title={formatDateTime(r.receivedAt)}>
+                      {timeAgo(r.receivedAt)}
+                      {fresh.has(r.id) && (
+                        <span className="ml-2 rounded bg-signal-500 px-1.5 py-0.5 text-[10px] font-bold uppercase text-white">new</span>
+                      )}
+                    </td>
+                    <td className="px-4 py-3">
+                      {r.instrumentName ?? <span className="text-ink-500">{r.instrumentCode} (not configured)</span>}
+                    </td>
+                    <td className="px-4 py-3 font-medium">{r.analyte}</td>
+                    <td className="whitespace-nowrap px-4 py-3 font-mono text-base font-semibold" data-testid="reading-value">
+                      {formatValue(r)}
+                    </td>
+                    <td className="px-4 py-3">
+                      {r.sampleId || r.patientRef ? (
+                        <span className="font-mono">{[r.sampleId, r.patientRef].filter(Boolean).join(' / ')}</span>
+                      ) : (
+                        <span className="text-ink-500">none printed</span>
+                      )}
+                    </td>
+                    <td className="whitespace-nowrap px-4 py-3 text-ink-700">{formatDateTime(r.measuredAt)}</td>
+                    <td className="whitespace-nowrap px-4 py-3 text-right">
+                      <div className="flex justify-end gap-2">
+                        <button type="button" className={buttonClass.primary} onClick={() => setAssigning(r)}>
+                          Assign…
+                        </button>
+                        <button type="button" className={buttonClass.secondary} onClick={() => setVoiding(r)}>
+                          Void…
+                        </button>
+                      </div>
+                    </td>
+                  </tr>
+                ))}
+              </tbody>
+            </table>
+          </div>
+        )}
+      </section>
+
+      <section aria-labelledby="captures-heading">
+        <h2 id="captures-heading" className="mb-1 text-lg font-semibold text-ink-900">
+          Unparsed captures
+        </h2>
+        <p className="mb-3 text-sm text-ink-700">
+          Text an instrument sent that did not form a reading. It is kept exactly as received; read it against the
+          instrument’s display or slip.
+        </p>
+        {captures.data && captures.data.captures.length === 0 && <p className="text-sm text-ink-500">None.</p>}
+        <ul className="space-y-3">
+          {captures.data?.captures.map((c) => (
+            <li key={c.id} className="rounded-lg border border-signal-500/40 bg-white p-3 shadow-sm">
+              <p className="mb-2 text-sm">
+                <span className="font-medium">{c.instrumentName ?? c.instrumentCode}</span>
+                <span className="text-ink-500"> · {formatDateTime(c.receivedAt)} · </span>
+                <span className="text-signal-600">{c.reason}</span>
+              </p>
+              <pre className="max-h-48 overflow-auto rounded bg-paper p-2 font-mono text-xs leading-relaxed">{c.raw}</pre>
+            </li>
+          ))}
+        </ul>
+      </section>
+
+      {assigning && (
+        <AssignDialog
+          reading={assigning}
+          onClose={(message) => {
+            setAssigning(null);
+            if (message) setDone(message);
+            void readings.mutate();
+          }}
+        />
+      )}
+      {voiding && (
+        <VoidDialog
+          reading={voiding}
+          onClose={(message) => {
+            setVoiding(null);
+            if (message) setDone(message);
+            void readings.mutate();
+          }}
+        />
+      )}
+    </div>
+  );
+}

@@ -1,0 +1,40 @@
+import Link from 'next/link';
+import { requirePageActor } from '@/lib/auth/current';
+import { allowed, roleLabel } from '@/lib/auth/roles';
+import { BrandMark } from '@/app/components/ui';
+import { LiveProvider, LiveStatus } from './live';
+import { NavLink } from './nav-link';
+import { SignOutButton } from './sign-out-button';
+
+export const dynamic = 'force-dynamic';
+
+export default async function ClinicLayout({ children }: { children: React.ReactNode }) {
+  const actor = await requirePageActor();
+  return (
+    <LiveProvider>
+      <div className="flex min-h-screen flex-col">
+        <header className="bg-ink-900 text-white">
+          <div className="mx-auto flex max-w-7xl flex-wrap items-center gap-x-6 gap-y-2 px-4 py-3">
+            <Link href="/intake" className="flex items-center gap-2 font-semibold tracking-tight">
+              <BrandMark />
+              Benchwire
+            </Link>
+            <nav aria-label="Main" className="flex gap-1">
+              <NavLink href="/intake">Intake</NavLink>
+              <NavLink href="/patients">Patients</NavLink>
+              {allowed(actor.role, 'manageClinic') && <NavLink href="/admin">Admin</NavLink>}
+            </nav>
+            <div className="ml-auto flex items-center gap-4 text-sm">
+              <LiveStatus />
+              <span className="text-ink-100">
+                {actor.displayName} <span className="text-ink-300">· {roleLabel[actor.role]}</span>
+              </span>
+              <SignOutButton />
+            </div>
+          </div>
+        </header>
+        <main className="mx-auto w-full max-w-7xl flex-1 px-4 py-6">{children}</main>
+      </div>
+    </LiveProvider>
+  );
+}

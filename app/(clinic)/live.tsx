@@ -1,0 +1,90 @@
+'use client';
+// The live feed: one WebSocket per tab. Each event revalidates the SWR data it concerns;
+// after a reconnect everything is revalidated, since events may have been missed meanwhile.
+import { createContext, useContext, useEffect, useRef, useState } from 'react';
+import { useSWRConfig } from 'swr';
+import type { LiveEvent } from '@/lib/live/events';
+
+type Listener = (event: LiveEvent) => void;
+type LiveState = 'connecting' | 'live' | 'offline';
+
+const LiveContext = createContext<{ state: LiveState; listen: (fn: Listener) => () => void }>({
+  state: 'connecting',
+  listen: () => () => {},
+});
+
+const startsWith = (prefix: string) => (key: unknown) => typeof key === 'string' && key.startsWith(prefix);
+
+export function LiveProvider({ children }: { children: React.ReactNode }) {
+  const { mutate } = useSWRConfig();
+  const [state, setState] = useState<LiveState>('connecting');
+  const listeners = useRef(new Set<Listener>());
+
+  useEffect(() => {
+    let socket: WebSocket | null = null;
+    let retry: ReturnType<typeof setTimeout> | undefined;
+    let attempts = 0;
+    let stopped = false;
+
+    const connect = () => {
+      const url = `${location.protocol === 'https:' ? 'wss' : 'ws'}://${location.host}/api/live`;
+      socket = new WebSocket(url);
+      socket.onopen = () => {
+        if (attempts > 0) void mutate(() => true);
+        attempts = 0;
+        setState('live');
+      };
+      socket.onmessage = (message) => {
+        let event: LiveEvent;
+        try {
+          event = JSON.parse(String(message.data));
+        } catch {
+          return;
+        }
+        if (!('clinicId' in event)) return;
+        if (event.type.startsWith('reading.')) void mutate(startsWith('/api/readings'));
+        if (event.type.startsWith('capture.')) void mutate(startsWith('/api/captures'));
+        if (event.patientId) void mutate(startsWith(`/api/patients/${event.patientId}`));
+        for (const listener of listeners.current) listener(event);
+      };
+      socket.onclose = () => {
+        if (stopped) return;
+        setState('offline');
+        attempts += 1;
+        // Back off up to 15 s; the server may be restarting.
+        retry = setTimeout(connect, Math.min(15_000, 500 * 2 ** Math.min(attempts, 5)));
+      };
+    };
+    connect();
+    return () => {
+      stopped = true;
+      clearTimeout(retry);
+      socket?.close();
+    };
+  }, [mutate]);
+
+  const listen = (fn: Listener) => {
+    listeners.current.add(fn);
+    return () => listeners.current.delete(fn);
+  };
+
+  return <LiveContext.Provider value={{ state, listen }}>{children}</LiveContext.Provider>;
+}
+
+export function useLive() {
+  return useContext(LiveContext);
+}
+
+export function LiveStatus() {
+  const { state } = useLive();
+  const label = { connecting: 'Connecting…', live: 'Live', offline: 'Reconnecting…' }[state];
+  return (
+    <span className="flex items-center gap-1.5 text-xs" data-live-state={state} role="status" aria-live="polite">
+      <span
+        aria-hidden="true"
+        className={`h-2 w-2 rounded-full ${state === 'live' ? 'bg-moss-100 ring-2 ring-moss-700' : 'bg-signal-500'}`}
+      />
+      {label}
+    </span>
+  );
+}

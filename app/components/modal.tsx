@@ -1,0 +1,33 @@
+'use client';
+import { useEffect, useRef } from 'react';
+
+/** A native modal <dialog>: the browser traps focus, Escape closes it, and focus returns where it was. */
+export function Modal({ title, onClose, children }: { title: string; onClose: () => void; children: React.ReactNode }) {
+  const ref = useRef<HTMLDialogElement>(null);
+  useEffect(() => {
+    const dialog = ref.current;
+    if (dialog && !dialog.open) dialog.showModal();
+    return () => dialog?.close();
+  }, []);
+  return (
+    <dialog
+      ref={ref}
+      aria-labelledby="modal-title"
+      onCancel={(e) => {
+        e.preventDefault();
+        onClose();
+      }}
+      className="m-auto w-full max-w-lg rounded-xl bg-paper p-0 shadow-2xl backdrop:bg-ink-950/50"
+    >
+      <div className="flex items-center justify-between border-b border-ink-100 px-5 py-3">
+        <h2 id="modal-title" className="text-base font-semibold text-ink-950">
+          {title}
+        </h2>
+        <button type="button" onClick={onClose} className="rounded px-2 text-xl leading-none text-ink-500 hover:text-ink-900" aria-label="Close">
+          ×
+        </button>
+      </div>
+      <div className="px-5 py-4">{children}</div>
+    </dialog>
+  );
+}

@@ -1,0 +1,34 @@
+'use client';
+// Client-side JSON calls to our route handlers, with the API's error body turned into a readable Error.
+
+export class ApiClientError extends Error {
+  constructor(
+    readonly status: number,
+    readonly code: string,
+    message: string,
+    readonly issues: { path: string; message: string }[] = [],
+  ) {
+    super(message);
+  }
+}
+
+async function parse<T>(response: Response): Promise<T> {
+  const body = await response.json().catch(() => null);
+  if (!response.ok) {
+    const error = body?.error ?? {};
+    const message =
+      response.status === 401 ? 'Your session has ended. Reload the page to sign in again.' : (error.message ?? `Request failed (${response.status}).`);
+    throw new ApiClientError(response.status, error.code ?? 'error', message, error.issues);
+  }
+  return body as T;
+}
+
+export const fetcher = <T,>(url: string) => fetch(url, { headers: { accept: 'application/json' } }).then((r) => parse<T>(r));
+
+export function send<T>(url: string, method: 'POST' | 'PATCH' | 'DELETE', body?: unknown): Promise<T> {
+  return fetch(url, {
+    method,
+    headers: { 'content-type': 'application/json', accept: 'application/json' },
+    body: body === undefined ? '{}' : JSON.stringify(body),
+  }).then((r) => parse<T>(r));
+}

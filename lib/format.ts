@@ -1,0 +1,51 @@
+// Display helpers shared by server and client components.
+
+export function formatValue(r: { value: number | null; comparator: string | null; unit: string | null }): string {
+  if (r.value === null) return '—';
+  const number = Number.isInteger(r.value) ? String(r.value) : String(Number(r.value.toFixed(4)));
+  return `${r.comparator ?? ''}${number}${r.unit ? ` ${r.unit}` : ''}`;
+}
+
+export function formatDateTime(value: string | Date | null | undefined): string {
+  if (!value) return '—';
+  const date = typeof value === 'string' ? new Date(value) : value;
+  return date.toLocaleString(undefined, { dateStyle: 'medium', timeStyle: 'short' });
+}
+
+export function formatAge(dateOfBirth: string | null, now = new Date()): string {
+  if (!dateOfBirth) return 'age unknown';
+  const born = new Date(`${dateOfBirth}T00:00:00`);
+  let months = (now.getFullYear() - born.getFullYear()) * 12 + (now.getMonth() - born.getMonth());
+  if (now.getDate() < born.getDate()) months -= 1;
+  if (months < 24) return `${Math.max(months, 0)} mo`;
+  return `${Math.floor(months / 12)} y`;
+}
+
+export function timeAgo(value: string | Date, now = Date.now()): string {
+  const seconds = Math.round((now - new Date(value).getTime()) / 1000);
+  if (seconds < 45) return 'just now';
+  if (seconds < 90) return '1 min ago';
+  const minutes = Math.round(seconds / 60);
+  if (minutes < 60) return `${minutes} min ago`;
+  const hours = Math.round(minutes / 60);
+  if (hours < 24) return `${hours} h ago`;
+  return `${Math.round(hours / 24)} d ago`;
+}
+
+export const speciesLabel: Record<string, string> = {
+  dog: 'Dog',
+  cat: 'Cat',
+  rabbit: 'Rabbit',
+  ferret: 'Ferret',
+  bird: 'Bird',
+  reptile: 'Reptile',
+  other: 'Other',
+};
+
+export const sexLabel: Record<string, string> = {
+  male: 'male',
+  male_neutered: 'male, neutered',
+  female: 'female',
+  female_spayed: 'female, spayed',
+  unknown: 'sex unknown',
+};

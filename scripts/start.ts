@@ -1,0 +1,110 @@
+// `npm start`: builds if needed, then runs the demo clinic end to end on embedded PGlite:
+// the web app with its live feed (migrates and seeds on first start), a local mail sink,
+// a simulated analyzer on a TCP port and a real bridge reading it.
+import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
+import fs from 'node:fs';
+import path from 'node:path';
+import { startMailSink } from './mail-sink';
+
+const root = process.cwd();
+const port = Number(process.env.PORT ?? 3000);
+const dataDir = path.resolve(process.env.DATA_DIR ?? path.join(root, '.data'));
+const mailPort = Number(process.env.MAIL_PORT ?? 2525);
+const analyzerPort = Number(process.env.SIMULATOR_PORT ?? 4001);
+const env = { ...process.env, DATA_DIR: dataDir, PORT: String(port), NODE_ENV: 'production' as const };
+const bin = (name: string) => path.join(root, 'node_modules', '.bin', name);
+
+const SOURCES = ['app', 'lib', 'db', 'public', 'next.config.ts', 'package.json', 'postcss.config.mjs', 'tsconfig.json'];
+
+function newestSourceTime(entry: string): number {
+  const full = path.join(root, entry);
+  if (!fs.existsSync(full)) return 0;
+  const stat = fs.statSync(full);
+  if (!stat.isDirectory()) return stat.mtimeMs;
+  return Math.max(stat.mtimeMs, ...fs.readdirSync(full).map((name) => newestSourceTime(path.join(entry, name))));
+}
+
+/** Builds when there is no build yet or a source file changed since the last one. */
+export function buildIfNeeded() {
+  const buildId = path.join(root, '.next', 'BUILD_ID');
+  const built = fs.existsSync(buildId) ? fs.statSync(buildId).mtimeMs : 0;
+  if (built && Math.max(...SOURCES.map(newestSourceTime)) < built) return;
+  console.log('[start] building the web app (first start or sources changed)…');
+  const result = spawnSync(bin('next'), ['build'], { stdio: 'inherit', env: { ...env, NEXT_TELEMETRY_DISABLED: '1' } });
+  if (result.status !== 0) {
+    console.error('[start] the build failed; see above.');
+    process.exit(result.status ?? 1);
+  }
+}
+
+async function waitForHealth(timeoutMs: number) {
+  const deadline = Date.now() + timeoutMs;
+  while (Date.now() < deadline) {
+    try {
+      const response = await fetch(`http://127.0.0.1:${port}/api/health`);
+      if (response.ok) return;
+    } catch {
+      // not up yet
+    }
+    await new Promise((r) => setTimeout(r, 500));
+  }
+  throw new Error(`the web app did not answer on port ${port} within ${timeoutMs / 1000} s`);
+}
+
+const children: ChildProcess[] = [];
+function run(name: string, command: string, args: string[], extraEnv: Record<string, string> = {}) {
+  const child = spawn(command, args, { stdio: ['ignore', 'inherit', 'inherit'], env: { ...env, ...extraEnv } });
+  children.push(child);
+  child.on('exit', (code, signal) => {
+    if (!stopping) console.error(`[start] ${name} stopped (${signal ?? `exit ${code}`})`);
+    if (name === 'web app' && !stopping) stop(1);
+  });
+  return child;
+}
+
+let stopping = false;
+function stop(code = 0) {
+  stopping = true;
+  for (const child of children) child.kill('SIGTERM');
+  setTimeout(() => process.exit(code), 3000).unref();
+}
+process.on('SIGINT', () => stop());
+process.on('SIGTERM', () => stop());
+
+async function main() {
+  buildIfNeeded();
+  fs.mkdirSync(dataDir, { recursive: true });
+  run('web app', bin('tsx'), ['--tsconfig', 'tsconfig.server.json', 'server.ts', '--seed-demo']);
+  await waitForHealth(120_000);
+
+  await startMailSink({ port: mailPort, dir: path.join(dataDir, 'mail') });
+
+  const tokenFile = path.join(dataDir, 'demo-bridge-token');
+  if (!fs.existsSync(tokenFile)) {
+    console.warn('[start] no demo bridge token in the data dir (not a demo database?); the simulated analyzer is not started.');
+  } else {
+    run('simulated analyzer', bin('tsx'), ['bridge/cli.ts', 'simulate', '--listen', String(analyzerPort), '--every', '20']);
+    run('bridge', bin('tsx'), [
+      'bridge/cli.ts', 'run',
+      '--server', `http://127.0.0.1:${port}`,
+      '--instrument', 'crp-reader',
+      '--dialect', 'plain-printout',
+      '--source', `tcp://127.0.0.1:${analyzerPort}`,
+      '--spool', path.join(dataDir, 'bridge-spool'),
+    ], { BENCHWIRE_BRIDGE_TOKEN: fs.readFileSync(tokenFile, 'utf8').trim() });
+  }
+
+  console.log(`
+  Benchwire demo clinic is running: http://localhost:${port}
+    sign in (demo only): tech@fernhollow.example, vet@fernhollow.example or admin@fernhollow.example
+                         password: demo-only-pass
+    mail sink: smtp://127.0.0.1:${mailPort} (messages kept in ${path.join(dataDir, 'mail')})
+    simulated analyzer: tcp://127.0.0.1:${analyzerPort}, read by a real bridge
+  Stop with Ctrl+C.
+`);
+}
+
+main().catch((error) => {
+  console.error('[start]', error instanceof Error ? error.message : error);
+  stop(1);
+});

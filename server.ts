@@ -1,0 +1,71 @@
+// One HTTP server for the whole app: Next's pages and route handlers, plus the live feed
+// (WebSocket upgrades on /api/live). Migrations run before the first request is served.
+import { createServer } from 'node:http';
+import fs from 'node:fs';
+import path from 'node:path';
+import { getDatabase } from '@/db/client';
+import { isEmpty, seedDemoClinic } from '@/db/seed';
+import { dataDir } from '@/lib/config';
+import { createLiveHub, LIVE_PATH } from '@/lib/live/hub';
+
+const dev = process.argv.includes('--dev');
+const seedDemo = process.argv.includes('--seed-demo');
+const port = Number(process.env.PORT ?? 3000);
+const hostname = process.env.HOST ?? '0.0.0.0';
+
+/** Where the demo bridge's token is left for `npm start` to hand to the local bridge (demo only). */
+export const DEMO_TOKEN_FILE = () => path.join(dataDir(), 'demo-bridge-token');
+
+async function main() {
+  // Next reads NODE_ENV when it starts; a plain `npm run serve` means production.
+  if (!dev) (process.env as Record<string, string>).NODE_ENV ??= 'production';
+  const { default: next } = await import('next');
+  const database = await getDatabase();
+  if (seedDemo && (await isEmpty(database.db))) {
+    const { bridgeToken } = await seedDemoClinic(database.db);
+    fs.writeFileSync(DEMO_TOKEN_FILE(), bridgeToken, { mode: 0o600 });
+    console.log('[benchwire] seeded the demo clinic (demo data only)');
+  }
+
+  const app = next({ dev, dir: process.cwd(), hostname, port });
+  await app.prepare();
+  const handle = app.getRequestHandler();
+  const nextUpgrade = app.getUpgradeHandler();
+  const hub = await createLiveHub();
+
+  const server = createServer((req, res) => {
+    handle(req, res).catch((error) => {
+      console.error('[benchwire] request failed', error);
+      if (!res.headersSent) res.writeHead(500, { 'content-type': 'application/json' });
+      res.end(JSON.stringify({ error: { code: 'internal', message: 'Something went wrong on the server.', issues: [] } }));
+    });
+  });
+  server.on('upgrade', (req, socket, head) => {
+    const pathname = new URL(req.url ?? '/', 'http://localhost').pathname;
+    if (pathname === LIVE_PATH) void hub.handleUpgrade(req, socket, head);
+    else void nextUpgrade(req, socket, head);
+  });
+
+  server.listen(port, hostname, () => {
+    console.log(`[benchwire] ready on http://localhost:${port} (${dev ? 'development' : 'production'}, data in ${dataDir()})`);
+  });
+
+  let closing = false;
+  const shutdown = async (signal: string) => {
+    if (closing) return;
+    closing = true;
+    console.log(`[benchwire] ${signal}: shutting down`);
+    server.close();
+    await hub.close().catch(() => {});
+    await app.close().catch(() => {});
+    await database.close().catch(() => {});
+    process.exit(0);
+  };
+  process.on('SIGINT', () => void shutdown('SIGINT'));
+  process.on('SIGTERM', () => void shutdown('SIGTERM'));
+}
+
+main().catch((error) => {
+  console.error('[benchwire] failed to start', error);
+  process.exit(1);
+});
