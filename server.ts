@@ -3,27 +3,24 @@
 import { createServer } from 'node:http';
 import fs from 'node:fs';
 import path from 'node:path';
-import { getDatabase } from '@/db/client';
-import { isEmpty, seedDemoClinic } from '@/db/seed';
-import { dataDir } from '@/lib/config';
-import { createLiveHub, LIVE_PATH } from '@/lib/live/hub';
 
 const dev = process.argv.includes('--dev');
 const seedDemo = process.argv.includes('--seed-demo');
 const port = Number(process.env.PORT ?? 3000);
 const hostname = process.env.HOST ?? '0.0.0.0';
 
-/** Where the demo bridge's token is left for `npm start` to hand to the local bridge (demo only). */
-export const DEMO_TOKEN_FILE = () => path.join(dataDir(), 'demo-bridge-token');
-
 async function main() {
   // Next reads NODE_ENV when it starts; a plain `npm run serve` means production.
   if (!dev) (process.env as Record<string, string>).NODE_ENV ??= 'production';
   const { default: next } = await import('next');
+  const { getDatabase } = await import('@/db/client');
+  const { isEmpty, seedDemoClinic } = await import('@/db/seed');
+  const { dataDir } = await import('@/lib/config');
   const database = await getDatabase();
   if (seedDemo && (await isEmpty(database.db))) {
     const { bridgeToken } = await seedDemoClinic(database.db);
-    fs.writeFileSync(DEMO_TOKEN_FILE(), bridgeToken, { mode: 0o600 });
+    // Left for `npm start` to hand to the local demo bridge (demo only).
+    fs.writeFileSync(path.join(dataDir(), 'demo-bridge-token'), bridgeToken, { mode: 0o600 });
     console.log('[benchwire] seeded the demo clinic (demo data only)');
   }
 
@@ -31,6 +28,8 @@ async function main() {
   await app.prepare();
   const handle = app.getRequestHandler();
   const nextUpgrade = app.getUpgradeHandler();
+  // The hub reaches next/server, which needs the environment Next sets up in prepare(): load it after.
+  const { createLiveHub, LIVE_PATH } = await import('@/lib/live/hub');
   const hub = await createLiveHub();
 
   const server = createServer((req, res) => {

@@ -19,7 +19,7 @@ export interface Database {
   close(): Promise<void>;
 }
 
-const MIGRATIONS = path.join(process.cwd(), 'db', 'migrations');
+const MIGRATIONS = path.join(/*turbopackIgnore: true*/ process.cwd(), 'db', 'migrations');
 
 /**
  * Opens embedded PostgreSQL (PGlite) at dir, or in memory when dir is undefined, and applies

@@ -109,7 +109,7 @@ export async function seedDemoClinic(db: Db): Promise<{ clinicId: string; bridge
       .insert(bridges)
       .values({ clinicId: clinic.id, name: 'Lab PC (bench 1)', tokenHash: token.hash, tokenHint: token.hint, createdBy: admin.id })
       .returning();
-    await tx.insert(instruments).values([
+    const [crpReader] = await tx.insert(instruments).values([
       {
         clinicId: clinic.id,
         code: DEMO_CRP_INSTRUMENT,
@@ -130,7 +130,7 @@ export async function seedDemoClinic(db: Db): Promise<{ clinicId: string; bridge
         bridgeId: bridge.id,
         serialNumber: 'SIM-0002',
       },
-    ]);
+    ]).returning();
 
     const biscuit = patientRows[0];
     for (const [i, h] of HISTORY.entries()) {
@@ -142,6 +142,7 @@ export async function seedDemoClinic(db: Db): Promise<{ clinicId: string; bridge
           clinicId: clinic.id,
           bridgeId: bridge.id,
           idempotencyKey: `seed-history-${i}`,
+          instrumentId: crpReader.id,
           instrumentCode: DEMO_CRP_INSTRUMENT,
           instrumentSerial: 'SIM-0001',
           analyte: 'cCRP',

@@ -3,7 +3,8 @@ import path from 'node:path';
 
 // Where Benchwire keeps its database, secrets and captures on this machine. Git-ignored by default.
 export function dataDir(): string {
-  return path.resolve(process.env.DATA_DIR ?? path.join(process.cwd(), '.data'));
+  // turbopackIgnore: the data dir is runtime state, not something to trace into the build.
+  return path.resolve(/*turbopackIgnore: true*/ process.env.DATA_DIR ?? path.join(process.cwd(), '.data'));
 }
 
 export const isProduction = () => process.env.NODE_ENV === 'production';

@@ -1,0 +1,46 @@
+// `npm test`: the whole suite in one run — type check, lint, production build (the browser test
+// serves it), then every vitest test (unit, integration, bridge, pseudo-terminal, browser).
+// Ends with one line `N passed, N failed` for the whole run.
+import { spawnSync } from 'node:child_process';
+import fs from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
+
+const bin = (name: string) => path.join(process.cwd(), 'node_modules', '.bin', name);
+const env = { ...process.env, NEXT_TELEMETRY_DISABLED: '1' };
+let passed = 0;
+let failed = 0;
+let skipped = 0;
+
+function step(name: string, command: string, args: string[], extraEnv: Record<string, string> = {}) {
+  console.log(`\n▶ ${name}: ${path.basename(command)} ${args.join(' ')}`);
+  const result = spawnSync(command, args, { stdio: 'inherit', env: { ...env, ...extraEnv } });
+  const ok = result.status === 0;
+  console.log(`${ok ? '✔' : '✘'} ${name}`);
+  return ok;
+}
+
+for (const [name, command, args] of [
+  ['type check', bin('tsc'), ['--noEmit', '-p', '.']],
+  ['lint', bin('eslint'), ['--max-warnings=0', '.']],
+  ['production build', bin('next'), ['build']],
+] as const) {
+  if (step(name, command, [...args])) passed++;
+  else failed++;
+}
+
+const summaryFile = path.join(fs.mkdtempSync(path.join(os.tmpdir(), 'benchwire-test-')), 'summary.json');
+const vitestOk = step('tests', bin('vitest'), ['run', ...process.argv.slice(2)], { BENCHWIRE_TEST_SUMMARY: summaryFile });
+if (fs.existsSync(summaryFile)) {
+  const counts = JSON.parse(fs.readFileSync(summaryFile, 'utf8')) as { passed: number; failed: number; skipped: number };
+  passed += counts.passed;
+  failed += counts.failed;
+  skipped += counts.skipped;
+  // vitest can fail without a failed test (e.g. an unhandled error between tests): count it.
+  if (!vitestOk && counts.failed === 0) failed++;
+} else if (!vitestOk) {
+  failed++;
+}
+
+console.log(`\n${passed} passed, ${failed} failed${skipped ? `, ${skipped} skipped` : ''}`);
+process.exit(failed === 0 ? 0 : 1);
