@@ -147,10 +147,34 @@ export const instruments = pgTable(
     connection: jsonb().$type<InstrumentConnection>(),
     bridgeId: uuid().references(() => bridges.id, { onDelete: 'set null' }),
     serialNumber: text(),
+    /** For dialect 'profile': which admin-defined printout profile (its latest version is used). */
+    profileId: uuid(),
+    /** Latest link health the bridge reported for this instrument (open/closed, line-noise warnings). */
+    health: jsonb().$type<Record<string, unknown>>(),
     active: boolean().notNull().default(true),
     createdAt: createdAt(),
   },
   (t) => [uniqueIndex('instruments_clinic_code_key').on(t.clinicId, t.code)],
+);
+
+/**
+ * Admin-defined printout profiles for text-printing analyzers: declarative data, never code.
+ * Versioned: a change is a new row with version + 1; readings keep the version that parsed them.
+ */
+export const printoutProfiles = pgTable(
+  'printout_profiles',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    /** Stable identity across versions. */
+    profileKey: uuid().notNull(),
+    name: text().notNull(),
+    version: bigint({ mode: 'number' }).notNull(),
+    definition: jsonb().$type<Record<string, unknown>>().notNull(),
+    createdBy: uuid().references(() => staffUsers.id, { onDelete: 'set null' }),
+    createdAt: createdAt(),
+  },
+  (t) => [uniqueIndex('printout_profiles_key_version').on(t.profileKey, t.version), index('printout_profiles_clinic_idx').on(t.clinicId)],
 );
 
 export const readings = pgTable(
@@ -211,6 +235,11 @@ export const unparsedCaptures = pgTable(
     receivedAt: timestamp({ withTimezone: true }).notNull(),
     storedAt: createdAt(),
     status: captureStatus().notNull().default('open'),
+    /** Who transcribed or dismissed it, when and why; the reading typed from it, if any. */
+    handledBy: uuid().references(() => staffUsers.id, { onDelete: 'restrict' }),
+    handledAt: timestamp({ withTimezone: true }),
+    handlingNote: text(),
+    transcribedReadingId: uuid().references(() => readings.id, { onDelete: 'restrict' }),
   },
   (t) => [
     uniqueIndex('unparsed_captures_bridge_key').on(t.bridgeId, t.idempotencyKey),
@@ -279,3 +308,4 @@ export type Reading = typeof readings.$inferSelect;
 export type UnparsedCapture = typeof unparsedCaptures.$inferSelect;
 export type ResultAssignment = typeof resultAssignments.$inferSelect;
 export type AuditEvent = typeof auditEvents.$inferSelect;
+export type PrintoutProfile = typeof printoutProfiles.$inferSelect;
