@@ -6,7 +6,7 @@ export const LINE_ENCODINGS: readonly LineEncoding[] = ['utf8', 'latin1'];
 
 /** One printed line. `raw` is exactly what came down the cable, line ending included. */
 export interface Line {
-  /** The line without its line ending (a trailing CR before LF is dropped here only). */
+  /** The line without its line ending (LF, and a CR before it); only parsing uses this. */
   text: string;
   raw: string;
   /** The line ran past the length bound: this is one piece of it, ending where it was cut. */
@@ -33,7 +33,8 @@ export class LineSplitter extends ReadlineParser {
   private readonly maxLineBytes: number;
 
   constructor(options: LineSplitterOptions = {}) {
-    super({ delimiter: '\n', includeDelimiter: true, readableObjectMode: true });
+    // encoding undefined: ReadlineParser would otherwise decode its output to strings; lines are decoded here.
+    super({ delimiter: Buffer.from('\n'), includeDelimiter: true, encoding: undefined, readableObjectMode: true });
     this.lineEncoding = options.encoding ?? 'utf8';
     this.maxLineBytes = options.maxLineBytes ?? DEFAULT_MAX_LINE_BYTES;
     if (!Number.isInteger(this.maxLineBytes) || this.maxLineBytes < 16) {
@@ -88,9 +89,8 @@ function contentLength(bytes: Buffer): number {
   return bytes.length > 0 && bytes[bytes.length - 1] === LF ? bytes.length - 1 : bytes.length;
 }
 
-/** Text of a raw line without its LF or CRLF. */
+/** Text of a raw line without its LF and the CR printers send before it. */
 export function lineText(raw: string): string {
-  if (raw.endsWith('\r\n')) return raw.slice(0, -2);
-  if (raw.endsWith('\n')) return raw.slice(0, -1);
-  return raw;
+  const withoutLf = raw.endsWith('\n') ? raw.slice(0, -1) : raw;
+  return withoutLf.endsWith('\r') ? withoutLf.slice(0, -1) : withoutLf;
 }

@@ -1,0 +1,97 @@
+import fc from 'fast-check';
+import { describe, expect, it } from 'vitest';
+import { everyTwoPieceSplit, runThrough, splitAt } from '../testing/streams';
+import { LineSplitter, lineText, type Line, type LineSplitterOptions } from './lines';
+
+const lines = (chunks: ReadonlyArray<Buffer | string>, options?: LineSplitterOptions) =>
+  runThrough<Line>(chunks, [new LineSplitter(options)]);
+
+describe('LineSplitter', () => {
+  // ReadlineParser semantics (serialport docs): split after each delimiter, which is kept with includeDelimiter.
+  it('keeps each line exactly as sent and strips CRLF only from the text', async () => {
+    const out = await lines(['TEST      cCRP\r\nRESULT    37.4 mg/L\r\n\r\nlast\n']);
+    expect(out).toEqual([
+      { raw: 'TEST      cCRP\r\n', text: 'TEST      cCRP', overlong: false },
+      { raw: 'RESULT    37.4 mg/L\r\n', text: 'RESULT    37.4 mg/L', overlong: false },
+      { raw: '\r\n', text: '', overlong: false },
+      { raw: 'last\n', text: 'last', overlong: false },
+    ]);
+  });
+
+  // DelimiterParser flushes what it holds when the stream ends.
+  it('emits an unterminated last line at end of stream', async () => {
+    expect(await lines(['one\r\ntwo'])).toEqual([
+      { raw: 'one\r\n', text: 'one', overlong: false },
+      { raw: 'two', text: 'two', overlong: false },
+    ]);
+  });
+
+  it('joins a CRLF that is split between chunks', async () => {
+    expect(await lines(['SN        SIM-0001\r', '\nEND\r', '\n'])).toEqual(await lines(['SN        SIM-0001\r\nEND\r\n']));
+    expect((await lines(['A\r', '\n']))[0]).toEqual({ raw: 'A\r\n', text: 'A', overlong: false });
+  });
+
+  // Common practice, no source: a framer must not depend on how the OS chunked the bytes.
+  it('gives the same lines for the input split at every position', async () => {
+    const input = Buffer.from('---- RESULT ----\r\nTEST      cCRP\r\n\r\nRESULT    <5,0 mg/L\r\nµ ümlaut\r\ntail');
+    const whole = await lines([input]);
+    for (const chunks of everyTwoPieceSplit(input)) expect(await lines(chunks)).toEqual(whole);
+  });
+
+  it('gives the same lines however the input is chunked, overlong lines included', async () => {
+    const text = fc.array(fc.constantFrom('a', 'é', '€', '𝄞', ' ', '\r', '\n', '\r\n', 'RESULT    12.5 mg/L'), { maxLength: 80 });
+    await fc.assert(
+      fc.asyncProperty(text, fc.array(fc.nat({ max: 400 }), { maxLength: 12 }), async (parts, cuts) => {
+        const input = Buffer.from(parts.join(''));
+        const options = { maxLineBytes: 16 };
+        expect(await lines(splitAt(input, cuts), options)).toEqual(await lines([input], options));
+      }),
+      { numRuns: 200 },
+    );
+  });
+
+  it('cuts an overlong line into marked pieces that together are the whole line', async () => {
+    const long = 'x'.repeat(10_000);
+    const out = await lines([`${long}\r\nnext\r\n`]);
+    expect(out.map((line) => [line.raw.length, line.overlong])).toEqual([
+      [4096, true],
+      [4096, true],
+      [1810, false],
+      [6, false],
+    ]);
+    expect(out.map((line) => line.raw).join('')).toBe(`${long}\r\nnext\r\n`);
+  });
+
+  it('bounds what it holds while waiting for a line end', async () => {
+    const splitter = new LineSplitter({ maxLineBytes: 64 });
+    const seen: Line[] = [];
+    splitter.on('data', (line: Line) => seen.push(line));
+    for (let i = 0; i < 100; i++) splitter.write(Buffer.from('y'.repeat(10)));
+    expect(splitter.buffer.length).toBeLessThanOrEqual(64);
+    splitter.end();
+    await new Promise((resolve) => splitter.on('end', resolve));
+    expect(seen.map((line) => line.raw).join('')).toBe('y'.repeat(1000));
+    expect(seen.every((line) => line.raw.length <= 64)).toBe(true);
+  });
+
+  // UTF-8 (RFC 3629): continuation bytes are 10xxxxxx; a cut must not fall between them.
+  it('does not split a UTF-8 character when cutting', async () => {
+    const out = await lines([`${'ab€'.repeat(20)}\n`], { maxLineBytes: 16 });
+    expect(out.every((line) => !line.raw.includes('\uFFFD'))).toBe(true);
+    expect(out.map((line) => line.raw).join('')).toBe(`${'ab€'.repeat(20)}\n`);
+  });
+
+  it('decodes latin1 when asked', async () => {
+    const out = await lines([Buffer.from([0x35, 0x20, 0xb5, 0x6d, 0x6f, 0x6c, 0x0d, 0x0a])], { encoding: 'latin1' });
+    expect(out).toEqual([{ raw: '5 µmol\r\n', text: '5 µmol', overlong: false }]);
+  });
+});
+
+describe('lineText', () => {
+  it('drops LF, CRLF or a lone trailing CR, and nothing else', () => {
+    expect(lineText('a\r\n')).toBe('a');
+    expect(lineText('a\n')).toBe('a');
+    expect(lineText('a\r')).toBe('a');
+    expect(lineText(' a \t')).toBe(' a \t');
+  });
+});
