@@ -1,0 +1,115 @@
+// Start-up for browser tests: the real server.ts on a free port with its own data dir (demo seed),
+// and Debian's chromium through playwright-core. Requires a production build (`npm test` makes one).
+import { spawn, type ChildProcess } from 'node:child_process';
+import fs from 'node:fs';
+import net from 'node:net';
+import os from 'node:os';
+import path from 'node:path';
+import { chromium, type Browser, type Page } from 'playwright-core';
+
+const root = process.cwd();
+const tsx = path.join(root, 'node_modules', '.bin', 'tsx');
+
+export async function freePort(): Promise<number> {
+  return new Promise((resolve, reject) => {
+    const server = net.createServer();
+    server.once('error', reject);
+    server.listen(0, '127.0.0.1', () => {
+      const { port } = server.address() as net.AddressInfo;
+      server.close(() => resolve(port));
+    });
+  });
+}
+
+async function waitFor<T>(what: string, probe: () => Promise<T | undefined>, timeoutMs: number): Promise<T> {
+  const deadline = Date.now() + timeoutMs;
+  let lastError: unknown;
+  while (Date.now() < deadline) {
+    try {
+      const value = await probe();
+      if (value !== undefined) return value;
+    } catch (error) {
+      lastError = error;
+    }
+    await new Promise((r) => setTimeout(r, 250));
+  }
+  throw new Error(`timed out waiting for ${what}${lastError ? `: ${String(lastError)}` : ''}`);
+}
+
+export interface RunningApp {
+  baseUrl: string;
+  port: number;
+  dataDir: string;
+  bridgeToken: string;
+  logs: () => string;
+  /** Starts another process (simulator, bridge) that is stopped with the app. */
+  spawnSide(args: string[], env?: Record<string, string>): ChildProcess;
+  stop(): Promise<void>;
+}
+
+export async function startApp(): Promise<RunningApp> {
+  if (!fs.existsSync(path.join(root, '.next', 'BUILD_ID'))) {
+    throw new Error('No production build: run `npx next build` first (npm test does).');
+  }
+  const port = await freePort();
+  const dataDir = fs.mkdtempSync(path.join(os.tmpdir(), 'benchwire-e2e-'));
+  let output = '';
+  const children: ChildProcess[] = [];
+  const env = { ...process.env, PORT: String(port), DATA_DIR: dataDir, NODE_ENV: 'production', HOST: '127.0.0.1', NEXT_TELEMETRY_DISABLED: '1' };
+  const track = (child: ChildProcess, name: string) => {
+    child.stdout?.on('data', (d) => (output += `[${name}] ${d}`));
+    child.stderr?.on('data', (d) => (output += `[${name}] ${d}`));
+    children.push(child);
+    return child;
+  };
+  track(spawn(tsx, ['--tsconfig', 'tsconfig.server.json', 'server.ts', '--seed-demo'], { cwd: root, env }), 'server');
+  const baseUrl = `http://127.0.0.1:${port}`;
+  await waitFor('the server to answer /api/health', async () => ((await fetch(`${baseUrl}/api/health`)).ok ? true : undefined), 120_000).catch(
+    (error) => {
+      throw new Error(`${error.message}\n--- server output ---\n${output}`);
+    },
+  );
+  const bridgeToken = fs.readFileSync(path.join(dataDir, 'demo-bridge-token'), 'utf8').trim();
+  return {
+    baseUrl,
+    port,
+    dataDir,
+    bridgeToken,
+    logs: () => output,
+    spawnSide: (args, extra = {}) => track(spawn(tsx, args, { cwd: root, env: { ...env, ...extra } }), path.basename(args[1] ?? args[0])),
+    async stop() {
+      await Promise.all(
+        children.map(
+          (child) =>
+            new Promise<void>((resolve) => {
+              if (child.exitCode !== null || child.signalCode !== null) return resolve();
+              child.once('exit', () => resolve());
+              child.kill('SIGTERM');
+              setTimeout(() => child.kill('SIGKILL'), 5000).unref();
+            }),
+        ),
+      );
+      fs.rmSync(dataDir, { recursive: true, force: true });
+    },
+  };
+}
+
+export function launchBrowser(): Promise<Browser> {
+  return chromium.launch({
+    executablePath: process.env.CHROMIUM_PATH ?? '/usr/bin/chromium',
+    args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking', '--disable-dev-shm-usage'],
+  });
+}
+
+/** Signs in through the real form in a fresh browser context. */
+export async function signInAs(browser: Browser, baseUrl: string, email: string, password = 'demo-only-pass'): Promise<Page> {
+  const context = await browser.newContext({ baseURL: baseUrl });
+  const page = await context.newPage();
+  await page.goto('/sign-in');
+  await page.fill('#email', email);
+  await page.fill('#password', password);
+  await page.click('button[type=submit]');
+  await page.waitForURL('**/intake', { timeout: 60_000 });
+  await page.waitForSelector('[data-live-state=live]', { timeout: 60_000 });
+  return page;
+}
