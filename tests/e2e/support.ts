@@ -55,7 +55,7 @@ export async function startApp(): Promise<RunningApp> {
   const dataDir = fs.mkdtempSync(path.join(os.tmpdir(), 'benchwire-e2e-'));
   let output = '';
   const children: ChildProcess[] = [];
-  const env = { ...process.env, PORT: String(port), DATA_DIR: dataDir, NODE_ENV: 'production', HOST: '127.0.0.1', NEXT_TELEMETRY_DISABLED: '1' };
+  const env = { ...process.env, PORT: String(port), DATA_DIR: dataDir, NODE_ENV: 'production' as const, HOST: '127.0.0.1', NEXT_TELEMETRY_DISABLED: '1' };
   const track = (child: ChildProcess, name: string) => {
     child.stdout?.on('data', (d) => (output += `[${name}] ${d}`));
     child.stderr?.on('data', (d) => (output += `[${name}] ${d}`));
