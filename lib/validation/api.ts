@@ -105,3 +105,19 @@ export const DIALECT_LABELS: Record<string, string> = {
   'astm-e1394': 'ASTM E1381/E1394 (LIS1/LIS2)',
   hl7v2: 'HL7 v2 over MLLP',
 };
+
+export const dismissCaptureSchema = z.object({
+  reason: z.string().trim().min(3, 'Say why this capture can be dismissed.').max(500),
+});
+
+/** A result typed by a person from an unparsed capture (read against the instrument's display or slip). */
+export const transcribeCaptureSchema = z.object({
+  analyte: z.string().trim().min(1, 'Enter the test.').max(64),
+  value: z.coerce.number({ message: 'Enter the number as printed.' }).finite(),
+  comparator: z.enum(['<', '>']).nullable().default(null),
+  unit: z.string().trim().max(32).nullable().default(null),
+  measuredAt: z.iso.datetime({ offset: true, message: 'Enter when it was measured.' }).nullable().default(null),
+  sampleId: z.string().trim().max(64).nullable().default(null),
+  note: z.string().trim().max(500).optional(),
+});
+export type TranscribeCaptureInput = z.infer<typeof transcribeCaptureSchema>;

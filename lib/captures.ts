@@ -1,0 +1,105 @@
+import 'server-only';
+import { and, eq } from 'drizzle-orm';
+import { db, type Tx } from '@/db/client';
+import { readings, unparsedCaptures } from '@/db/schema';
+import type { Actor } from '@/lib/auth/guards';
+import { allowed } from '@/lib/auth/roles';
+import { recordAudit } from '@/lib/audit';
+import { ApiError, notFound } from '@/lib/http';
+import { publish } from '@/lib/live/bus';
+import type { TranscribeCaptureInput } from '@/lib/validation/api';
+
+async function lockOpenCapture(tx: Tx, actor: Actor, captureId: string) {
+  if (!allowed(actor.role, 'assignReadings')) throw new ApiError(403, 'forbidden', 'Your role does not allow this.');
+  const [capture] = await tx
+    .select()
+    .from(unparsedCaptures)
+    .where(and(eq(unparsedCaptures.id, captureId), eq(unparsedCaptures.clinicId, actor.clinicId)))
+    .for('update');
+  if (!capture) throw notFound('The capture');
+  if (capture.status !== 'open') {
+    throw new ApiError(409, 'already_handled', `This capture was already ${capture.status}.`);
+  }
+  return capture;
+}
+
+/** Dismisses a capture that holds no result (paper-feed notices, a self-test); the text stays on record. */
+export async function dismissCapture(actor: Actor, captureId: string, reason: string) {
+  const database = await db();
+  return database.transaction(async (tx) => {
+    await lockOpenCapture(tx, actor, captureId);
+    await tx
+      .update(unparsedCaptures)
+      .set({ status: 'dismissed', handledBy: actor.userId, handledAt: new Date(), handlingNote: reason })
+      .where(eq(unparsedCaptures.id, captureId));
+    await recordAudit(tx, {
+      clinicId: actor.clinicId,
+      actorUserId: actor.userId,
+      action: 'capture.dismissed',
+      entityType: 'unparsed_capture',
+      entityId: captureId,
+      details: { reason },
+    });
+    await publish(tx, { type: 'capture.updated', clinicId: actor.clinicId, id: captureId });
+    return { captureId, status: 'dismissed' as const };
+  });
+}
+
+/**
+ * Turns a capture into a reading from values a person typed while reading the raw text. The reading
+ * is unassigned and marked as transcribed; it then goes through Intake like any other.
+ */
+export async function transcribeCapture(actor: Actor, captureId: string, input: TranscribeCaptureInput) {
+  const database = await db();
+  return database.transaction(async (tx) => {
+    const capture = await lockOpenCapture(tx, actor, captureId);
+    const [reading] = await tx
+      .insert(readings)
+      .values({
+        clinicId: actor.clinicId,
+        bridgeId: capture.bridgeId,
+        idempotencyKey: `transcribed:${capture.id}`,
+        instrumentId: capture.instrumentId,
+        instrumentCode: capture.instrumentCode,
+        analyte: input.analyte,
+        value: input.value,
+        comparator: input.comparator,
+        unit: input.unit,
+        flags: ['transcribed'],
+        sampleId: input.sampleId,
+        measuredAt: input.measuredAt ? new Date(input.measuredAt) : null,
+        receivedAt: capture.receivedAt,
+        raw: capture.raw,
+      })
+      .returning({ id: readings.id });
+    await tx
+      .update(unparsedCaptures)
+      .set({
+        status: 'transcribed',
+        handledBy: actor.userId,
+        handledAt: new Date(),
+        handlingNote: input.note ?? null,
+        transcribedReadingId: reading.id,
+      })
+      .where(eq(unparsedCaptures.id, captureId));
+    await recordAudit(tx, {
+      clinicId: actor.clinicId,
+      actorUserId: actor.userId,
+      action: 'reading.transcribed',
+      entityType: 'reading',
+      entityId: reading.id,
+      details: { captureId, analyte: input.analyte, value: input.value, comparator: input.comparator, unit: input.unit },
+    });
+    await recordAudit(tx, {
+      clinicId: actor.clinicId,
+      actorUserId: actor.userId,
+      action: 'capture.transcribed',
+      entityType: 'unparsed_capture',
+      entityId: captureId,
+      details: { readingId: reading.id },
+    });
+    await publish(tx, { type: 'capture.updated', clinicId: actor.clinicId, id: captureId });
+    await publish(tx, { type: 'reading.created', clinicId: actor.clinicId, id: reading.id });
+    return { captureId, readingId: reading.id, status: 'transcribed' as const };
+  });
+}
