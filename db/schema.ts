@@ -8,6 +8,7 @@ import {
   date,
   doublePrecision,
   index,
+  integer,
   jsonb,
   pgEnum,
   pgTable,
@@ -15,6 +16,7 @@ import {
   timestamp,
   uniqueIndex,
   uuid,
+  type AnyPgColumn,
 } from 'drizzle-orm/pg-core';
 
 const id = () => uuid().primaryKey().defaultRandom();
@@ -35,6 +37,12 @@ export const patientSex = pgEnum('patient_sex', [
 ]);
 export const readingStatus = pgEnum('reading_status', ['unassigned', 'assigned', 'voided']);
 export const captureStatus = pgEnum('capture_status', ['open', 'transcribed', 'dismissed']);
+export const orderStatus = pgEnum('order_status', ['open', 'fulfilled', 'aborted', 'cancelled']);
+export const sampleType = pgEnum('sample_type', ['whole_blood', 'serum', 'plasma', 'urine', 'other']);
+export const reviewKind = pgEnum('review_kind', ['comment', 'reviewed']);
+
+/** Stands in for "no instrument" in unique indexes, so a species-wide default is unique too. */
+const NO_INSTRUMENT = sql`'00000000-0000-0000-0000-000000000000'::uuid`;
 
 export const clinics = pgTable('clinics', {
   id: id(),
@@ -151,10 +159,15 @@ export const instruments = pgTable(
     profileId: uuid(),
     /** Latest link health the bridge reported for this instrument (open/closed, line-noise warnings). */
     health: jsonb().$type<Record<string, unknown>>(),
+    /** How many runs it holds at once; a single-channel reader finishes its runs in the order they started. */
+    channels: integer().notNull().default(1),
     active: boolean().notNull().default(true),
     createdAt: createdAt(),
   },
-  (t) => [uniqueIndex('instruments_clinic_code_key').on(t.clinicId, t.code)],
+  (t) => [
+    uniqueIndex('instruments_clinic_code_key').on(t.clinicId, t.code),
+    check('instruments_channels_positive', sql`${t.channels} >= 1`),
+  ],
 );
 
 /**
@@ -262,8 +275,10 @@ export const resultAssignments = pgTable(
       .notNull()
       .references(() => staffUsers.id, { onDelete: 'restrict' }),
     assignedAt: createdAt(),
-    /** How the match was made: 'manual' now; suggestions and sample-ID rules later. */
+    /** How the match was made: 'manual' (searched), 'suggestion' (a ranked match a person confirmed) or 'auto-sample-id'. */
     method: text().notNull().default('manual'),
+    /** The order this reading fulfilled, if it was matched to one. */
+    orderId: uuid().references((): AnyPgColumn => labOrders.id, { onDelete: 'restrict' }),
     endedAt: timestamp({ withTimezone: true }),
     endedBy: uuid().references(() => staffUsers.id, { onDelete: 'restrict' }),
     endReason: text(),
@@ -297,6 +312,224 @@ export const auditEvents = pgTable(
   ],
 );
 
+/**
+ * How the clinic uses an analyte: the unit results are kept and compared in (UCUM), the unit it shows,
+ * the species it is validated for, and the delta check that guards against wrong-patient assignment.
+ */
+export const analyteSettings = pgTable(
+  'analyte_settings',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    /** As instruments print it (e.g. "cCRP"). */
+    code: text().notNull(),
+    name: text().notNull(),
+    /** UCUM unit that intervals, statistics and delta checks use. */
+    unit: text().notNull(),
+    /** UCUM unit the clinic reads results in (e.g. mg/L or mg/dL). */
+    displayUnit: text().notNull(),
+    decimals: integer().notNull().default(1),
+    /** Species the test is validated for; others get a clear warning, never a silent result. */
+    validatedSpecies: species().array().notNull().default(sql`'{}'::species[]`),
+    speciesNote: text(),
+    /** Flag "check patient identity" when a result moves more than both limits within the window. */
+    deltaAbsolute: doublePrecision(),
+    deltaPercent: doublePrecision(),
+    deltaWindowHours: doublePrecision(),
+    deltaSource: text(),
+    updatedBy: uuid().references(() => staffUsers.id, { onDelete: 'set null' }),
+    updatedAt: createdAt(),
+  },
+  (t) => [
+    uniqueIndex('analyte_settings_clinic_code_key').on(t.clinicId, t.code),
+    check('analyte_settings_decimals', sql`${t.decimals} between 0 and 6`),
+  ],
+);
+
+/** One stage of a run on the bench: mixing, re-insertion, incubation… */
+export interface ProtocolStage {
+  key: string;
+  label: string;
+  /** Nominal length of the stage. */
+  seconds: number;
+  /** When set, the run is aborted if the stage takes longer (e.g. re-insert within 10 s). */
+  maxSeconds?: number | null;
+  /** True where a person must act during the stage (the board calls for attention). */
+  handsOn?: boolean;
+}
+
+/** How long a test takes on the bench, per analyte and (optionally) instrument; stages are data. */
+export const runProtocols = pgTable(
+  'run_protocols',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    analyte: text().notNull(),
+    instrumentId: uuid().references(() => instruments.id, { onDelete: 'cascade' }),
+    name: text().notNull(),
+    stages: jsonb().$type<ProtocolStage[]>().notNull(),
+    /** How far before / after the due time a reading may arrive and still match by timing. */
+    earlySeconds: integer().notNull().default(60),
+    lateSeconds: integer().notNull().default(180),
+    source: text().notNull(),
+    updatedBy: uuid().references(() => staffUsers.id, { onDelete: 'set null' }),
+    updatedAt: createdAt(),
+  },
+  (t) => [
+    uniqueIndex('run_protocols_clinic_analyte_instrument_key').on(
+      t.clinicId,
+      t.analyte,
+      sql`coalesce(${t.instrumentId}, ${NO_INSTRUMENT})`,
+    ),
+    check('run_protocols_tolerances', sql`${t.earlySeconds} >= 0 and ${t.lateSeconds} >= 0`),
+  ],
+);
+
+/** A test started for a patient on the bench. A reading fulfils at most one order and an order takes one reading. */
+export const labOrders = pgTable(
+  'lab_orders',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    patientId: uuid()
+      .notNull()
+      .references(() => patients.id, { onDelete: 'restrict' }),
+    analyte: text().notNull(),
+    instrumentId: uuid().references(() => instruments.id, { onDelete: 'set null' }),
+    sampleType: sampleType().notNull(),
+    /** The label on the tube or cartridge, when there is one: an exact match is the strongest evidence. */
+    sampleId: text(),
+    /** For lab quality later: which kit lot the test came from. */
+    kitLot: text(),
+    orderedBy: uuid()
+      .notNull()
+      .references(() => staffUsers.id, { onDelete: 'restrict' }),
+    startedBy: uuid()
+      .notNull()
+      .references(() => staffUsers.id, { onDelete: 'restrict' }),
+    startedAt: timestamp({ withTimezone: true }).notNull(),
+    /** From the protocol's stages at start; the stages are copied so later protocol edits do not move it. */
+    dueAt: timestamp({ withTimezone: true }).notNull(),
+    protocolId: uuid().references(() => runProtocols.id, { onDelete: 'set null' }),
+    stages: jsonb().$type<ProtocolStage[]>().notNull().default([]),
+    status: orderStatus().notNull().default('open'),
+    fulfilledReadingId: uuid().references(() => readings.id, { onDelete: 'restrict' }),
+    fulfilledAt: timestamp({ withTimezone: true }),
+    /** An aborted run still used up a test (kit stock, QC counts). */
+    testConsumed: boolean().notNull().default(false),
+    closedBy: uuid().references(() => staffUsers.id, { onDelete: 'restrict' }),
+    closedAt: timestamp({ withTimezone: true }),
+    closeReason: text(),
+    note: text(),
+    createdAt: createdAt(),
+  },
+  (t) => [
+    // Two readings can never fulfil one order, nor one reading two orders.
+    uniqueIndex('lab_orders_fulfilled_reading_key').on(t.fulfilledReadingId),
+    index('lab_orders_clinic_status_idx').on(t.clinicId, t.status, t.dueAt),
+    index('lab_orders_patient_idx').on(t.patientId, t.startedAt),
+    check('lab_orders_fulfilled_has_reading', sql`(${t.status} = 'fulfilled') = (${t.fulfilledReadingId} is not null)`),
+    check('lab_orders_due_after_start', sql`${t.dueAt} >= ${t.startedAt}`),
+  ],
+);
+
+export interface InterpretationBand {
+  label: string;
+  /** Inclusive lower bound; null means open below. */
+  from: number | null;
+  /** Exclusive upper bound; null means open above. */
+  to: number | null;
+}
+
+/** Reference interval per analyte and species (optionally per instrument), with where each default came from. */
+export const referenceIntervals = pgTable(
+  'reference_intervals',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    analyte: text().notNull(),
+    species: species().notNull(),
+    instrumentId: uuid().references(() => instruments.id, { onDelete: 'cascade' }),
+    /** UCUM unit of the limits below. */
+    unit: text().notNull(),
+    low: doublePrecision(),
+    high: doublePrecision(),
+    criticalLow: doublePrecision(),
+    criticalHigh: doublePrecision(),
+    bands: jsonb().$type<InterpretationBand[]>().notNull().default([]),
+    source: text().notNull(),
+    updatedBy: uuid().references(() => staffUsers.id, { onDelete: 'set null' }),
+    updatedAt: createdAt(),
+  },
+  (t) => [
+    uniqueIndex('reference_intervals_key').on(t.clinicId, t.analyte, t.species, sql`coalesce(${t.instrumentId}, ${NO_INSTRUMENT})`),
+    check('reference_intervals_order', sql`${t.low} is null or ${t.high} is null or ${t.low} <= ${t.high}`),
+    check(
+      'reference_intervals_critical_order',
+      sql`(${t.criticalLow} is null or ${t.low} is null or ${t.criticalLow} <= ${t.low}) and (${t.criticalHigh} is null or ${t.high} is null or ${t.criticalHigh} >= ${t.high})`,
+    ),
+  ],
+);
+
+/** A veterinarian's comment or sign-off on one assignment of a result. Append-only (trigger in the migrations). */
+export const resultReviews = pgTable(
+  'result_reviews',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    readingId: uuid()
+      .notNull()
+      .references(() => readings.id, { onDelete: 'restrict' }),
+    /** Reviews belong to the result as it was on this patient; a reassigned result needs a new review. */
+    assignmentId: uuid()
+      .notNull()
+      .references(() => resultAssignments.id, { onDelete: 'restrict' }),
+    reviewerId: uuid()
+      .notNull()
+      .references(() => staffUsers.id, { onDelete: 'restrict' }),
+    kind: reviewKind().notNull(),
+    comment: text(),
+    at: createdAt(),
+  },
+  (t) => [index('result_reviews_reading_idx').on(t.readingId, t.at), index('result_reviews_assignment_idx').on(t.assignmentId)],
+);
+
+/** A critical result raised for the patient's attending veterinarian; listed until someone acknowledges it. */
+export const resultAlerts = pgTable(
+  'result_alerts',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    readingId: uuid()
+      .notNull()
+      .references(() => readings.id, { onDelete: 'restrict' }),
+    assignmentId: uuid()
+      .notNull()
+      .references(() => resultAssignments.id, { onDelete: 'restrict' }),
+    patientId: uuid()
+      .notNull()
+      .references(() => patients.id, { onDelete: 'restrict' }),
+    /** The attending veterinarian then; null when the patient had none (every veterinarian sees it). */
+    recipientId: uuid().references(() => staffUsers.id, { onDelete: 'set null' }),
+    kind: text().$type<'critical-low' | 'critical-high'>().notNull(),
+    /** What was flagged, as it stood when raised (intervals may change later). */
+    message: text().notNull(),
+    threshold: doublePrecision().notNull(),
+    unit: text().notNull(),
+    createdAt: createdAt(),
+    acknowledgedBy: uuid().references(() => staffUsers.id, { onDelete: 'restrict' }),
+    acknowledgedAt: timestamp({ withTimezone: true }),
+    acknowledgeNote: text(),
+    /** Set when the reading left this patient (reassigned or voided): the alert no longer applies. */
+    withdrawnAt: timestamp({ withTimezone: true }),
+  },
+  (t) => [
+    uniqueIndex('result_alerts_assignment_key').on(t.assignmentId),
+    index('result_alerts_clinic_open_idx').on(t.clinicId, t.acknowledgedAt, t.createdAt),
+    check('result_alerts_kind', sql`${t.kind} in ('critical-low', 'critical-high')`),
+  ],
+);
+
 export type Clinic = typeof clinics.$inferSelect;
 export type StaffUser = typeof staffUsers.$inferSelect;
 export type StaffRole = (typeof staffRole.enumValues)[number];
@@ -309,3 +542,11 @@ export type UnparsedCapture = typeof unparsedCaptures.$inferSelect;
 export type ResultAssignment = typeof resultAssignments.$inferSelect;
 export type AuditEvent = typeof auditEvents.$inferSelect;
 export type PrintoutProfile = typeof printoutProfiles.$inferSelect;
+export type AnalyteSetting = typeof analyteSettings.$inferSelect;
+export type RunProtocol = typeof runProtocols.$inferSelect;
+export type LabOrder = typeof labOrders.$inferSelect;
+export type ReferenceInterval = typeof referenceIntervals.$inferSelect;
+export type ResultReview = typeof resultReviews.$inferSelect;
+export type ResultAlert = typeof resultAlerts.$inferSelect;
+export type Species = (typeof species.enumValues)[number];
+export type SampleType = (typeof sampleType.enumValues)[number];
