@@ -10,6 +10,9 @@ import * as me from '@/app/api/auth/me/route';
 import * as signOut from '@/app/api/auth/sign-out/route';
 import * as heartbeat from '@/app/api/bridge/heartbeat/route';
 import * as bridgeReadings from '@/app/api/bridge/readings/route';
+import * as bridgeConfig from '@/app/api/bridge/config/route';
+import * as captureDismiss from '@/app/api/captures/[captureId]/dismiss/route';
+import * as captureTranscribe from '@/app/api/captures/[captureId]/transcribe/route';
 import * as captures from '@/app/api/captures/route';
 import * as patientsList from '@/app/api/patients/route';
 import * as patient from '@/app/api/patients/[patientId]/route';
@@ -74,6 +77,23 @@ const STAFF_ROUTES: Call[] = [
     body: () => ({ reason: 'control run' }),
   },
   { name: 'GET /api/captures', handler: captures.GET, method: 'GET', path: '/api/captures', context: none },
+  // Capture actions: only the guard is exercised here (their bodies never get read without a session).
+  {
+    name: 'POST /api/captures/[id]/dismiss',
+    handler: captureDismiss.POST,
+    method: 'POST',
+    path: '/api/captures/x/dismiss',
+    context: () => params({ captureId: crypto.randomUUID() }),
+    body: () => ({}),
+  },
+  {
+    name: 'POST /api/captures/[id]/transcribe',
+    handler: captureTranscribe.POST,
+    method: 'POST',
+    path: '/api/captures/x/transcribe',
+    context: () => params({ captureId: crypto.randomUUID() }),
+    body: () => ({}),
+  },
   { name: 'GET /api/patients', handler: patientsList.GET, method: 'GET', path: '/api/patients?q=bis', context: none },
   { name: 'GET /api/patients/[id]', handler: patient.GET, method: 'GET', path: '/api/patients/x', context: () => params({ patientId: ids.patient }) },
   {
@@ -131,6 +151,7 @@ const ADMIN_ROUTES: Call[] = [
 ];
 
 const BRIDGE_ROUTES: Call[] = [
+  { name: 'GET /api/bridge/config', handler: bridgeConfig.GET, method: 'GET', path: '/api/bridge/config', context: none },
   {
     name: 'POST /api/bridge/readings',
     handler: bridgeReadings.POST,
