@@ -6,7 +6,7 @@ import { REJECTED_FILE, Spool } from './spool';
 import { when } from './testing/events';
 import { reading, tempDir } from './testing/payloads';
 import { freePort, keyStore, startTestServer, type Reply, type TestServer } from './testing/server';
-import { Uploader, type RetryEvent, type UploaderOptions } from './uploader';
+import { Uploader, type RetryEvent, type UploadedEvent, type UploaderOptions } from './uploader';
 
 // Expectations follow the bridge contract in lib/validation/readings.ts and the server's documented
 // answers: 200 with a result per key, 400 malformed, 401 bad token, 5xx and network errors "try again".
@@ -56,7 +56,7 @@ function upload(server: string, options: Partial<UploaderOptions> = {}) {
   return uploader;
 }
 
-const drained = (uploader: Uploader) => when(uploader, 'uploaded', () => spool.depth() === 0);
+const drained = (uploader: Uploader) => when<[UploadedEvent]>(uploader, 'uploaded', () => spool.depth() === 0);
 
 async function spoolReadings(count: number) {
   const records = [];
