@@ -55,7 +55,7 @@ describe('bearerToken (RFC 6750 §2.1)', () => {
     expect(bearerToken(withAuthorization('Bearer mF_9.B5f-4.1JqM=='))).toBe('mF_9.B5f-4.1JqM==');
   });
 
-  it.each([
+  it.each<[string | undefined, string]>([
     [undefined, 'no header'],
     ['', 'empty header'],
     ['Bearer', 'scheme without a token'],
