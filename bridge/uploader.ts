@@ -6,14 +6,10 @@ import {
   type BridgeHeartbeat,
   type BridgeRecord,
 } from '../lib/validation/readings';
+import { backoffDelay, formatSeconds as seconds, type RetryPolicy } from './backoff';
 import { errorMessage, silentLog, type Log } from './log';
 import type { SourceStatus } from './sources/source';
 import type { Spool } from './spool';
-
-export interface RetryPolicy {
-  initialMs: number;
-  maxMs: number;
-}
 
 export interface UploaderOptions {
   /** Base URL of the Benchwire server, e.g. http://localhost:3000 */
@@ -290,10 +286,8 @@ export class Uploader extends EventEmitter<UploaderEvents> {
     }
   }
 
-  /** Exponential backoff with jitter: half the step fixed, half random. */
   private backoff(failures: number): number {
-    const step = Math.min(this.retry.maxMs, this.retry.initialMs * 2 ** Math.min(failures, 30));
-    return Math.round(step / 2 + (this.random() * step) / 2);
+    return backoffDelay(failures, this.retry, this.random);
   }
 
   /** Wait, cut short by stop() and, if asked, by a newly spooled record. */
@@ -323,6 +317,4 @@ function errorBody(json: unknown, text: string): unknown {
   return error ?? (text.slice(0, 2000) || null);
 }
 
-function seconds(ms: number): string {
-  return `${(ms / 1000).toFixed(1)} s`;
-}
+export type { RetryPolicy } from './backoff';

@@ -135,7 +135,7 @@ export class RecordFramer extends Transform {
     if (this.idleMs === undefined || (!this.record && this.stray.length === 0)) return;
     this.idleTimer = setTimeout(() => {
       this.idleTimer = undefined;
-      this.giveUpRecord(`record cut short: no end line within ${formatSeconds(this.idleMs ?? 0)}`);
+      this.giveUpRecord(`record cut short: no end line within ${Math.round((this.idleMs ?? 0) / 100) / 10} s`);
       this.flushStray();
     }, this.idleMs);
   }
@@ -157,8 +157,4 @@ function rawOf(lines: readonly Line[]): string {
 
 function charsOf(lines: readonly Line[]): number {
   return lines.reduce((sum, line) => sum + line.raw.length, 0);
-}
-
-function formatSeconds(ms: number): string {
-  return `${Math.round(ms / 100) / 10} s`;
 }
