@@ -10,6 +10,7 @@ export class ApiError extends Error {
     message: string,
     readonly issues: { path: string; message: string }[] = [],
     readonly extra: Record<string, unknown> = {},
+    readonly headers: Record<string, string> = {},
   ) {
     super(message);
   }
@@ -29,7 +30,7 @@ export function errorResponse(error: unknown): Response {
   if (error instanceof ApiError) {
     return NextResponse.json(
       { error: { code: error.code, message: error.message, issues: error.issues, ...error.extra } },
-      { status: error.status },
+      { status: error.status, headers: error.headers },
     );
   }
   if (error instanceof ZodError) {

@@ -115,6 +115,9 @@ export async function addStaff(actor: Actor, input: NewStaffInput) {
 }
 
 export async function updateStaff(actor: Actor, userId: string, change: { role?: Actor['role']; active?: boolean }) {
+  if (change.role === undefined && change.active === undefined) {
+    throw new ApiError(400, 'invalid_request', 'Nothing to change: send a role, active, or both.');
+  }
   if (userId === actor.userId && (change.active === false || (change.role && change.role !== 'admin'))) {
     throw new ApiError(409, 'self_lockout', 'You cannot remove your own administrator access.');
   }

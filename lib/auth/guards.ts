@@ -46,12 +46,21 @@ export async function requireActor(request: Request, permission?: Permission): P
 /** A bridge authenticates with its bearer token; revoked tokens are refused. */
 export async function requireBridge(request: Request): Promise<Bridge> {
   const token = bearerToken(request);
-  if (!token) throw new ApiError(401, 'unauthenticated', 'A bridge token is required (Authorization: Bearer …).');
+  // RFC 6750 §3: a 401 for a bearer-protected resource carries a challenge.
+  if (!token) {
+    throw new ApiError(401, 'unauthenticated', 'A bridge token is required (Authorization: Bearer …).', [], {}, {
+      'www-authenticate': 'Bearer realm="benchwire-bridge"',
+    });
+  }
   const database = await db();
   const [bridge] = await database
     .select()
     .from(bridges)
     .where(and(eq(bridges.tokenHash, hashBridgeToken(token)), isNull(bridges.revokedAt)));
-  if (!bridge) throw new ApiError(401, 'invalid_token', 'This bridge token is unknown or has been revoked.');
+  if (!bridge) {
+    throw new ApiError(401, 'invalid_token', 'This bridge token is unknown or has been revoked.', [], {}, {
+      'www-authenticate': 'Bearer realm="benchwire-bridge", error="invalid_token"',
+    });
+  }
   return bridge;
 }

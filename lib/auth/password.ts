@@ -20,13 +20,21 @@ export async function hashPassword(password: string): Promise<string> {
   return ['scrypt', N, R, P, salt.toString('base64'), key.toString('base64')].join('$');
 }
 
+/** Cost settings a stored hash may name: ours, and stronger ones a later release may use. */
+const ACCEPTED_N = new Set([2 ** 15, 2 ** 16, 2 ** 17]);
+
 export async function verifyPassword(password: string, stored: string): Promise<boolean> {
-  const [kind, n, r, p, salt, hash] = stored.split('$');
-  if (kind !== 'scrypt' || !salt || !hash) return false;
+  const [kind, n, r, p, salt, hash, ...rest] = stored.split('$');
+  const N = Number(n);
+  // Never let the stored value choose a weak or empty check: fixed key length, known cost only.
+  if (kind !== 'scrypt' || rest.length || !ACCEPTED_N.has(N) || r !== String(R) || p !== String(P) || !salt || !hash) {
+    return false;
+  }
   const expected = Buffer.from(hash, 'base64');
-  const cost = { N: Number(n), r: Number(r), p: Number(p), maxmem: 128 * Number(n) * Number(r) * 2 };
-  const key = await scrypt(password.normalize('NFKC'), Buffer.from(salt, 'base64'), expected.length, cost);
-  return key.length === expected.length && timingSafeEqual(key, expected);
+  const saltBytes = Buffer.from(salt, 'base64');
+  if (expected.length !== KEYLEN || saltBytes.length < 16) return false;
+  const key = await scrypt(password.normalize('NFKC'), saltBytes, KEYLEN, { N, r: R, p: P, maxmem: 128 * N * R * 2 });
+  return timingSafeEqual(key, expected);
 }
 
 /** A hash to compare against when the e-mail is unknown, so timing does not reveal which addresses exist. */

@@ -61,7 +61,15 @@ export function cookieValue(header: string | null | undefined, name: string): st
   if (!header) return null;
   for (const part of header.split(';')) {
     const eq = part.indexOf('=');
-    if (eq > 0 && part.slice(0, eq).trim() === name) return decodeURIComponent(part.slice(eq + 1).trim());
+    if (eq > 0 && part.slice(0, eq).trim() === name) {
+      const raw = part.slice(eq + 1).trim();
+      try {
+        return decodeURIComponent(raw);
+      } catch {
+        // A malformed escape is a bad cookie, not a server error: treat it as absent.
+        return null;
+      }
+    }
   }
   return null;
 }

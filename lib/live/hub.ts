@@ -51,7 +51,13 @@ export async function createLiveHub() {
 
   async function handleUpgrade(request: IncomingMessage, socket: Duplex, head: Buffer) {
     socket.on('error', () => socket.destroy());
-    const actor = await actorFromSeal(cookieValue(request.headers.cookie, SESSION_COOKIE)).catch(() => null);
+    let actor: Awaited<ReturnType<typeof actorFromSeal>> = null;
+    try {
+      actor = await actorFromSeal(cookieValue(request.headers.cookie, SESSION_COOKIE));
+    } catch (error) {
+      // One bad upgrade must never take the server down.
+      console.error('[benchwire] live feed: could not check a session', error);
+    }
     if (!actor) return refuse(socket, 401, 'Unauthorized');
     wss.handleUpgrade(request, socket, head, (ws) => {
       const member: Member = { socket: ws, userId: actor.userId, alive: true };

@@ -1,5 +1,4 @@
-// PENDING: enable (rename to .test.ts) once PATCH /api/admin/staff/[userId] handles an empty change.
-// Bug: lib/validation/api.ts updateStaffSchema has only optional fields, so `{}` (or `{"displayName":"x"}`, whose
+// Regression: lib/validation/api.ts updateStaffSchema has only optional fields, so `{}` (or `{"displayName":"x"}`, whose
 // unknown key is stripped) passes; lib/staff.ts updateStaff then calls drizzle `.set({})`, which throws
 // "No values to set", and the route answers 500 "internal".
 // Expected: 400 invalid_request (nothing to change) — RFC 9110 §15.5.1 — or a 200 no-op; never 500.

@@ -1,5 +1,4 @@
-// PENDING: enable (rename to .test.ts) once lib/auth/session.ts cookieValue no longer throws.
-// Bug: cookieValue() calls decodeURIComponent() on the cookie value without a try/catch. A Cookie header such as
+// Regression: cookieValue() calls decodeURIComponent() on the cookie value without a try/catch. A Cookie header such as
 // "benchwire_session=%E0%A4%A" (any malformed percent-escape) throws URIError:
 //  - every staff route answers 500 "internal" instead of 401 (apiRoute catches it as an unexpected error);
 //  - lib/live/hub.ts handleUpgrade() evaluates cookieValue(...) *outside* the .catch(() => null), so the

@@ -1,5 +1,4 @@
-// PENDING: enable (rename to .test.ts) once bridge 401s carry a WWW-Authenticate challenge.
-// Spec deviation: lib/auth/guards.ts requireBridge throws ApiError(401) and lib/http.ts errorResponse sends no
+// Regression (was a spec deviation): lib/auth/guards.ts requireBridge throws ApiError(401) and lib/http.ts errorResponse sends no
 // WWW-Authenticate header. RFC 9110 §15.5.2: "The server generating a 401 response MUST send a WWW-Authenticate
 // header field containing at least one challenge"; RFC 6750 §3: a Bearer resource server MUST include
 // WWW-Authenticate when the request lacks a usable token, with error="invalid_token" for a bad one (§3.1).

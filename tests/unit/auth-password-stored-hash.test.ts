@@ -1,5 +1,4 @@
-// PENDING: enable (rename to .test.ts) once lib/auth/password.ts verifyPassword checks the stored parameters.
-// Bug (lib/auth/password.ts, verifyPassword): the derived-key length is taken from the stored hash
+// Regression (lib/auth/password.ts, verifyPassword): the derived-key length is taken from the stored hash
 // (`expected.length`), and N/r/p are taken from it unchecked.
 //  - A stored key that decodes to 0 bytes (e.g. "…$!!!!" or "…$=") makes scrypt derive 0 bytes and
 //    timingSafeEqual(<empty>, <empty>) is true: ANY password verifies. (Fail-open.)
