@@ -130,9 +130,10 @@ function pause(ms: number, signal?: AbortSignal): Promise<boolean> {
   });
 }
 
+/** Settles when the signal aborts; never without a signal. */
 function aborted(signal?: AbortSignal): Promise<void> {
   return new Promise((resolve) => {
-    if (!signal || signal.aborted) return resolve();
-    signal.addEventListener('abort', () => resolve(), { once: true });
+    if (signal?.aborted) return resolve();
+    signal?.addEventListener('abort', () => resolve(), { once: true });
   });
 }
