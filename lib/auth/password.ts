@@ -1,7 +1,8 @@
 import 'server-only';
 import { randomBytes, scrypt as scryptCb, timingSafeEqual, type ScryptOptions } from 'node:crypto';
 
-const scrypt = (password: string, salt: Buffer, keylen: number, options: ScryptOptions) =>
+/** scrypt (RFC 7914) as a promise; the one key derivation used for hashing and checking. */
+export const scrypt = (password: string, salt: Buffer, keylen: number, options: ScryptOptions) =>
   new Promise<Buffer>((resolve, reject) =>
     scryptCb(password, salt, keylen, options, (err, key) => (err ? reject(err) : resolve(key))),
   );
