@@ -1,0 +1,111 @@
+import { z } from 'zod';
+
+// A printout profile: how to read one text-printing analyzer, as data an admin edits in the browser.
+// Shared by the server (validate, store, preview) and the bridge (run). Plain zod, no server imports.
+
+/** Names a field pattern may capture; everything else in a pattern is only for matching. */
+export const PROFILE_CAPTURES = [
+  'analyte',
+  'value',
+  'comparator',
+  'unit',
+  'sampleId',
+  'patientRef',
+  'date',
+  'time',
+  'instrumentSerial',
+  'flag',
+] as const;
+export type ProfileCapture = (typeof PROFILE_CAPTURES)[number];
+
+export const DATE_FORMATS = ['YYYY-MM-DD', 'DD.MM.YYYY', 'DD/MM/YYYY', 'MM/DD/YYYY', 'DD-MM-YYYY', 'DD.MM.YY', 'YY/MM/DD'] as const;
+export const TIME_FORMATS = ['HH:mm', 'HH:mm:ss', 'hh:mm a', 'hh:mm:ss a'] as const;
+
+function compiles(source: string): string | null {
+  try {
+    new RegExp(source, 'u');
+    return null;
+  } catch (error) {
+    return error instanceof Error ? error.message : 'not a valid pattern';
+  }
+}
+
+const namedGroups = (source: string) => [...source.matchAll(/\(\?<([A-Za-z_$][\w$]*)>/g)].map((m) => m[1]);
+
+/** A regular expression (JavaScript syntax, Unicode mode) tested against one line without its line ending. */
+const pattern = z
+  .string()
+  .min(1, 'Enter a pattern.')
+  .max(500)
+  .superRefine((source, ctx) => {
+    const problem = compiles(source);
+    if (problem) ctx.addIssue({ code: 'custom', message: `Not a valid pattern: ${problem}` });
+  });
+
+export const profileFieldSchema = z
+  .object({
+    /** What this line is, in the clinic's words (shown in the preview). */
+    label: z.string().trim().min(1, 'Name the line.').max(60),
+    pattern,
+    /** A record without a matching line is unparsed. */
+    required: z.boolean().default(false),
+    /** Each matching line is its own result (a panel printout: one line per test). */
+    repeats: z.boolean().default(false),
+  })
+  .superRefine((field, ctx) => {
+    const unknown = namedGroups(field.pattern).filter((g) => !(PROFILE_CAPTURES as readonly string[]).includes(g));
+    if (unknown.length) {
+      ctx.addIssue({
+        code: 'custom',
+        path: ['pattern'],
+        message: `Unknown capture name${unknown.length > 1 ? 's' : ''} ${unknown.map((u) => `"${u}"`).join(', ')}: use ${PROFILE_CAPTURES.join(', ')}.`,
+      });
+    }
+    if (field.repeats && !namedGroups(field.pattern).includes('value')) {
+      ctx.addIssue({ code: 'custom', path: ['repeats'], message: 'A repeating line must capture a value.' });
+    }
+  });
+
+export const profileDefinitionSchema = z
+  .object({
+    /** Which analyzer prints this (free text for people). */
+    analyzer: z.string().trim().min(1, 'Say which analyzer prints this.').max(120),
+    encoding: z.enum(['utf8', 'latin1']).default('utf8'),
+    record: z
+      .object({
+        start: pattern.optional(),
+        end: pattern.optional(),
+        /** A form feed (0x0C) ends the record: printers eject the page after each result. */
+        formFeed: z.boolean().default(false),
+        /** The line going quiet for this long ends the record. */
+        idleMs: z.number().int().min(200).max(600_000).optional(),
+        maxLines: z.number().int().min(1).max(500).default(60),
+      })
+      .refine((r) => r.end || r.formFeed || r.idleMs || r.start, {
+        message: 'Say how a record is told apart: a start pattern, an end pattern, a form feed or an idle gap.',
+      }),
+    fields: z.array(profileFieldSchema).min(1, 'Add at least one line to read.').max(40),
+    /** The test, when the printout does not name it (single-test readers). */
+    analyte: z.string().trim().min(1).max(64).optional(),
+    /** The unit, when the printout does not print it. */
+    unit: z.string().trim().min(1).max(32).optional(),
+    decimalComma: z.boolean().default(false),
+    dateFormat: z.enum(DATE_FORMATS).default('YYYY-MM-DD'),
+    timeFormat: z.enum(TIME_FORMATS).default('HH:mm'),
+  })
+  .superRefine((profile, ctx) => {
+    const captured = new Set(profile.fields.flatMap((f) => namedGroups(f.pattern)));
+    if (!captured.has('value')) {
+      ctx.addIssue({ code: 'custom', path: ['fields'], message: 'No line captures a value: add (?<value>…) to one pattern.' });
+    }
+    if (!captured.has('analyte') && !profile.analyte) {
+      ctx.addIssue({
+        code: 'custom',
+        path: ['analyte'],
+        message: 'Name the test here, or capture (?<analyte>…) from the printout.',
+      });
+    }
+  });
+
+export type ProfileDefinition = z.infer<typeof profileDefinitionSchema>;
+export type ProfileDefinitionInput = z.input<typeof profileDefinitionSchema>;
