@@ -271,9 +271,8 @@ export const resultAssignments = pgTable(
     patientId: uuid()
       .notNull()
       .references(() => patients.id, { onDelete: 'restrict' }),
-    assignedBy: uuid()
-      .notNull()
-      .references(() => staffUsers.id, { onDelete: 'restrict' }),
+    /** Null only for the clinic's opt-in exact-ID rule, which a bridge's upload sets off (the audit event names the bridge). */
+    assignedBy: uuid().references(() => staffUsers.id, { onDelete: 'restrict' }),
     assignedAt: createdAt(),
     /** How the match was made: 'manual' (searched), 'suggestion' (a ranked match a person confirmed) or 'auto-sample-id'. */
     method: text().notNull().default('manual'),
@@ -289,6 +288,8 @@ export const resultAssignments = pgTable(
       .on(t.readingId)
       .where(sql`${t.endedAt} is null`),
     index('result_assignments_patient_idx').on(t.patientId),
+    check('result_assignments_by_person_or_rule', sql`${t.assignedBy} is not null or ${t.method} = 'auto-sample-id'`),
+    check('result_assignments_end_reason', sql`${t.endedAt} is null or ${t.endReason} is not null`),
   ],
 );
 

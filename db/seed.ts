@@ -7,12 +7,18 @@ import {
   bridges,
   clinics,
   instruments,
+  labOrders,
   owners,
   patients,
   readings,
+  resultAlerts,
   resultAssignments,
+  resultReviews,
   staffUsers,
 } from './schema';
+import { installClinicalDefaults } from '@/lib/clinical/config';
+import { DEFAULT_PROTOCOLS } from '@/lib/clinical/defaults';
+import { dueAt } from '@/lib/clinical/protocols';
 import { hashPassword } from '@/lib/auth/password';
 import { newBridgeToken } from '@/lib/auth/tokens';
 
@@ -132,7 +138,11 @@ export async function seedDemoClinic(db: Db): Promise<{ clinicId: string; bridge
       },
     ]).returning();
 
+    await installClinicalDefaults(tx, clinic.id, admin.id);
+
     const biscuit = patientRows[0];
+    const historyAssignments: string[] = [];
+    const historyReadings: string[] = [];
     for (const [i, h] of HISTORY.entries()) {
       const measuredAt = new Date(Date.now() - h.daysAgo * 86_400_000);
       const printed = `${h.comparator ?? ''}${h.value.toFixed(1)} mg/L`;
@@ -156,13 +166,138 @@ export async function seedDemoClinic(db: Db): Promise<{ clinicId: string; bridge
           patientId: biscuit.id,
         })
         .returning();
-      await tx
+      const [assignment] = await tx
         .insert(resultAssignments)
-        .values({ clinicId: clinic.id, readingId: reading.id, patientId: biscuit.id, assignedBy: tech.id, assignedAt: measuredAt });
+        .values({ clinicId: clinic.id, readingId: reading.id, patientId: biscuit.id, assignedBy: tech.id, assignedAt: measuredAt })
+        .returning();
+      historyAssignments.push(assignment.id);
+      historyReadings.push(reading.id);
       await tx.insert(auditEvents).values([
         { clinicId: clinic.id, at: measuredAt, actorBridgeId: bridge.id, action: 'reading.received', entityType: 'reading', entityId: reading.id, details: { demo: true } },
         { clinicId: clinic.id, at: measuredAt, actorUserId: tech.id, action: 'reading.assigned', entityType: 'reading', entityId: reading.id, details: { patientId: biscuit.id, method: 'manual', demo: true } },
       ]);
+    }
+
+    // Dr. Corvan has signed off all but Biscuit's latest result, which waits in her unreviewed list.
+    for (let i = 0; i < HISTORY.length - 1; i++) {
+      const at = new Date(Date.now() - HISTORY[i].daysAgo * 86_400_000 + 3_600_000);
+      const rows: { kind: 'comment' | 'reviewed'; comment: string | null }[] = [{ kind: 'reviewed', comment: null }];
+      if (i === 1) rows.unshift({ kind: 'comment', comment: 'Day 2 after surgery: a rise is expected. Repeat daily.' });
+      for (const row of rows) {
+        const [review] = await tx
+          .insert(resultReviews)
+          .values({ ...row, clinicId: clinic.id, readingId: historyReadings[i], assignmentId: historyAssignments[i], reviewerId: vet.id, at })
+          .returning();
+        await tx.insert(auditEvents).values({
+          clinicId: clinic.id,
+          at,
+          actorUserId: vet.id,
+          action: row.kind === 'reviewed' ? 'reading.reviewed' : 'reading.commented',
+          entityType: 'reading',
+          entityId: historyReadings[i],
+          details: { reviewId: review.id, assignmentId: historyAssignments[i], demo: true, ...(row.comment ? { comment: row.comment } : {}) },
+        });
+      }
+    }
+
+    // Two critical results (above the demo clinic's critical limit): one acknowledged, one waiting.
+    const CRITICAL = [
+      { patient: patientRows[9], hoursAgo: 20, value: 152.0, comparator: null, acknowledged: true },
+      { patient: patientRows[7], hoursAgo: 2, value: 200, comparator: '>' as const, acknowledged: false },
+    ];
+    for (const [i, c] of CRITICAL.entries()) {
+      const at = new Date(Date.now() - c.hoursAgo * 3_600_000);
+      const printed = `${c.comparator ?? ''}${c.value.toFixed(1)} mg/L`;
+      const [reading] = await tx
+        .insert(readings)
+        .values({
+          clinicId: clinic.id,
+          bridgeId: bridge.id,
+          idempotencyKey: `seed-critical-${i}`,
+          instrumentId: crpReader.id,
+          instrumentCode: DEMO_CRP_INSTRUMENT,
+          instrumentSerial: 'SIM-0001',
+          analyte: 'cCRP',
+          value: c.value,
+          comparator: c.comparator,
+          unit: 'mg/L',
+          measuredAt: at,
+          receivedAt: at,
+          raw: `(demo history) RESULT    ${printed}\n`,
+          status: 'assigned',
+          patientId: c.patient.id,
+        })
+        .returning();
+      const [assignment] = await tx
+        .insert(resultAssignments)
+        .values({ clinicId: clinic.id, readingId: reading.id, patientId: c.patient.id, assignedBy: tech.id, assignedAt: at })
+        .returning();
+      const ackAt = new Date(at.getTime() + 15 * 60_000);
+      const [alert] = await tx
+        .insert(resultAlerts)
+        .values({
+          clinicId: clinic.id,
+          readingId: reading.id,
+          assignmentId: assignment.id,
+          patientId: c.patient.id,
+          recipientId: vet.id,
+          kind: 'critical-high',
+          message: `cCRP ${printed} for ${c.patient.name} (${c.patient.recordNumber}): above the critical limit 100 mg/L.`,
+          threshold: 100,
+          unit: 'mg/L',
+          createdAt: at,
+          ...(c.acknowledged ? { acknowledgedAt: ackAt, acknowledgedBy: vet.id, acknowledgeNote: 'Owner called; started treatment.' } : {}),
+        })
+        .returning();
+      await tx.insert(auditEvents).values([
+        { clinicId: clinic.id, at, actorBridgeId: bridge.id, action: 'reading.received', entityType: 'reading', entityId: reading.id, details: { demo: true } },
+        { clinicId: clinic.id, at, actorUserId: tech.id, action: 'reading.assigned', entityType: 'reading', entityId: reading.id, details: { patientId: c.patient.id, method: 'manual', demo: true } },
+        { clinicId: clinic.id, at, actorUserId: tech.id, action: 'alert.raised', entityType: 'alert', entityId: alert.id, details: { readingId: reading.id, demo: true } },
+      ]);
+      if (c.acknowledged) {
+        await tx.insert(resultReviews).values({ clinicId: clinic.id, readingId: reading.id, assignmentId: assignment.id, reviewerId: vet.id, kind: 'reviewed', at: ackAt });
+        await tx.insert(auditEvents).values([
+          { clinicId: clinic.id, at: ackAt, actorUserId: vet.id, action: 'reading.critical-acknowledged', entityType: 'reading', entityId: reading.id, details: { alertId: alert.id, demo: true } },
+          { clinicId: clinic.id, at: ackAt, actorUserId: vet.id, action: 'reading.reviewed', entityType: 'reading', entityId: reading.id, details: { assignmentId: assignment.id, demo: true } },
+        ]);
+      }
+    }
+
+    // Two tests on the bench, due about when the simulated reader prints its first anonymous readings:
+    // Moss on the CRP reader, then Otto on a reader that is not connected (no instrument chosen).
+    const protocol = DEFAULT_PROTOCOLS.find((p) => p.analyte === 'cCRP')!;
+    const BENCH = [
+      { patient: patientRows[2], startedSecondsAgo: 660, instrumentId: crpReader.id },
+      { patient: patientRows[4], startedSecondsAgo: 600, instrumentId: null },
+    ];
+    const [protocolRow] = await tx.query.runProtocols.findMany({ where: (p, { eq }) => eq(p.clinicId, clinic.id), limit: 1 });
+    for (const b of BENCH) {
+      const startedAt = new Date(Date.now() - b.startedSecondsAgo * 1000);
+      const [order] = await tx
+        .insert(labOrders)
+        .values({
+          clinicId: clinic.id,
+          patientId: b.patient.id,
+          analyte: 'cCRP',
+          instrumentId: b.instrumentId,
+          sampleType: 'whole_blood',
+          orderedBy: vet.id,
+          startedBy: tech.id,
+          startedAt,
+          dueAt: dueAt(startedAt, protocol.stages),
+          protocolId: protocolRow?.id ?? null,
+          stages: protocol.stages,
+        })
+        .returning();
+      await tx.insert(auditEvents).values({
+        clinicId: clinic.id,
+        at: startedAt,
+        actorUserId: tech.id,
+        action: 'order.started',
+        entityType: 'order',
+        entityId: order.id,
+        details: { patientId: b.patient.id, analyte: 'cCRP', demo: true },
+      });
     }
     return { clinicId: clinic.id, bridgeToken: token.token };
   });

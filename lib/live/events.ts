@@ -7,6 +7,13 @@ export const LIVE_EVENT_TYPES = [
   'reading.voided',
   'capture.created',
   'capture.updated',
+  'reading.reassigned',
+  'order.created',
+  'order.updated',
+  'review.created',
+  'alert.created',
+  'alert.acknowledged',
+  'settings.updated',
 ] as const;
 
 export type LiveEventType = (typeof LIVE_EVENT_TYPES)[number];
@@ -18,4 +25,6 @@ export interface LiveEvent {
   at: string;
   /** Present when the change concerns one patient's record (so open charts know to refresh). */
   patientId?: string;
+  /** Present when one staff member should be told (a critical result for the attending veterinarian). */
+  userId?: string;
 }

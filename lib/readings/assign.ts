@@ -1,12 +1,13 @@
 import 'server-only';
 import { and, eq, isNull } from 'drizzle-orm';
 import { db, type Tx } from '@/db/client';
-import { patients, readings, resultAssignments } from '@/db/schema';
+import { readings, resultAssignments } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { allowed } from '@/lib/auth/roles';
 import { recordAudit } from '@/lib/audit';
 import { ApiError, notFound } from '@/lib/http';
 import { publish } from '@/lib/live/bus';
+import { loadPatientForPlacement, placeReading, takeOffRecord } from './placement';
 
 async function lockReading(tx: Tx, actor: Actor, readingId: string) {
   const [reading] = await tx
@@ -18,9 +19,21 @@ async function lockReading(tx: Tx, actor: Actor, readingId: string) {
   return reading;
 }
 
-/** Puts an unassigned reading on a patient. A reading already on a patient is a 409, never moved silently. */
-export async function assignReading(actor: Actor, readingId: string, patientId: string) {
+const mustAssign = (actor: Actor) => {
   if (!allowed(actor.role, 'assignReadings')) throw new ApiError(403, 'forbidden', 'Your role does not allow this.');
+};
+
+/**
+ * Puts an unassigned reading on a patient, and on one of the patient's open orders when given.
+ * A reading already on a patient is a 409, never moved silently (reassignReading moves it, with a reason).
+ */
+export async function assignReading(
+  actor: Actor,
+  readingId: string,
+  patientId: string,
+  options: { orderId?: string; method?: 'manual' | 'suggestion' } = {},
+) {
+  mustAssign(actor);
   const database = await db();
   return database.transaction(async (tx) => {
     const reading = await lockReading(tx, actor, readingId);
@@ -30,47 +43,85 @@ export async function assignReading(actor: Actor, readingId: string, patientId: 
       });
     }
     if (reading.status === 'voided') throw new ApiError(409, 'voided', 'This reading was voided and cannot be assigned.');
-
-    const [patient] = await tx
-      .select({ id: patients.id, name: patients.name, recordNumber: patients.recordNumber, active: patients.active })
-      .from(patients)
-      .where(and(eq(patients.id, patientId), eq(patients.clinicId, actor.clinicId)));
-    if (!patient) throw notFound('The patient');
-    if (!patient.active) throw new ApiError(409, 'patient_inactive', 'This patient’s record is closed.');
-
-    const [assignment] = await tx
-      .insert(resultAssignments)
-      .values({ clinicId: actor.clinicId, readingId, patientId, assignedBy: actor.userId, method: 'manual' })
-      .returning();
-    await tx
-      .update(readings)
-      .set({ status: 'assigned', patientId })
-      .where(and(eq(readings.id, readingId), eq(readings.status, 'unassigned')));
-    await recordAudit(tx, {
-      clinicId: actor.clinicId,
-      actorUserId: actor.userId,
-      action: 'reading.assigned',
-      entityType: 'reading',
-      entityId: readingId,
-      details: { patientId, recordNumber: patient.recordNumber, assignmentId: assignment.id, method: 'manual' },
+    const patient = await loadPatientForPlacement(tx, actor.clinicId, patientId);
+    const placed = await placeReading(tx, { clinicId: actor.clinicId, userId: actor.userId }, reading, patient, {
+      orderId: options.orderId,
+      method: options.method ?? 'manual',
     });
-    await publish(tx, { type: 'reading.assigned', clinicId: actor.clinicId, id: readingId, patientId });
-    return { readingId, patientId, assignmentId: assignment.id, assignedAt: assignment.assignedAt };
+    return {
+      readingId: placed.readingId,
+      patientId: placed.patientId,
+      assignmentId: placed.assignmentId,
+      assignedAt: placed.assignedAt,
+      orderId: placed.orderId,
+      speciesWarning: placed.evaluation.speciesWarning,
+    };
   });
 }
 
-/** Voids an unassigned reading (a spoiled run, a control, a duplicate slip) with a reason kept in the audit trail. */
-export async function voidReading(actor: Actor, readingId: string, reason: string) {
+/**
+ * Moves a result to another patient (a wrong match corrected): the current assignment ends with the
+ * reason, a new one starts, in one transaction. The history keeps both.
+ */
+export async function reassignReading(actor: Actor, readingId: string, input: { patientId: string; orderId?: string; reason: string }) {
+  mustAssign(actor);
+  const database = await db();
+  return database.transaction(async (tx) => {
+    const reading = await lockReading(tx, actor, readingId);
+    if (reading.status !== 'assigned' || !reading.patientId) {
+      throw new ApiError(409, 'not_assigned', 'This reading is not on a patient’s record; assign it from Intake.');
+    }
+    if (reading.patientId === input.patientId) {
+      throw new ApiError(409, 'same_patient', 'The result is already on this patient.');
+    }
+    const fromPatientId = reading.patientId;
+    const patient = await loadPatientForPlacement(tx, actor.clinicId, input.patientId);
+    const ended = await takeOffRecord(tx, actor, reading, input.reason);
+    await publish(tx, { type: 'reading.reassigned', clinicId: actor.clinicId, id: reading.id, patientId: fromPatientId });
+    const placed = await placeReading(
+      tx,
+      { clinicId: actor.clinicId, userId: actor.userId },
+      { ...reading, status: 'unassigned', patientId: null },
+      patient,
+      {
+        orderId: input.orderId,
+        method: 'manual',
+        action: 'reading.reassigned',
+        details: { fromPatientId, endedAssignmentId: ended.id, reason: input.reason },
+      },
+    );
+    return {
+      readingId: placed.readingId,
+      patientId: placed.patientId,
+      fromPatientId,
+      assignmentId: placed.assignmentId,
+      orderId: placed.orderId,
+      speciesWarning: placed.evaluation.speciesWarning,
+    };
+  });
+}
+
+/**
+ * Voids a reading (a spoiled run, a control, a duplicate slip) with a reason kept in the audit trail.
+ * A reading on a patient's record is voided only when the caller says so (onRecord): it comes off the
+ * record, and the ended assignment stays in the history.
+ */
+export async function voidReading(actor: Actor, readingId: string, reason: string, options: { onRecord?: boolean } = {}) {
   if (!allowed(actor.role, 'voidReadings')) throw new ApiError(403, 'forbidden', 'Your role does not allow this.');
   const database = await db();
   return database.transaction(async (tx) => {
     const reading = await lockReading(tx, actor, readingId);
     if (reading.status === 'voided') throw new ApiError(409, 'voided', 'This reading is already voided.');
+    let details: Record<string, unknown> = { reason };
     if (reading.status === 'assigned') {
-      throw new ApiError(409, 'already_assigned', 'This reading is on a patient’s record; it cannot be voided from Intake.');
+      if (!options.onRecord) {
+        throw new ApiError(409, 'already_assigned', 'This reading is on a patient’s record; it cannot be voided from Intake.');
+      }
+      const ended = await takeOffRecord(tx, actor, reading, reason);
+      details = { reason, fromPatientId: ended.patientId, endedAssignmentId: ended.id };
     }
-    await tx.update(readings).set({ status: 'voided' }).where(eq(readings.id, readingId));
-    // No assignment can be open on an unassigned reading, but make the invariant explicit.
+    await tx.update(readings).set({ status: 'voided', patientId: null }).where(eq(readings.id, readingId));
+    // No assignment can be open now, but make the invariant explicit.
     await tx
       .update(resultAssignments)
       .set({ endedAt: new Date(), endedBy: actor.userId, endReason: reason })
@@ -81,9 +132,14 @@ export async function voidReading(actor: Actor, readingId: string, reason: strin
       action: 'reading.voided',
       entityType: 'reading',
       entityId: readingId,
-      details: { reason },
+      details,
     });
-    await publish(tx, { type: 'reading.voided', clinicId: actor.clinicId, id: readingId });
+    await publish(tx, {
+      type: 'reading.voided',
+      clinicId: actor.clinicId,
+      id: readingId,
+      ...(details.fromPatientId ? { patientId: String(details.fromPatientId) } : {}),
+    });
     return { readingId, status: 'voided' as const };
   });
 }

@@ -5,6 +5,7 @@ import { bridges, instruments, readings, unparsedCaptures, type Bridge } from '@
 import { recordAudit } from '@/lib/audit';
 import { publish } from '@/lib/live/bus';
 import type { BridgeBatch, BridgeBatchResult } from '@/lib/validation/readings';
+import { autoAssignOnIngest } from './suggestions';
 
 /**
  * Stores a bridge's batch in one transaction. A record whose key this bridge already sent is
@@ -74,7 +75,7 @@ export async function ingestBatch(bridge: Bridge, batch: BridgeBatch): Promise<B
           measuredAt: payload.measuredAt ? new Date(payload.measuredAt) : null,
         })
         .onConflictDoNothing({ target: [readings.bridgeId, readings.idempotencyKey] })
-        .returning({ id: readings.id });
+        .returning();
       if (!row) {
         const [existing] = await tx
           .select({ id: readings.id })
@@ -92,6 +93,8 @@ export async function ingestBatch(bridge: Bridge, batch: BridgeBatch): Promise<B
         details: { instrument: record.instrument, analyte: payload.analyte, sampleId: payload.sampleId },
       });
       await publish(tx, { type: 'reading.created', clinicId: bridge.clinicId, id: row.id });
+      // Only the clinic's opt-in exact-ID rule may place a reading without a person; off by default.
+      await autoAssignOnIngest(tx, bridge, row);
       results.push({ key: record.key, status: 'created', id: row.id });
     }
 

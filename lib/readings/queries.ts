@@ -1,5 +1,5 @@
 import 'server-only';
-import { and, asc, desc, eq } from 'drizzle-orm';
+import { and, asc, desc, eq, sql } from 'drizzle-orm';
 import { db } from '@/db/client';
 import { auditEvents, instruments, patients, readings, staffUsers, unparsedCaptures } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
@@ -17,6 +17,7 @@ const readingColumns = {
   patientRef: readings.patientRef,
   measuredAt: readings.measuredAt,
   receivedAt: readings.receivedAt,
+  instrumentId: readings.instrumentId,
   instrumentCode: readings.instrumentCode,
   instrumentSerial: readings.instrumentSerial,
   instrumentName: instruments.name,
@@ -93,7 +94,8 @@ export async function patientResults(actor: Actor, patientId: string) {
     .where(
       and(eq(readings.clinicId, actor.clinicId), eq(readings.patientId, patientId), eq(readings.status, 'assigned')),
     )
-    .orderBy(desc(readings.measuredAt), desc(readings.receivedAt));
+    // An instrument may print no time: such a reading sorts by when it arrived, not above everything (NULLS FIRST).
+    .orderBy(desc(sql`coalesce(${readings.measuredAt}, ${readings.receivedAt})`), desc(readings.receivedAt));
 }
 
 export async function listCaptures(actor: Actor, status: 'open' | 'transcribed' | 'dismissed', limit = 100) {

@@ -86,10 +86,16 @@ export const readingStatusQuery = z.object({
 
 export const assignSchema = z.object({
   patientId: z.uuid('Choose a patient.'),
+  /** The open order this reading fulfils, when the match was made to one. */
+  orderId: z.uuid().optional(),
+  /** 'suggestion' when the person confirmed a ranked match; the audit trail keeps which. */
+  method: z.enum(['manual', 'suggestion']).optional(),
 });
 
 export const voidSchema = z.object({
   reason: z.string().trim().min(3, 'Give a reason for voiding this reading.').max(500),
+  /** Required to void a result that is already on a patient's record (it comes off, history kept). */
+  onRecord: z.literal(true).optional(),
 });
 
 export const patientSearchQuery = z.object({

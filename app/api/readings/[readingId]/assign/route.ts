@@ -8,6 +8,6 @@ type Ctx = { params: Promise<{ readingId: string }> };
 export const POST = apiRoute<Ctx>(async (request, { params }) => {
   const actor = await requireActor(request, 'assignReadings');
   const readingId = idParam.parse((await params).readingId);
-  const { patientId } = await readJson(request, assignSchema);
-  return json({ assignment: await assignReading(actor, readingId, patientId) });
+  const { patientId, orderId, method } = await readJson(request, assignSchema);
+  return json({ assignment: await assignReading(actor, readingId, patientId, { orderId, method }) });
 });

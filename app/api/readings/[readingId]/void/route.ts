@@ -8,6 +8,6 @@ type Ctx = { params: Promise<{ readingId: string }> };
 export const POST = apiRoute<Ctx>(async (request, { params }) => {
   const actor = await requireActor(request, 'voidReadings');
   const readingId = idParam.parse((await params).readingId);
-  const { reason } = await readJson(request, voidSchema);
-  return json(await voidReading(actor, readingId, reason));
+  const { reason, onRecord } = await readJson(request, voidSchema);
+  return json(await voidReading(actor, readingId, reason, { onRecord }));
 });

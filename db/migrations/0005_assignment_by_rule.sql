@@ -1,0 +1,3 @@
+ALTER TABLE "result_assignments" ALTER COLUMN "assigned_by" DROP NOT NULL;--> statement-breakpoint
+ALTER TABLE "result_assignments" ADD CONSTRAINT "result_assignments_by_person_or_rule" CHECK ("result_assignments"."assigned_by" is not null or "result_assignments"."method" = 'auto-sample-id');--> statement-breakpoint
+ALTER TABLE "result_assignments" ADD CONSTRAINT "result_assignments_end_reason" CHECK ("result_assignments"."ended_at" is null or "result_assignments"."end_reason" is not null);

@@ -1,0 +1,93 @@
+// Built-in starting points a clinic can change. Each value names where it came from, and the app shows it.
+import type { InterpretationBand, ProtocolStage, Species } from '@/db/schema';
+
+export interface DefaultAnalyte {
+  code: string;
+  name: string;
+  unit: string;
+  displayUnit: string;
+  decimals: number;
+  validatedSpecies: Species[];
+  speciesNote: string;
+  deltaAbsolute: number | null;
+  deltaPercent: number | null;
+  deltaWindowHours: number | null;
+  deltaSource: string;
+}
+
+export interface DefaultProtocol {
+  analyte: string;
+  /** Instrument code the protocol belongs to; null for any instrument. */
+  instrumentCode: string | null;
+  name: string;
+  stages: ProtocolStage[];
+  earlySeconds: number;
+  lateSeconds: number;
+  source: string;
+}
+
+export interface DefaultInterval {
+  analyte: string;
+  species: Species;
+  unit: string;
+  low: number | null;
+  high: number | null;
+  criticalLow: number | null;
+  criticalHigh: number | null;
+  bands: InterpretationBand[];
+  source: string;
+}
+
+export const DEFAULT_ANALYTES: DefaultAnalyte[] = [
+  {
+    code: 'cCRP',
+    name: 'C-reactive protein (canine)',
+    unit: 'mg/L',
+    displayUnit: 'mg/L',
+    decimals: 1,
+    validatedSpecies: ['dog'],
+    speciesNote:
+      'CRP is a major acute-phase protein in dogs but not in cats (Cerón JJ, Eckersall PD, Martínez-Subiela S. Acute phase proteins in dogs and cats: current knowledge and future perspectives. Vet Clin Pathol 2005;34:85–99).',
+    deltaAbsolute: 20,
+    deltaPercent: 270,
+    deltaWindowHours: 72,
+    deltaSource:
+      '270%: the one-sided critical difference for serial canine CRP (269.9%) in apparently healthy dogs, J Vet Intern Med 2011, doi:10.1111/j.1939-1676.2011.0729.x. 20 mg/L and 72 h: clinic choice, no published source (common practice to pair a percent limit with an absolute one).',
+  },
+];
+
+export const DEFAULT_PROTOCOLS: DefaultProtocol[] = [
+  {
+    analyte: 'cCRP',
+    instrumentCode: null,
+    name: 'Single-test CRP reader',
+    stages: [
+      { key: 'mix', label: 'Mixing', seconds: 30, handsOn: true },
+      { key: 'reinsert', label: 'Re-insert the cartridge', seconds: 10, maxSeconds: 10, handsOn: true },
+      { key: 'incubate', label: 'Incubation', seconds: 660 },
+    ],
+    earlySeconds: 60,
+    lateSeconds: 180,
+    source:
+      'Common practice for a single-test point-of-care CRP reader, no published source: about 30 s mixing, re-insertion within 10 s (else the run aborts and the test is used up), 660 s incubation; the reading is due about 12 min after the start. Tolerances are clinic choice.',
+  },
+];
+
+export const DEFAULT_INTERVALS: DefaultInterval[] = [
+  {
+    analyte: 'cCRP',
+    species: 'dog',
+    unit: 'mg/L',
+    low: null,
+    high: 10,
+    criticalLow: null,
+    criticalHigh: 100,
+    bands: [
+      { label: 'Within interval', from: null, to: 10 },
+      { label: 'Raised', from: 10, to: 100 },
+      { label: 'Markedly raised', from: 100, to: null },
+    ],
+    source:
+      'Upper limit 10 mg/L: from memory, a limit in common use for canine-specific CRP assays; healthy dogs were below 5 mg/L in Caspi D et al., C-reactive protein in dogs, Am J Vet Res 1987;48:919–921. Band and critical limit at 100 mg/L: concentrations > 100 mg/L studied as "extremely high" in BMC Vet Res 2020, doi:10.1186/s12917-020-02367-7; using it as a critical limit is a clinic policy placeholder, no published source. Check against your instrument’s validated interval.',
+  },
+];

@@ -1,0 +1,204 @@
+import 'server-only';
+import { and, asc, desc, eq, inArray, isNull, sql } from 'drizzle-orm';
+import { db } from '@/db/client';
+import { instruments, patients, readings, resultAlerts, resultAssignments, resultReviews, staffUsers } from '@/db/schema';
+import type { Actor } from '@/lib/auth/guards';
+import { allowed } from '@/lib/auth/roles';
+import { recordAudit } from '@/lib/audit';
+import { ApiError, notFound } from '@/lib/http';
+import { publish } from '@/lib/live/bus';
+import { analyteContexts, intervalContexts } from './config';
+import { evaluateResult } from './evaluate';
+
+const mustReview = (actor: Actor) => {
+  if (!allowed(actor.role, 'reviewResults')) throw new ApiError(403, 'forbidden', 'Only veterinarians review results.');
+};
+
+/** A veterinarian's comment and/or "reviewed" sign-off on the result as it stands on its patient now. */
+export async function reviewResult(actor: Actor, readingId: string, input: { comment?: string; reviewed: boolean }) {
+  mustReview(actor);
+  const database = await db();
+  return database.transaction(async (tx) => {
+    const [reading] = await tx
+      .select()
+      .from(readings)
+      .where(and(eq(readings.id, readingId), eq(readings.clinicId, actor.clinicId)))
+      .for('update');
+    if (!reading) throw notFound('The reading');
+    if (reading.status !== 'assigned') throw new ApiError(409, 'not_assigned', 'Only a result on a patient’s record can be reviewed.');
+    const [assignment] = await tx
+      .select()
+      .from(resultAssignments)
+      .where(and(eq(resultAssignments.readingId, readingId), isNull(resultAssignments.endedAt)));
+    if (input.reviewed) {
+      const [already] = await tx
+        .select({ id: resultReviews.id })
+        .from(resultReviews)
+        .where(and(eq(resultReviews.assignmentId, assignment.id), eq(resultReviews.kind, 'reviewed')));
+      if (already) throw new ApiError(409, 'already_reviewed', 'This result is already signed off; add a comment instead.');
+    }
+    const rows = [];
+    if (input.comment) rows.push({ kind: 'comment' as const, comment: input.comment });
+    if (input.reviewed) rows.push({ kind: 'reviewed' as const, comment: null });
+    const inserted = await tx
+      .insert(resultReviews)
+      .values(rows.map((r) => ({ ...r, clinicId: actor.clinicId, readingId, assignmentId: assignment.id, reviewerId: actor.userId })))
+      .returning();
+    for (const row of inserted) {
+      await recordAudit(tx, {
+        clinicId: actor.clinicId,
+        actorUserId: actor.userId,
+        action: row.kind === 'reviewed' ? 'reading.reviewed' : 'reading.commented',
+        entityType: 'reading',
+        entityId: readingId,
+        details: { patientId: reading.patientId, assignmentId: assignment.id, reviewId: row.id, ...(row.comment ? { comment: row.comment } : {}) },
+      });
+    }
+    await publish(tx, { type: 'review.created', clinicId: actor.clinicId, id: readingId, patientId: reading.patientId! });
+    return { readingId, reviews: inserted };
+  });
+}
+
+/** Comments and sign-offs per reading for its current assignment, oldest first. */
+export async function reviewsFor(clinicId: string, readingIds: string[]) {
+  if (!readingIds.length) return new Map<string, { kind: string; comment: string | null; at: Date; reviewerName: string }[]>();
+  const database = await db();
+  const rows = await database
+    .select({
+      readingId: resultReviews.readingId,
+      kind: resultReviews.kind,
+      comment: resultReviews.comment,
+      at: resultReviews.at,
+      reviewerName: staffUsers.displayName,
+    })
+    .from(resultReviews)
+    .innerJoin(resultAssignments, and(eq(resultAssignments.id, resultReviews.assignmentId), isNull(resultAssignments.endedAt)))
+    .innerJoin(staffUsers, eq(staffUsers.id, resultReviews.reviewerId))
+    .where(and(eq(resultReviews.clinicId, clinicId), inArray(resultReviews.readingId, readingIds)))
+    .orderBy(asc(resultReviews.at));
+  const map = new Map<string, typeof rows>();
+  for (const r of rows) map.set(r.readingId, [...(map.get(r.readingId) ?? []), r]);
+  return map;
+}
+
+/** Results on patients' records that no veterinarian has signed off yet; `mine`: my patients only. */
+export async function unreviewedResults(actor: Actor, mine: boolean) {
+  const database = await db();
+  const signedOff = sql`exists (select 1 from ${resultReviews} where ${resultReviews.assignmentId} = ${resultAssignments.id} and ${resultReviews.kind} = 'reviewed')`;
+  const rows = await database
+    .select({
+      id: readings.id,
+      analyte: readings.analyte,
+      value: readings.value,
+      comparator: readings.comparator,
+      unit: readings.unit,
+      instrumentId: readings.instrumentId,
+      instrumentName: instruments.name,
+      measuredAt: readings.measuredAt,
+      receivedAt: readings.receivedAt,
+      assignedAt: resultAssignments.assignedAt,
+      patientId: patients.id,
+      patientName: patients.name,
+      patientRecordNumber: patients.recordNumber,
+      patientSpecies: patients.species,
+      attendingVetId: patients.attendingVetId,
+      attendingVetName: staffUsers.displayName,
+    })
+    .from(readings)
+    .innerJoin(resultAssignments, and(eq(resultAssignments.readingId, readings.id), isNull(resultAssignments.endedAt)))
+    .innerJoin(patients, eq(patients.id, readings.patientId))
+    .leftJoin(staffUsers, eq(staffUsers.id, patients.attendingVetId))
+    .leftJoin(instruments, eq(instruments.id, readings.instrumentId))
+    .where(
+      and(
+        eq(readings.clinicId, actor.clinicId),
+        eq(readings.status, 'assigned'),
+        sql`not ${signedOff}`,
+        mine ? eq(patients.attendingVetId, actor.userId) : undefined,
+      ),
+    )
+    .orderBy(desc(resultAssignments.assignedAt))
+    .limit(200);
+  const codes = [...new Set(rows.map((r) => r.analyte))];
+  const [analytes, intervals] = await Promise.all([analyteContexts(database, actor.clinicId, codes), intervalContexts(database, actor.clinicId, codes)]);
+  return rows.map((r) => {
+    const e = evaluateResult(r, { name: r.patientName, species: r.patientSpecies }, analytes.get(r.analyte), intervals);
+    return { ...r, display: e.display, flag: e.flag, decimals: analytes.get(r.analyte)?.decimals ?? 1 };
+  });
+}
+
+/** Critical-result alerts: open ones (not acknowledged, still on that patient), or all recent ones. */
+export async function listAlerts(actor: Actor, filter: { status: 'open' | 'all'; mine: boolean }) {
+  const database = await db();
+  const acknowledger = staffUsers;
+  const rows = await database
+    .select({
+      id: resultAlerts.id,
+      readingId: resultAlerts.readingId,
+      patientId: resultAlerts.patientId,
+      patientName: patients.name,
+      patientRecordNumber: patients.recordNumber,
+      recipientId: resultAlerts.recipientId,
+      kind: resultAlerts.kind,
+      message: resultAlerts.message,
+      createdAt: resultAlerts.createdAt,
+      acknowledgedAt: resultAlerts.acknowledgedAt,
+      acknowledgedByName: acknowledger.displayName,
+      acknowledgeNote: resultAlerts.acknowledgeNote,
+      withdrawnAt: resultAlerts.withdrawnAt,
+    })
+    .from(resultAlerts)
+    .innerJoin(patients, eq(patients.id, resultAlerts.patientId))
+    .leftJoin(acknowledger, eq(acknowledger.id, resultAlerts.acknowledgedBy))
+    .where(
+      and(
+        eq(resultAlerts.clinicId, actor.clinicId),
+        filter.status === 'open' ? and(isNull(resultAlerts.acknowledgedAt), isNull(resultAlerts.withdrawnAt)) : undefined,
+        // "Mine": for me, or for nobody in particular (the patient had no attending veterinarian).
+        filter.mine ? sql`(${resultAlerts.recipientId} = ${actor.userId} or ${resultAlerts.recipientId} is null)` : undefined,
+      ),
+    )
+    .orderBy(desc(resultAlerts.createdAt))
+    .limit(200);
+  return rows;
+}
+export type AlertView = Awaited<ReturnType<typeof listAlerts>>[number];
+
+export async function acknowledgeAlert(actor: Actor, alertId: string, note?: string) {
+  mustReview(actor);
+  const database = await db();
+  return database.transaction(async (tx) => {
+    const [alert] = await tx
+      .select()
+      .from(resultAlerts)
+      .where(and(eq(resultAlerts.id, alertId), eq(resultAlerts.clinicId, actor.clinicId)))
+      .for('update');
+    if (!alert) throw notFound('The alert');
+    if (alert.acknowledgedAt) throw new ApiError(409, 'already_acknowledged', 'This alert was already acknowledged.');
+    if (alert.withdrawnAt) throw new ApiError(409, 'withdrawn', 'This result has left that patient’s record; the alert no longer applies.');
+    const [row] = await tx
+      .update(resultAlerts)
+      .set({ acknowledgedAt: new Date(), acknowledgedBy: actor.userId, acknowledgeNote: note ?? null })
+      .where(eq(resultAlerts.id, alertId))
+      .returning();
+    await recordAudit(tx, {
+      clinicId: actor.clinicId,
+      actorUserId: actor.userId,
+      action: 'alert.acknowledged',
+      entityType: 'alert',
+      entityId: alertId,
+      details: { readingId: alert.readingId, ...(note ? { note } : {}) },
+    });
+    // Also on the reading's own history, so the chart shows who acknowledged the critical value.
+    await recordAudit(tx, {
+      clinicId: actor.clinicId,
+      actorUserId: actor.userId,
+      action: 'reading.critical-acknowledged',
+      entityType: 'reading',
+      entityId: alert.readingId,
+      details: { alertId, ...(note ? { note } : {}) },
+    });
+    await publish(tx, { type: 'alert.acknowledged', clinicId: actor.clinicId, id: alertId, patientId: alert.patientId });
+    return row;
+  });
+}

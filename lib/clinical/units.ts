@@ -1,0 +1,48 @@
+// Units through UCUM (@lhncbc/ucum-lhc): instrument unit strings are validated, and values are moved
+// into the clinic's units by UCUM's own definitions, never by factors typed in here.
+import ucum from '@lhncbc/ucum-lhc';
+
+const utils = ucum.UcumLhcUtils.getInstance();
+
+export type UnitCheck = { ok: true; ucum: string; name: string } | { ok: false; message: string };
+
+/**
+ * Instruments print units loosely. The only rewrites are unambiguous spellings of UCUM symbols:
+ * the micro sign for "u" (UCUM §3, ASCII-only symbols) and stray spaces.
+ */
+export function tidyUnit(printed: string): string {
+  return printed.trim().replace(/[µμ]/g, 'u').replace(/\s+/g, '');
+}
+
+export function checkUnit(printed: string | null | undefined): UnitCheck {
+  if (!printed || !printed.trim()) return { ok: false, message: 'No unit was printed.' };
+  const tidy = tidyUnit(printed);
+  const result = utils.validateUnitString(tidy);
+  if (result.status !== 'valid' || !result.ucumCode) {
+    return { ok: false, message: `"${printed}" is not a UCUM unit${result.msg[0] ? ` (${result.msg[0]})` : ''}.` };
+  }
+  return { ok: true, ucum: result.ucumCode, name: result.unit?.name ?? result.ucumCode };
+}
+
+export type Conversion = { ok: true; value: number } | { ok: false; message: string };
+
+/** Converts a value between UCUM units; commensurable units only (mass to mass, not mass to moles). */
+export function convert(value: number, from: string, to: string): Conversion {
+  const source = checkUnit(from);
+  if (!source.ok) return source;
+  const target = checkUnit(to);
+  if (!target.ok) return target;
+  if (source.ucum === target.ucum) return { ok: true, value };
+  const result = utils.convertUnitTo(source.ucum, value, target.ucum);
+  if (result.status !== 'succeeded' || result.toVal === null || !Number.isFinite(result.toVal)) {
+    return { ok: false, message: result.msg[0] ?? `Cannot convert ${from} to ${to}.` };
+  }
+  // Floating-point noise from the factor (3.7399999999999998): 12 significant digits is far below any assay's precision.
+  return { ok: true, value: Number(result.toVal.toPrecision(12)) };
+}
+
+/** Whether two unit strings name the same UCUM unit (mg/l and mg/L do). */
+export function sameUnit(a: string, b: string): boolean {
+  const conversion = convert(1, a, b);
+  return conversion.ok && conversion.value === 1;
+}

@@ -1,0 +1,111 @@
+import { z } from 'zod';
+import { sampleType, species } from '@/db/schema';
+
+// Request shapes for orders, matching, review, alerts and the clinic's clinical settings.
+
+export const SAMPLE_TYPE_LABELS: Record<(typeof sampleType.enumValues)[number], string> = {
+  whole_blood: 'Whole blood',
+  serum: 'Serum',
+  plasma: 'Plasma',
+  urine: 'Urine',
+  other: 'Other',
+};
+
+const optionalText = (max: number) =>
+  z
+    .string()
+    .trim()
+    .max(max)
+    .optional()
+    .transform((v) => (v ? v : undefined));
+
+export const newOrderSchema = z.object({
+  patientId: z.uuid('Choose a patient.'),
+  analyte: z.string().trim().min(1, 'Choose the test.').max(64),
+  instrumentId: z.uuid().optional(),
+  sampleType: z.enum(sampleType.enumValues, 'Choose the sample type.'),
+  sampleId: optionalText(64),
+  kitLot: optionalText(64),
+  orderedBy: z.uuid('Choose who ordered the test.'),
+  /** When the run started; the past is allowed (started before it was entered), the future is not. */
+  startedAt: z.iso.datetime({ offset: true }).optional(),
+  note: optionalText(500),
+});
+export type NewOrderInput = z.infer<typeof newOrderSchema>;
+
+export const closeOrderSchema = z.object({
+  reason: z.string().trim().min(3, 'Give a reason.').max(500),
+});
+
+export const ordersQuery = z.object({
+  status: z.enum(['open', 'all']).default('open'),
+  patientId: z.uuid().optional(),
+});
+
+export const reassignSchema = z.object({
+  patientId: z.uuid('Choose a patient.'),
+  orderId: z.uuid().optional(),
+  reason: z.string().trim().min(3, 'Give a reason for moving this result.').max(500),
+});
+
+export const reviewSchema = z
+  .object({
+    comment: optionalText(2000),
+    reviewed: z.boolean().default(false),
+  })
+  .refine((v) => v.reviewed || v.comment, { message: 'Write a comment or sign the result off as reviewed.', path: ['comment'] });
+
+export const acknowledgeSchema = z.object({ note: optionalText(500) });
+
+export const alertsQuery = z.object({
+  status: z.enum(['open', 'all']).default('open'),
+  mine: z.enum(['1', '0']).default('0'),
+});
+
+export const unreviewedQuery = z.object({ mine: z.enum(['1', '0']).default('1') });
+
+/** Clinic-wide switches, kept in clinics.settings. */
+export const clinicalSettingsSchema = z.object({
+  /** Off unless an administrator turns it on: auto-assign on an exact sample ID to one open order. */
+  autoAssignExactId: z.boolean().default(false),
+});
+export type ClinicalSettings = z.infer<typeof clinicalSettingsSchema>;
+
+const limit = z.number().finite().nullable();
+
+export const intervalSchema = z
+  .object({
+    analyte: z.string().trim().min(1).max(64),
+    species: z.enum(species.enumValues),
+    instrumentId: z.uuid().nullable().default(null),
+    unit: z.string().trim().min(1).max(32),
+    low: limit,
+    high: limit,
+    criticalLow: limit,
+    criticalHigh: limit,
+    bands: z
+      .array(z.object({ label: z.string().trim().min(1).max(60), from: limit, to: limit }))
+      .max(10)
+      .default([]),
+    source: z.string().trim().min(3, 'Say where the interval comes from (paper, instrument insert, in-house study).').max(1000),
+  })
+  .refine((v) => v.low === null || v.high === null || v.low <= v.high, { message: 'The low limit must not be above the high limit.', path: ['low'] })
+  .refine((v) => v.criticalLow === null || v.low === null || v.criticalLow <= v.low, {
+    message: 'The critical low limit must not be above the low limit.',
+    path: ['criticalLow'],
+  })
+  .refine((v) => v.criticalHigh === null || v.high === null || v.criticalHigh >= v.high, {
+    message: 'The critical high limit must not be below the high limit.',
+    path: ['criticalHigh'],
+  });
+export type IntervalInput = z.infer<typeof intervalSchema>;
+
+export const analyteSettingsSchema = z.object({
+  displayUnit: z.string().trim().min(1).max(32),
+  decimals: z.number().int().min(0).max(6),
+  validatedSpecies: z.array(z.enum(species.enumValues)).max(10),
+  deltaAbsolute: z.number().positive().nullable(),
+  deltaPercent: z.number().positive().nullable(),
+  deltaWindowHours: z.number().positive().nullable(),
+});
+export type AnalyteSettingsInput = z.infer<typeof analyteSettingsSchema>;
