@@ -58,6 +58,7 @@ export interface MatchInput {
 export type ReasonCode =
   | 'sample-id-match'
   | 'sample-id-differs'
+  | 'id-names-other'
   | 'record-id-match'
   | 'analyte-match'
   | 'instrument-match'
@@ -96,6 +97,7 @@ export interface Candidate {
 export const POINTS = {
   sampleIdMatch: 100,
   sampleIdDiffers: -60,
+  idNamesOther: -60,
   recordIdMatch: 80,
   analyteMatch: 20,
   instrumentMatch: 15,
@@ -154,7 +156,8 @@ function timingReason(reading: MatchReading, order: MatchOrder, clock: Clock): R
 }
 
 /**
- * Ranks candidate orders (and patients named by an ID on the reading) for one reading, best first.
+ * Ranks candidate orders (and patients named by an ID on the reading) for one reading, best first:
+ * candidates named by an exact ID first, then by score; equal scores are reported as ties.
  * Orders for another analyte, closed orders and runs started after the reading arrived are left out.
  */
 export function rankCandidates(input: MatchInput): Candidate[] {
@@ -187,9 +190,21 @@ export function rankCandidates(input: MatchInput): Candidate[] {
       : null;
   };
 
+  // IDs printed on the reading that name a test or a patient: evidence against every other candidate.
+  const namedOrders = eligible.filter((o) => sameId(reading.sampleId, o.sampleId));
+  const namedPatients = input.patients.filter((p) => sameId(reading.patientRef, p.recordNumber) || sameId(reading.sampleId, p.recordNumber));
+  const namedElsewhere = (order: MatchOrder, patient: MatchPatient): Reason | null => {
+    if (namedOrders.some((o) => o.id === order.id) || namedPatients.some((p) => p.id === patient.id)) return null;
+    const other = namedOrders[0] ? patients.get(namedOrders[0].patientId) : namedPatients[0];
+    if (!other) return null;
+    return { code: 'id-names-other', points: POINTS.idNamesOther, text: `The ID printed on the reading names ${other.name} (${other.recordNumber}), not this patient.` };
+  };
+
   for (const order of eligible) {
     const patient = patients.get(order.patientId)!;
     const reasons: Reason[] = [];
+    const elsewhere = namedElsewhere(order, patient);
+    if (elsewhere) reasons.push(elsewhere);
     if (sameId(reading.sampleId, order.sampleId)) {
       reasons.push({ code: 'sample-id-match', points: POINTS.sampleIdMatch, text: `Sample ID ${reading.sampleId!.trim()} on the reading matches this order's tube label.` });
     } else if (reading.sampleId && order.sampleId && !sameId(reading.sampleId, patient.recordNumber)) {
@@ -267,16 +282,20 @@ export function rankCandidates(input: MatchInput): Candidate[] {
   }
 
   const startedAt = new Map(eligible.map((o) => [o.id, o.startedAt.getTime()]));
+  // An ID printed on the reading is direct evidence; timing and instrument are circumstantial. So
+  // candidates named by an ID come first, and their contrary reasons are shown beside them.
+  const exact = (c: (typeof candidates)[number]) => c.reasons.some((r) => r.code === 'sample-id-match' || r.code === 'record-id-match');
   candidates.sort(
     (a, b) =>
+      Number(exact(b)) - Number(exact(a)) ||
       b.score - a.score ||
       (startedAt.get(a.orderId ?? '') ?? Infinity) - (startedAt.get(b.orderId ?? '') ?? Infinity) ||
       a.recordNumber.localeCompare(b.recordNumber),
   );
   return candidates.map((c) => ({
     ...c,
-    tiedWith: candidates.filter((o) => o !== c && o.score === c.score).length,
-    strength: c.reasons.some((r) => r.code === 'sample-id-match' || r.code === 'record-id-match')
+    tiedWith: candidates.filter((o) => o !== c && o.score === c.score && exact(o) === exact(c)).length,
+    strength: exact(c)
       ? 'exact'
       : c.score >= 60
         ? 'strong'
