@@ -1,0 +1,346 @@
+import { randomInt } from 'node:crypto';
+import { createReadStream, realpathSync } from 'node:fs';
+import { resolve } from 'node:path';
+import { Writable } from 'node:stream';
+import { pipeline } from 'node:stream/promises';
+import { fileURLToPath } from 'node:url';
+import { parseArgs, type ParseArgsConfig } from 'node:util';
+import type { ParserOutput } from '../lib/validation/readings';
+import { UsageError, checkBridgeOptions, loadConfigFile } from './config';
+import { DEFAULT_DIALECT, dialectNames, findDialect } from './dialects';
+import { LINE_ENCODINGS, type LineEncoding } from './framing/lines';
+import { streamLog } from './log';
+import { createParsingStages } from './parse-stage';
+import type { BridgeOptions, InstrumentConfig } from './pipeline';
+import { PARITIES, serialSettingsSchema, type SerialSettings } from './sources/serial';
+
+export { startBridge } from './pipeline';
+export type { BridgeOptions, RunningBridge } from './pipeline';
+
+const USAGE = `Benchwire bridge: analyzer printouts from a serial line into Benchwire.
+
+Usage: npm run bridge -- <command> [options]
+
+Commands:
+  run        read instruments, spool every record, send them to the server
+  parse      show what a dialect makes of a capture file (nothing is sent)
+  simulate   an invented CRP reader printing result slips (stdout, serial port or TCP)
+  ports      list serial ports
+
+"npm run bridge -- <command> --help" tells more about each.
+`;
+
+const SERIAL_HELP = `  --baud N               baud rate (default 9600)
+  --data-bits 5|6|7|8    (default 8)
+  --parity P             ${PARITIES.join('|')} (default none; mark/space only on Windows)
+  --stop-bits 1|1.5|2    (default 1)
+  --rtscts               hardware flow control
+  --xon --xoff           software flow control`;
+
+const HELP: Record<string, string> = {
+  run: `Usage: npm run bridge -- run [options]
+
+One instrument from flags:
+  --server URL           Benchwire server (default: $BENCHWIRE_SERVER)
+  --token TOKEN          bridge token (default: $BENCHWIRE_BRIDGE_TOKEN; prefer the variable,
+                         a flag shows in the process list)
+  --instrument CODE      the instrument's code in Admin → Instruments
+  --source SOURCE        serial:/dev/ttyUSB0 (serial:COM3), tcp://host:port, or file:PATH
+  --dialect NAME         ${dialectNames().join(', ')} (default ${DEFAULT_DIALECT})
+  --encoding E           ${LINE_ENCODINGS.join('|')} (default utf8)
+${SERIAL_HELP}
+  --spool DIR            spool directory (default ./bridge-spool)
+
+Or several from a file:
+  --config FILE          JSON: {"server", "token", "spoolDir",
+                         "instruments": [{"code", "dialect", "source", "serial": {"baudRate",
+                         "dataBits", "parity", "stopBits", "rtscts", "xon", "xoff"}, "encoding"}]}
+                         (--server, --token and --spool still override it)
+
+Every record is on disk before it is sent and stays there until the server confirmed it.
+Stop with Ctrl+C (SIGINT) or SIGTERM.
+`,
+  parse: `Usage: npm run bridge -- parse [--dialect NAME] [--encoding E] [FILE|-]
+
+Reads FILE (or stdin) and prints one JSON object per line: readings, and
+{"kind":"unparsed",...} for text that is not one. Nothing is sent or spooled.
+  --dialect NAME         ${dialectNames().join(', ')} (default ${DEFAULT_DIALECT})
+  --encoding E           ${LINE_ENCODINGS.join('|')} (default utf8)
+`,
+  simulate: `Usage: npm run bridge -- simulate [options]
+
+An invented single-test CRP reader printing result slips (demo and test data only).
+  --seed N               same seed, same slips (default: random, printed at start)
+  --count N              slips to print (default 10 to stdout, otherwise unlimited)
+  --every SECONDS        pause between slips (default 0 to stdout, otherwise 20)
+  --serial-number SN     printed on the slips (default SIM-0001)
+Where to (default stdout):
+  --listen PORT          act as a serial-to-network adapter: serve slips to TCP clients
+  --host HOST            address to listen on (default 127.0.0.1)
+  --wait-for-client      hold the first slip until a client is connected
+  --serial PATH          write to a serial port (e.g. one end of a socat pty pair)
+${SERIAL_HELP}
+`,
+  ports: `Usage: npm run bridge -- ports [--json]
+
+Lists serial ports. Without udevadm (Linux) the details are unavailable and likely
+device nodes in /dev are listed instead.
+`,
+};
+
+const SERIAL_OPTIONS = {
+  baud: { type: 'string' },
+  'data-bits': { type: 'string' },
+  parity: { type: 'string' },
+  'stop-bits': { type: 'string' },
+  rtscts: { type: 'boolean' },
+  xon: { type: 'boolean' },
+  xoff: { type: 'boolean' },
+} as const satisfies ParseArgsConfig['options'];
+
+type Values = Record<string, string | boolean | undefined>;
+
+/** Runs one CLI command; resolves with the exit status. */
+export async function main(argv: string[]): Promise<number> {
+  const [command, ...rest] = argv;
+  try {
+    if (!command || command === '--help' || command === '-h' || command === 'help') {
+      process.stdout.write(USAGE);
+      return command ? 0 : 2;
+    }
+    if (!(command in HELP)) throw new UsageError(`unknown command "${command}"`);
+    if (rest.includes('--help') || rest.includes('-h')) {
+      process.stdout.write(HELP[command]);
+      return 0;
+    }
+    switch (command) {
+      case 'run':
+        return await runCommand(rest);
+      case 'parse':
+        return await parseCommand(rest);
+      case 'simulate':
+        return await simulateCommand(rest);
+      case 'ports':
+        return await portsCommand(rest);
+    }
+    return 2;
+  } catch (error) {
+    if (error instanceof UsageError) {
+      process.stderr.write(`bridge ${command ?? ''}: ${error.message}\n(see npm run bridge -- ${command && command in HELP ? `${command} ` : ''}--help)\n`);
+      return 2;
+    }
+    process.stderr.write(`bridge ${command}: ${error instanceof Error ? error.message : String(error)}\n`);
+    return 1;
+  }
+}
+
+function parseFlags<const Options extends NonNullable<ParseArgsConfig['options']>>(args: string[], options: Options, allowPositionals = false) {
+  try {
+    return parseArgs({ args, options, allowPositionals, strict: true });
+  } catch (error) {
+    throw new UsageError((error as Error).message);
+  }
+}
+
+function integer(values: Values, name: string, range: { min: number; max: number }): number | undefined {
+  const text = values[name];
+  if (text === undefined || typeof text === 'boolean') return undefined;
+  const value = Number(text);
+  if (!Number.isInteger(value) || value < range.min || value > range.max) {
+    throw new UsageError(`--${name} must be a whole number from ${range.min} to ${range.max}, not "${text}"`);
+  }
+  return value;
+}
+
+function encodingOf(values: Values): LineEncoding | undefined {
+  const encoding = values.encoding;
+  if (encoding === undefined) return undefined;
+  if (!LINE_ENCODINGS.includes(encoding as LineEncoding)) throw new UsageError(`--encoding must be ${LINE_ENCODINGS.join(' or ')}`);
+  return encoding as LineEncoding;
+}
+
+function dialectOf(values: Values): string {
+  const name = typeof values.dialect === 'string' ? values.dialect : DEFAULT_DIALECT;
+  if (!findDialect(name)) throw new UsageError(`unknown dialect "${name}" (known: ${dialectNames().join(', ')})`);
+  return name;
+}
+
+/** --baud, --data-bits, --parity, --stop-bits, --rtscts, --xon, --xoff → serial settings (only those given). */
+function serialSettingsOf(values: Values): Partial<SerialSettings> {
+  const given: Record<string, unknown> = {};
+  if (values.baud !== undefined) given.baudRate = integer(values, 'baud', { min: 50, max: 4_000_000 });
+  if (values['data-bits'] !== undefined) given.dataBits = Number(values['data-bits']);
+  if (values.parity !== undefined) given.parity = values.parity;
+  if (values['stop-bits'] !== undefined) given.stopBits = Number(values['stop-bits']);
+  for (const flag of ['rtscts', 'xon', 'xoff'] as const) if (values[flag]) given[flag] = true;
+  const parsed = serialSettingsSchema.partial().safeParse(given);
+  if (!parsed.success) {
+    const issue = parsed.error.issues[0];
+    const flag = { baudRate: 'baud', dataBits: 'data-bits', parity: 'parity', stopBits: 'stop-bits' }[String(issue.path[0])] ?? issue.path[0];
+    throw new UsageError(`--${String(flag)}: ${issue.message}`);
+  }
+  // Keep only what was given, so a config file's settings are not overwritten by defaults.
+  return Object.fromEntries(Object.keys(given).map((key) => [key, (parsed.data as Record<string, unknown>)[key]]));
+}
+
+async function runCommand(args: string[]): Promise<number> {
+  const { values } = parseFlags(args, {
+    config: { type: 'string' },
+    server: { type: 'string' },
+    token: { type: 'string' },
+    instrument: { type: 'string' },
+    source: { type: 'string' },
+    dialect: { type: 'string' },
+    encoding: { type: 'string' },
+    spool: { type: 'string' },
+    ...SERIAL_OPTIONS,
+  });
+  const options = await runOptions(values, process.env);
+  checkBridgeOptions(options);
+  const log = streamLog(process.stdout);
+  const { startBridge } = await import('./pipeline');
+  log.info(`bridge: spool ${options.spoolDir}, server ${options.server}`);
+  const bridge = await startBridge({ ...options, log });
+  await new Promise<void>((done) => {
+    let signals = 0;
+    const onSignal = (signal: NodeJS.Signals) => {
+      if (++signals > 1) process.exit(1);
+      log.info(`bridge: ${signal}, stopping`);
+      void bridge.stop().then(done);
+    };
+    process.on('SIGINT', onSignal);
+    process.on('SIGTERM', onSignal);
+  });
+  log.info(`bridge: stopped, ${bridge.spool.depth()} record(s) waiting in the spool`);
+  return 0;
+}
+
+/** Flags, then the config file, then the environment. */
+export async function runOptions(values: Values, env: Record<string, string | undefined>): Promise<BridgeOptions> {
+  const text = (name: string) => (typeof values[name] === 'string' ? (values[name] as string) : undefined);
+  let instruments: InstrumentConfig[];
+  let fromFile: { server?: string; token?: string; spoolDir?: string } = {};
+  if (text('config')) {
+    const clash = ['instrument', 'source', 'dialect', 'encoding', ...Object.keys(SERIAL_OPTIONS)].find((name) => values[name] !== undefined);
+    if (clash) throw new UsageError(`--${clash} does not go with --config; set it per instrument in the file`);
+    const config = await loadConfigFile(resolve(text('config') as string));
+    fromFile = config;
+    instruments = config.instruments;
+  } else {
+    const code = text('instrument');
+    const source = text('source');
+    if (!code) throw new UsageError('--instrument CODE is required (or --config FILE)');
+    if (!source) throw new UsageError('--source is required: serial:/dev/ttyUSB0, tcp://host:port or file:PATH');
+    if (!source.startsWith('serial:') && Object.keys(SERIAL_OPTIONS).some((name) => values[name] !== undefined)) {
+      throw new UsageError('serial settings (--baud, --parity, …) only apply to a serial: source');
+    }
+    instruments = [{ code, source, dialect: dialectOf(values), encoding: encodingOf(values), serial: serialSettingsOf(values) }];
+  }
+  const server = text('server') ?? fromFile.server ?? env.BENCHWIRE_SERVER;
+  if (!server) throw new UsageError('no server: pass --server URL or set BENCHWIRE_SERVER');
+  return {
+    server,
+    token: text('token') ?? fromFile.token ?? env.BENCHWIRE_BRIDGE_TOKEN ?? '',
+    spoolDir: resolve(text('spool') ?? fromFile.spoolDir ?? 'bridge-spool'),
+    instruments,
+  };
+}
+
+async function parseCommand(args: string[]): Promise<number> {
+  const { values, positionals } = parseFlags(args, { dialect: { type: 'string' }, encoding: { type: 'string' } }, true);
+  if (positionals.length > 1) throw new UsageError('give one file (or - for stdin)');
+  const file = positionals[0] ?? '-';
+  const dialect = findDialect(dialectOf(values));
+  if (!dialect) return 2;
+  const input = file === '-' ? process.stdin : createReadStream(file);
+  // A missing file is a bad argument: say so before anything is printed.
+  if (file !== '-') {
+    await new Promise<void>((resolve, reject) => {
+      input.once('open', () => resolve());
+      input.once('error', (error: Error) => reject(new UsageError(`cannot read ${file}: ${error.message}`)));
+    });
+  }
+  const printer = new Writable({
+    objectMode: true,
+    write(output: ParserOutput, _encoding, callback) {
+      process.stdout.write(`${JSON.stringify(output)}\n`, callback);
+    },
+  });
+  await pipeline([input, ...createParsingStages(dialect, { encoding: encodingOf(values), idle: false }), printer]);
+  return 0;
+}
+
+async function simulateCommand(args: string[]): Promise<number> {
+  const { values } = parseFlags(args, {
+    seed: { type: 'string' },
+    count: { type: 'string' },
+    every: { type: 'string' },
+    'serial-number': { type: 'string' },
+    listen: { type: 'string' },
+    host: { type: 'string' },
+    'wait-for-client': { type: 'boolean' },
+    serial: { type: 'string' },
+    ...SERIAL_OPTIONS,
+  });
+  if (values.listen !== undefined && values.serial !== undefined) throw new UsageError('--listen and --serial do not go together');
+  if (values.serial === undefined && Object.keys(SERIAL_OPTIONS).some((name) => values[name as keyof typeof values] !== undefined)) {
+    throw new UsageError('serial settings (--baud, --parity, …) only apply with --serial PATH');
+  }
+  const toStdout = values.listen === undefined && values.serial === undefined;
+  const every = values.every === undefined ? (toStdout ? 0 : 20) : Number(values.every);
+  if (!Number.isFinite(every) || every < 0) throw new UsageError(`--every must be a number of seconds, not "${values.every}"`);
+  const seed = integer(values, 'seed', { min: 0, max: 2 ** 32 - 1 }) ?? randomInt(2 ** 32 - 1);
+  const count = integer(values, 'count', { min: 1, max: Number.MAX_SAFE_INTEGER }) ?? (toStdout ? 10 : undefined);
+  const serialNumber = values['serial-number'];
+  if (serialNumber !== undefined && !/^[\x21-\x7e]{1,32}$/.test(serialNumber)) throw new UsageError('--serial-number: 1–32 printable characters, no spaces');
+
+  const log = streamLog(process.stderr);
+  const controller = new AbortController();
+  const stop = () => controller.abort();
+  process.on('SIGINT', stop);
+  process.on('SIGTERM', stop);
+  log.info(`simulator: seed ${seed} (pass --seed ${seed} to print the same slips again)`);
+  const { runSimulator } = await import('./simulator/simulate');
+  await runSimulator({
+    target:
+      values.listen !== undefined
+        ? { kind: 'listen', port: integer(values, 'listen', { min: 0, max: 65535 }) ?? 0, host: values.host, waitForClient: values['wait-for-client'] }
+        : values.serial !== undefined
+          ? { kind: 'serial', path: values.serial, settings: serialSettingsOf(values) }
+          : { kind: 'stdout' },
+    seed,
+    count,
+    everyMs: every * 1000,
+    serialNumber,
+    log,
+    signal: controller.signal,
+  });
+  process.off('SIGINT', stop);
+  process.off('SIGTERM', stop);
+  return 0;
+}
+
+async function portsCommand(args: string[]): Promise<number> {
+  const { values } = parseFlags(args, { json: { type: 'boolean' } });
+  const { formatListing, listPorts } = await import('./ports');
+  const listing = await listPorts();
+  process.stdout.write(values.json ? `${JSON.stringify(listing, null, 2)}\n` : formatListing(listing));
+  return 0;
+}
+
+function invokedDirectly(): boolean {
+  if (!process.argv[1]) return false;
+  try {
+    return realpathSync(process.argv[1]) === realpathSync(fileURLToPath(import.meta.url));
+  } catch {
+    return false;
+  }
+}
+
+if (invokedDirectly()) {
+  main(process.argv.slice(2)).then((status) => {
+    process.exitCode = status;
+    // Keep-alive sockets and the like must not hold a stopped bridge open.
+    if (process.argv[2] === 'run') setTimeout(() => process.exit(status), 2_000).unref();
+  });
+}
