@@ -1,3 +1,4 @@
+import { EventEmitter } from 'node:events';
 import { readFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
@@ -17,7 +18,12 @@ let spool: Spool;
 const servers: TestServer[] = [];
 const uploaders: Uploader[] = [];
 const lines: string[] = [];
-const log = { info: (m: string) => lines.push(`info ${m}`), warn: (m: string) => lines.push(`warn ${m}`), error: (m: string) => lines.push(`error ${m}`) };
+const logged = new EventEmitter<{ line: [string] }>();
+const record = (level: string) => (message: string) => {
+  lines.push(`${level} ${message}`);
+  logged.emit('line', `${level} ${message}`);
+};
+const log = { info: record('info'), warn: record('warn'), error: record('error') };
 
 beforeEach(async () => {
   ({ dir, cleanup } = await tempDir());
@@ -249,6 +255,24 @@ describe('Uploader', () => {
       spoolDepth: 2,
       sources: [{ instrument: 'crp-reader', state: 'connecting', detail: 'tcp://127.0.0.1:4001' }],
     });
+  });
+
+  it('survives a spool it cannot update: logs it and keeps the batch pending', async () => {
+    await spoolReadings(1);
+    const store = keyStore();
+    const server = await serve(async (batch) => {
+      await spool.close(); // the disk goes away between sending and hearing back
+      return { status: 200, body: store.answer(batch) };
+    });
+    const uploader = upload(server.url);
+    const spoolError = when<[string]>(logged, 'line', (line) => line.startsWith('error upload: could not update the spool'));
+    uploader.start();
+    await spoolError;
+    await uploader.stop();
+    expect(store.ids.size).toBe(1);
+    const reopened = await Spool.open(dir);
+    expect(reopened.depth()).toBe(1);
+    await reopened.close();
   });
 
   it('stops while a request hangs, leaving its records pending', async () => {

@@ -141,50 +141,57 @@ export class Uploader extends EventEmitter<UploaderEvents> {
         continue;
       }
       limit = MAX_BATCH;
-      switch (answer.kind) {
-        case 'confirmed': {
-          await this.spool.ack(answer.keys);
-          const event = { created: answer.created, duplicate: answer.duplicate, keys: answer.keys };
-          this.log.info(
-            `upload: ${answer.keys.length} record(s) confirmed (${answer.created} created, ${answer.duplicate} duplicate), ${this.spool.depth()} pending`,
-          );
-          this.emit('uploaded', event);
-          if (answer.keys.length < batch.length) {
-            // Should not happen; sending again is safe and the server will say which it has.
-            const delayMs = this.backoff(failures++);
-            this.log.warn(`upload: server confirmed only ${answer.keys.length} of ${batch.length}; resending the rest in ${seconds(delayMs)}`);
-            await this.pause(delayMs);
-          } else {
-            failures = 0;
-          }
-          break;
-        }
-        case 'rejected':
-        case 'too-large': {
-          await this.spool.reject(batch, { status: answer.status, error: answer.error });
-          this.log.error(
-            `upload: server refused ${batch.length} record(s) (HTTP ${answer.status}: ${answer.message}); kept in ${this.spool.dir}/rejected.jsonl for review`,
-          );
-          this.emit('rejected', { status: answer.status, count: batch.length, message: answer.message });
-          failures = 0;
-          break;
-        }
-        case 'unauthorized': {
-          const delayMs = this.options.authRetryMs ?? 60_000;
-          this.log.error(
-            `upload: server refused the bridge token (HTTP ${answer.status}: ${answer.message}); check or re-issue the token; trying again in ${seconds(delayMs)}`,
-          );
-          this.emit('unauthorized', { reason: answer.message, status: answer.status, delayMs });
-          await this.pause(delayMs);
-          break;
-        }
-        case 'retry': {
-          const delayMs = this.backoff(failures++);
-          this.log.warn(`upload: ${answer.message}; ${this.spool.depth()} pending, trying again in ${seconds(delayMs)}`);
-          this.emit('retrying', { reason: answer.message, status: answer.status, delayMs });
-          await this.pause(delayMs);
-          break;
-        }
+      try {
+        failures = await this.settle(batch, answer, failures);
+      } catch (error) {
+        // The spool could not record the outcome (disk trouble): the batch stays pending and goes again.
+        const delayMs = this.backoff(failures++);
+        this.log.error(`upload: could not update the spool (${errorMessage(error)}); trying again in ${seconds(delayMs)}`);
+        await this.pause(delayMs);
+      }
+    }
+  }
+
+  /** Acts on the server's answer; resolves with the failure count for the next backoff. */
+  private async settle(batch: BridgeRecord[], answer: Exclude<Answer, { kind: 'stopped' }>, failures: number): Promise<number> {
+    switch (answer.kind) {
+      case 'confirmed': {
+        await this.spool.ack(answer.keys);
+        this.log.info(
+          `upload: ${answer.keys.length} record(s) confirmed (${answer.created} created, ${answer.duplicate} duplicate), ${this.spool.depth()} pending`,
+        );
+        this.emit('uploaded', { created: answer.created, duplicate: answer.duplicate, keys: answer.keys });
+        if (answer.keys.length === batch.length) return 0;
+        // Should not happen; sending the rest again is safe, the server says which it already has.
+        const delayMs = this.backoff(failures);
+        this.log.warn(`upload: server confirmed only ${answer.keys.length} of ${batch.length}; sending the rest again in ${seconds(delayMs)}`);
+        await this.pause(delayMs);
+        return failures + 1;
+      }
+      case 'rejected':
+      case 'too-large': {
+        await this.spool.reject(batch, { status: answer.status, error: answer.error });
+        this.log.error(
+          `upload: server refused ${batch.length} record(s) (HTTP ${answer.status}: ${answer.message}); kept in ${this.spool.dir}/rejected.jsonl for review`,
+        );
+        this.emit('rejected', { status: answer.status, count: batch.length, message: answer.message });
+        return 0;
+      }
+      case 'unauthorized': {
+        const delayMs = this.options.authRetryMs ?? 60_000;
+        this.log.error(
+          `upload: server refused the bridge token (HTTP ${answer.status}: ${answer.message}); check or re-issue the token; trying again in ${seconds(delayMs)}`,
+        );
+        this.emit('unauthorized', { reason: answer.message, status: answer.status, delayMs });
+        await this.pause(delayMs);
+        return failures;
+      }
+      case 'retry': {
+        const delayMs = this.backoff(failures);
+        this.log.warn(`upload: ${answer.message}; ${this.spool.depth()} pending, trying again in ${seconds(delayMs)}`);
+        this.emit('retrying', { reason: answer.message, status: answer.status, delayMs });
+        await this.pause(delayMs);
+        return failures + 1;
       }
     }
   }
