@@ -3,8 +3,8 @@ import { pipeline } from 'node:stream/promises';
 
 // Test helpers shared by the stage tests.
 
-/** Feed chunks through stages in order and collect what comes out the end. */
-export async function runThrough<T>(chunks: ReadonlyArray<Buffer | string>, stages: Duplex[]): Promise<T[]> {
+/** Feed chunks (bytes, or objects for object-mode stages) through stages and collect what comes out. */
+export async function runThrough<T>(chunks: readonly unknown[], stages: Duplex[]): Promise<T[]> {
   const out: T[] = [];
   const sink = new Writable({
     objectMode: true,
