@@ -3,6 +3,9 @@ import { describe, expect, it } from 'vitest';
 import { everyTwoPieceSplit, runThrough, splitAt } from '../testing/streams';
 import { LineSplitter, lineText, type Line, type LineSplitterOptions } from './lines';
 
+// Splitting follows @serialport/parser-readline (delimiter kept, tail flushed at end); decoding, the
+// CR strip and the length bound are ours.
+
 const lines = (chunks: ReadonlyArray<Buffer | string>, options?: LineSplitterOptions) =>
   runThrough<Line>(chunks, [new LineSplitter(options)]);
 

@@ -7,6 +7,8 @@ import { Spool } from '../spool';
 import { tempDir } from '../testing/payloads';
 import { openFileSource } from './file';
 
+// A capture file read end to end is the same byte stream as a cable (common practice, no source).
+
 let dir: string;
 let cleanup: () => Promise<void>;
 let spool: Spool;

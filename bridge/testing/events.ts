@@ -4,7 +4,7 @@ import type { Spool } from '../spool';
 
 /** Resolves with the arguments of the first `event` for which `accept` holds (tests rely on vitest's timeout). */
 export function when<Args extends unknown[] = unknown[]>(
-  emitter: EventEmitter<any>,
+  emitter: Pick<EventEmitter, 'on' | 'off'>,
   event: string,
   accept: (...args: Args) => boolean = () => true,
 ): Promise<Args> {
