@@ -82,6 +82,13 @@ describe('RecordFramer', () => {
     expect(out.map((o) => o.raw).join('')).toBe(Array.from({ length: 12 }, (_, i) => `noise ${i}\n`).join(''));
   });
 
+  it('ends stray text at a long run of blank lines instead of holding them', async () => {
+    expect(summary(await frame(`noise\n${'\n'.repeat(20)}more noise\n`))).toEqual([
+      { unparsed: 'noise\n', reason: OUTSIDE_RECORD },
+      { unparsed: 'more noise\n', reason: OUTSIDE_RECORD },
+    ]);
+  });
+
   it('keeps every output within maxChars', async () => {
     const out = await frame(`BEGIN\n${'x'.repeat(30)}\n${'y'.repeat(30)}\nEND\n`, { maxChars: 50 });
     expect(summary(out)).toEqual([

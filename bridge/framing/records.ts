@@ -95,7 +95,10 @@ export class RecordFramer extends Transform {
       return;
     }
     if (line.text.trim() === '') {
-      if (this.stray.length > 0) this.blanksAfterStray.push(line);
+      if (this.stray.length === 0) return;
+      // A long run of blank lines ends the stray text; the blanks themselves are spacing.
+      if (this.blanksAfterStray.length >= this.maxLines) this.flushStray();
+      else this.blanksAfterStray.push(line);
       return;
     }
     const adding = [...this.blanksAfterStray, line];
