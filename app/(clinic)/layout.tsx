@@ -2,6 +2,8 @@ import Link from 'next/link';
 import { requirePageActor } from '@/lib/auth/current';
 import { allowed, roleLabel } from '@/lib/auth/roles';
 import { BrandMark } from '@/app/components/ui';
+import { ActorProvider } from './actor';
+import { AlertNotifier } from './alert-notifier';
 import { LiveProvider, LiveStatus } from './live';
 import { NavLink } from './nav-link';
 import { SignOutButton } from './sign-out-button';
@@ -12,6 +14,7 @@ export default async function ClinicLayout({ children }: { children: React.React
   const actor = await requirePageActor();
   return (
     <LiveProvider>
+      <ActorProvider actor={{ userId: actor.userId, role: actor.role, displayName: actor.displayName }}>
       <div className="flex min-h-screen flex-col">
         <header className="bg-ink-900 text-white">
           <div className="mx-auto flex max-w-7xl flex-wrap items-center gap-x-6 gap-y-2 px-4 py-3">
@@ -21,10 +24,13 @@ export default async function ClinicLayout({ children }: { children: React.React
             </Link>
             <nav aria-label="Main" className="flex gap-1">
               <NavLink href="/intake">Intake</NavLink>
+              <NavLink href="/bench">Bench</NavLink>
               <NavLink href="/patients">Patients</NavLink>
+              <NavLink href="/reviews">Review</NavLink>
               {allowed(actor.role, 'manageClinic') && <NavLink href="/admin">Admin</NavLink>}
             </nav>
             <div className="ml-auto flex items-center gap-4 text-sm">
+              <AlertNotifier />
               <LiveStatus />
               <span className="text-ink-100">
                 {actor.displayName} <span className="text-ink-300">· {roleLabel[actor.role]}</span>
@@ -35,6 +41,7 @@ export default async function ClinicLayout({ children }: { children: React.React
         </header>
         <main className="mx-auto w-full max-w-7xl flex-1 px-4 py-6">{children}</main>
       </div>
+      </ActorProvider>
     </LiveProvider>
   );
 }

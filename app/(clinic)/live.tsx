@@ -15,6 +15,20 @@ const LiveContext = createContext<{ state: LiveState; listen: (fn: Listener) => 
 
 const startsWith = (prefix: string) => (key: unknown) => typeof key === 'string' && key.startsWith(prefix);
 
+/** Which SWR keys (by prefix) an event makes stale. Suggestions live under /api/readings and depend on orders. */
+export function revalidates(event: LiveEvent): string[] {
+  const family = event.type.split('.')[0];
+  const keys: string[] = [];
+  if (family === 'reading') keys.push('/api/readings', '/api/reviews', '/api/alerts', '/api/orders');
+  if (family === 'capture') keys.push('/api/captures');
+  if (family === 'order') keys.push('/api/orders', '/api/readings');
+  if (family === 'review') keys.push('/api/reviews');
+  if (family === 'alert') keys.push('/api/alerts');
+  if (family === 'settings') keys.push('/api/admin/clinical', '/api/patients', '/api/readings', '/api/orders');
+  if (event.patientId) keys.push(`/api/patients/${event.patientId}`);
+  return keys;
+}
+
 export function LiveProvider({ children }: { children: React.ReactNode }) {
   const { mutate } = useSWRConfig();
   const [state, setState] = useState<LiveState>('connecting');
@@ -42,9 +56,7 @@ export function LiveProvider({ children }: { children: React.ReactNode }) {
           return;
         }
         if (!('clinicId' in event)) return;
-        if (event.type.startsWith('reading.')) void mutate(startsWith('/api/readings'));
-        if (event.type.startsWith('capture.')) void mutate(startsWith('/api/captures'));
-        if (event.patientId) void mutate(startsWith(`/api/patients/${event.patientId}`));
+        for (const prefix of revalidates(event)) void mutate(startsWith(prefix));
         for (const listener of listeners.current) listener(event);
       };
       socket.onclose = () => {

@@ -61,16 +61,20 @@ function inputFor(reading: Parameters<typeof toMatchReading>[0], context: Awaite
 }
 
 /** Ranked candidates for one unassigned reading, with reasons. */
-export async function suggestionsFor(actor: Actor, readingId: string): Promise<{ readingId: string; candidates: Candidate[] }> {
+export async function suggestionsFor(
+  actor: Actor,
+  readingId: string,
+): Promise<{ readingId: string; candidates: Candidate[]; analyte: { code: string; validatedSpecies: string[] } | null }> {
   const database = await db();
   const [reading] = await database
     .select()
     .from(readings)
     .where(and(eq(readings.id, readingId), eq(readings.clinicId, actor.clinicId)));
   if (!reading) throw notFound('The reading');
-  if (reading.status !== 'unassigned') return { readingId, candidates: [] };
   const context = await matchContext(database, actor.clinicId, [reading.analyte], [reading.sampleId, reading.patientRef].filter((x): x is string => !!x));
-  return { readingId, candidates: rankCandidates(inputFor(reading, context)) };
+  const analyte = context.analytes.find((a) => a.code === reading.analyte) ?? null;
+  if (reading.status !== 'unassigned') return { readingId, candidates: [], analyte };
+  return { readingId, candidates: rankCandidates(inputFor(reading, context)), analyte };
 }
 
 /** The top few candidates for every unassigned reading, for the Intake board in one request. */

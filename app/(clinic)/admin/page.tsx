@@ -2,6 +2,7 @@ import type { Metadata } from 'next';
 import { requirePageActor } from '@/lib/auth/current';
 import { PageHeader } from '@/app/components/ui';
 import { BridgesPanel } from './bridges-panel';
+import { ClinicalPanel } from './clinical-panel';
 import { InstrumentsPanel } from './instruments-panel';
 import { StaffPanel } from './staff-panel';
 
@@ -16,6 +17,7 @@ export default async function AdminPage() {
         <StaffPanel selfId={actor.userId} />
         <BridgesPanel />
         <InstrumentsPanel />
+        <ClinicalPanel />
       </div>
     </>
   );

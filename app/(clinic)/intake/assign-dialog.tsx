@@ -7,7 +7,9 @@ import { fetcher, send } from '@/lib/client/fetcher';
 import { formatAge, sexLabel, speciesLabel } from '@/lib/format';
 import type { PatientView } from '@/lib/patients';
 import type { IntakeReading } from './intake-board';
+import { speciesWarning, type Candidate } from '@/lib/clinical/matching';
 import { ReadingSummary } from './reading-summary';
+import { Reasons, StrengthBadge } from './suggested-match';
 
 function useDebounced<T>(value: T, ms: number) {
   const [debounced, setDebounced] = useState(value);
@@ -24,7 +26,18 @@ function useDebounced<T>(value: T, ms: number) {
  */
 export function AssignDialog({ reading, onClose }: { reading: IntakeReading; onClose: (message?: string) => void }) {
   const [query, setQuery] = useState(reading.sampleId ?? reading.patientRef ?? '');
-  const [chosen, setChosen] = useState<PatientView | null>(null);
+  const [chosen, setChosen] = useState<(Pick<PatientView, 'id' | 'name' | 'recordNumber'> & { species?: string }) | null>(null);
+  // Which of the chosen patient's running tests this reading fulfils ('' for none), and whether a suggestion was taken.
+  const [orderChoice, setOrderChoice] = useState<string | null>(null);
+  const [fromSuggestion, setFromSuggestion] = useState(false);
+  const ranked = useSWR<{ candidates: Candidate[]; analyte: { code: string; validatedSpecies: string[] } | null }>(`/api/readings/${reading.id}/suggestions`, fetcher);
+  const candidates = ranked.data?.candidates ?? [];
+  const forChosen = chosen ? candidates.filter((c) => c.patientId === chosen.id && c.orderId) : [];
+  const orderId = orderChoice ?? forChosen[0]?.orderId ?? '';
+  const analyte = ranked.data?.analyte ?? undefined;
+  const chosenWarning = chosen
+    ? (candidates.find((c) => c.patientId === chosen.id)?.speciesWarning ?? (chosen.species ? speciesWarning(analyte, { name: chosen.name, species: chosen.species }) : null))
+    : null;
   const [failure, setFailure] = useState<string | null>(null);
   const [saving, setSaving] = useState(false);
   const q = useDebounced(query.trim(), 200);
@@ -38,8 +51,14 @@ export function AssignDialog({ reading, onClose }: { reading: IntakeReading; onC
     setSaving(true);
     setFailure(null);
     try {
-      await send(`/api/readings/${reading.id}/assign`, 'POST', { patientId: chosen.id });
-      onClose(`${reading.analyte} ${reading.value ?? ''} assigned to ${chosen.name} (${chosen.recordNumber}).`);
+      const { assignment } = await send<{ assignment: { speciesWarning: string | null } }>(`/api/readings/${reading.id}/assign`, 'POST', {
+        patientId: chosen.id,
+        orderId: orderId || undefined,
+        method: fromSuggestion ? 'suggestion' : 'manual',
+      });
+      onClose(
+        `${reading.analyte} ${reading.value ?? ''} assigned to ${chosen.name} (${chosen.recordNumber}).${assignment.speciesWarning ? ` ${assignment.speciesWarning}` : ''}`,
+      );
     } catch (error) {
       setFailure(error instanceof Error ? error.message : 'Could not assign.');
       setSaving(false);
@@ -49,6 +68,38 @@ export function AssignDialog({ reading, onClose }: { reading: IntakeReading; onC
   return (
     <Modal title="Assign reading to a patient" onClose={() => onClose()}>
       <ReadingSummary reading={reading} />
+      {candidates.length > 0 && (
+        <section aria-labelledby="suggestions-heading" className="mb-4">
+          <h3 id="suggestions-heading" className="mb-1 text-sm font-semibold">
+            Suggested from running tests
+          </h3>
+          <ol className="max-h-56 space-y-2 overflow-auto">
+            {candidates.slice(0, 5).map((c, i) => (
+              <li key={`${c.patientId}-${c.orderId}`} className="rounded-md border border-ink-100 bg-white p-2" data-testid="dialog-suggestion">
+                <div className="flex items-center gap-2 text-sm">
+                  <span className="text-ink-500">{i + 1}.</span>
+                  <span className="font-semibold">{c.patientName}</span>
+                  <span className="font-mono text-xs">{c.recordNumber}</span>
+                  <StrengthBadge candidate={c} />
+                  <button
+                    type="button"
+                    className={`${buttonClass.quiet} ml-auto`}
+                    aria-label={`Select suggestion ${i + 1}`}
+                    onClick={() => {
+                      setChosen({ id: c.patientId, name: c.patientName, recordNumber: c.recordNumber });
+                      setOrderChoice(c.orderId ?? '');
+                      setFromSuggestion(true);
+                    }}
+                  >
+                    Select
+                  </button>
+                </div>
+                <Reasons candidate={c} />
+              </li>
+            ))}
+          </ol>
+        </section>
+      )}
       <label htmlFor="patient-search" className="mb-1 block text-sm font-medium">
         Find the patient by name, record number or owner
       </label>
@@ -61,6 +112,8 @@ export function AssignDialog({ reading, onClose }: { reading: IntakeReading; onC
         onChange={(e) => {
           setQuery(e.target.value);
           setChosen(null);
+          setOrderChoice(null);
+          setFromSuggestion(false);
         }}
         aria-controls={listId}
         className={inputClass}
@@ -72,7 +125,11 @@ export function AssignDialog({ reading, onClose }: { reading: IntakeReading; onC
           <li key={p.id} role="option" aria-selected={chosen?.id === p.id}>
             <button
               type="button"
-              onClick={() => setChosen(p)}
+              onClick={() => {
+                setChosen(p);
+                setOrderChoice(null);
+                setFromSuggestion(false);
+              }}
               className={`w-full rounded-md border px-3 py-2 text-left text-sm ${
                 chosen?.id === p.id ? 'border-ink-800 bg-ink-100' : 'border-transparent bg-white hover:border-ink-300'
               }`}
@@ -86,6 +143,26 @@ export function AssignDialog({ reading, onClose }: { reading: IntakeReading; onC
           </li>
         ))}
       </ul>
+      {chosen && forChosen.length > 0 && (
+        <div className="mt-3">
+          <label htmlFor="assign-order" className="mb-1 block text-sm font-medium">
+            Running test this reading completes
+          </label>
+          <select id="assign-order" className={inputClass} value={orderId} onChange={(e) => setOrderChoice(e.target.value)}>
+            {forChosen.map((c) => (
+              <option key={c.orderId} value={c.orderId!}>
+                {reading.analyte} for {c.patientName} · {c.reasons.find((r) => r.code === 'on-time' || r.code === 'late' || r.code === 'too-early')?.text ?? ''}
+              </option>
+            ))}
+            <option value="">None (put it on the patient only)</option>
+          </select>
+        </div>
+      )}
+      {chosenWarning && (
+        <div className="mt-3">
+          <Notice tone="error">{chosenWarning}</Notice>
+        </div>
+      )}
       {failure && (
         <div className="mt-3">
           <Notice tone="error">{failure}</Notice>

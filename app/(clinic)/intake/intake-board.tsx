@@ -5,7 +5,9 @@ import { fetcher } from '@/lib/client/fetcher';
 import { formatDateTime, formatValue, timeAgo } from '@/lib/format';
 import type { CaptureView, ReadingView } from '@/lib/readings/queries';
 import { Notice, buttonClass } from '@/app/components/ui';
+import type { Candidate } from '@/lib/clinical/matching';
 import { AssignDialog } from './assign-dialog';
+import { SuggestedMatch } from './suggested-match';
 import { VoidDialog } from './void-dialog';
 
 type Serialized<T> = { [K in keyof T]: T[K] extends Date ? string : T[K] extends Date | null ? string | null : T[K] };
@@ -34,6 +36,10 @@ export function IntakeBoard() {
     refreshInterval: 60_000,
   });
   const captures = useSWR<{ captures: IntakeCapture[] }>('/api/captures?status=open', fetcher, {
+    refreshInterval: 60_000,
+  });
+  // Suggestions live under /api/readings, so every reading and order event refreshes them.
+  const suggestions = useSWR<{ suggestions: Record<string, Candidate[]> }>('/api/readings/suggestions', fetcher, {
     refreshInterval: 60_000,
   });
   const [assigning, setAssigning] = useState<IntakeReading | null>(null);
@@ -76,6 +82,7 @@ export function IntakeBoard() {
                   <th scope="col" className="px-4 py-2">Result</th>
                   <th scope="col" className="px-4 py-2">Sample / patient ID</th>
                   <th scope="col" className="px-4 py-2">Measured</th>
+                  <th scope="col" className="px-4 py-2">Suggested match</th>
                   <th scope="col" className="px-4 py-2"><span className="sr-only">Actions</span></th>
                 </tr>
               </thead>
@@ -103,6 +110,18 @@ export function IntakeBoard() {
                       )}
                     </td>
                     <td className="whitespace-nowrap px-4 py-3 text-ink-700">{formatDateTime(r.measuredAt)}</td>
+                    <td className="px-4 py-3 align-top">
+                      <SuggestedMatch
+                        readingId={r.id}
+                        analyte={r.analyte}
+                        candidates={suggestions.data?.suggestions[r.id]}
+                        onAssigned={(message) => {
+                          setDone(message);
+                          void readings.mutate();
+                          void suggestions.mutate();
+                        }}
+                      />
+                    </td>
                     <td className="whitespace-nowrap px-4 py-3 text-right">
                       <div className="flex justify-end gap-2">
                         <button type="button" className={buttonClass.primary} onClick={() => setAssigning(r)}>

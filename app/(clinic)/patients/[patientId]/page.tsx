@@ -49,7 +49,7 @@ export default async function PatientPage({ params }: { params: Promise<{ patien
           <Detail label="Attending veterinarian">{patient.attendingVetName ?? '—'}</Detail>
         </dl>
       </header>
-      <PatientResults patientId={patient.id} />
+      <PatientResults patientId={patient.id} patientName={patient.name} />
       <div className="mt-8">
         <ClinicalCaution />
       </div>

@@ -1,0 +1,187 @@
+'use client';
+import { useEffect, useState } from 'react';
+import useSWR from 'swr';
+import { Field, Notice, buttonClass, inputClass } from '@/app/components/ui';
+import { fetcher, send } from '@/lib/client/fetcher';
+import { dueAt, formatDuration, protocolSeconds, type ProtocolStage } from '@/lib/clinical/protocols';
+import type { PatientView } from '@/lib/patients';
+import { SAMPLE_TYPE_LABELS } from '@/lib/validation/clinical';
+import { useActor } from '../actor';
+import { useNow } from '../use-now';
+
+interface Options {
+  analytes: { code: string; protocols: { id: string; name: string; instrumentId: string | null; stages: ProtocolStage[] }[]; instruments: { id: string; name: string }[] }[];
+  orderers: { id: string; displayName: string; role: string }[];
+}
+
+/** Start a test: patient, test, reader, sample, who ordered it, and when the run started. */
+export function StartTestForm() {
+  const actor = useActor();
+  const options = useSWR<Options>('/api/orders/options', fetcher);
+  const [q, setQ] = useState('');
+  const [debounced, setDebounced] = useState('');
+  useEffect(() => {
+    const timer = setTimeout(() => setDebounced(q.trim()), 200);
+    return () => clearTimeout(timer);
+  }, [q]);
+  const search = useSWR<{ patients: PatientView[] }>(debounced ? `/api/patients?q=${encodeURIComponent(debounced)}&limit=8` : null, fetcher);
+  const [patient, setPatient] = useState<PatientView | null>(null);
+  const [analyte, setAnalyte] = useState('');
+  const [instrumentId, setInstrumentId] = useState('');
+  const [sampleType, setSampleType] = useState('whole_blood');
+  const [sampleId, setSampleId] = useState('');
+  const [orderedBy, setOrderedBy] = useState('');
+  const [minutesAgo, setMinutesAgo] = useState('0');
+  const [failure, setFailure] = useState<string | null>(null);
+  const [done, setDone] = useState<string | null>(null);
+  const [saving, setSaving] = useState(false);
+
+  const chosenAnalyte = options.data?.analytes.find((a) => a.code === (analyte || options.data?.analytes[0]?.code));
+  const instruments = chosenAnalyte?.instruments ?? [];
+  const protocol =
+    chosenAnalyte?.protocols.find((p) => p.instrumentId === (instrumentId || null)) ?? chosenAnalyte?.protocols.find((p) => p.instrumentId === null);
+  const orderer = orderedBy || (actor.role === 'veterinarian' ? actor.userId : options.data?.orderers[0]?.id) || '';
+  const minutes = Number(minutesAgo.replace(',', '.'));
+  const now = useNow();
+  // Shown before starting; the server computes the stored due time from the same stages.
+  const preview = protocol && Number.isFinite(minutes) ? dueAt(new Date(now - minutes * 60_000), protocol.stages) : null;
+
+  const submit = async (e: React.FormEvent) => {
+    e.preventDefault();
+    setFailure(null);
+    if (!patient) return setFailure('Choose the patient.');
+    if (!chosenAnalyte) return setFailure('Choose the test.');
+    if (!Number.isFinite(minutes) || minutes < 0) return setFailure('Give how many minutes ago the run started (0 for now).');
+    setSaving(true);
+    const startedAt = minutes > 0 ? new Date(new Date().getTime() - minutes * 60_000).toISOString() : undefined;
+    try {
+      await send('/api/orders', 'POST', {
+        patientId: patient.id,
+        analyte: chosenAnalyte.code,
+        instrumentId: instrumentId || undefined,
+        sampleType,
+        sampleId: sampleId || undefined,
+        orderedBy: orderer,
+        startedAt,
+      });
+      setDone(`${chosenAnalyte.code} started for ${patient.name} (${patient.recordNumber}).`);
+      setPatient(null);
+      setQ('');
+      setSampleId('');
+      setMinutesAgo('0');
+    } catch (error) {
+      setFailure(error instanceof Error ? error.message : 'Could not start the test.');
+    } finally {
+      setSaving(false);
+    }
+  };
+
+  return (
+    <section aria-labelledby="start-heading" className="rounded-xl border border-ink-100 bg-white p-4 shadow-sm">
+      <h2 id="start-heading" className="mb-3 text-lg font-semibold">
+        Start a test
+      </h2>
+      {options.data && options.data.analytes.length === 0 && (
+        <Notice tone="info">No run protocols yet: an administrator can install the defaults in Admin.</Notice>
+      )}
+      <form onSubmit={submit} className="space-y-3" noValidate aria-label="Start a test">
+        <Field id="order-patient" label="Patient">
+          {patient ? (
+            <div className="flex items-center justify-between rounded-md border border-ink-300 px-3 py-2 text-sm">
+              <span>
+                <span className="font-semibold">{patient.name}</span> <span className="font-mono">{patient.recordNumber}</span>
+              </span>
+              <button type="button" className={buttonClass.quiet} onClick={() => setPatient(null)}>
+                Change
+              </button>
+            </div>
+          ) : (
+            <>
+              <input
+                id="order-patient"
+                type="search"
+                autoComplete="off"
+                className={inputClass}
+                placeholder="Name, record number or owner"
+                value={q}
+                onChange={(e) => setQ(e.target.value)}
+              />
+              <ul className="mt-1 space-y-1" aria-label="Patients found">
+                {search.data?.patients.map((p) => (
+                  <li key={p.id}>
+                    <button
+                      type="button"
+                      data-patient-choice={p.recordNumber}
+                      className="w-full rounded border border-transparent px-2 py-1 text-left text-sm hover:border-ink-300"
+                      onClick={() => setPatient(p)}
+                    >
+                      <span className="font-medium">{p.name}</span> <span className="font-mono text-ink-700">{p.recordNumber}</span>{' '}
+                      <span className="text-xs text-ink-500">{p.species}</span>
+                    </button>
+                  </li>
+                ))}
+              </ul>
+            </>
+          )}
+        </Field>
+        <div className="grid grid-cols-2 gap-3">
+          <Field id="order-analyte" label="Test">
+            <select id="order-analyte" className={inputClass} value={chosenAnalyte?.code ?? ''} onChange={(e) => setAnalyte(e.target.value)}>
+              {options.data?.analytes.map((a) => (
+                <option key={a.code} value={a.code}>
+                  {a.code}
+                </option>
+              ))}
+            </select>
+          </Field>
+          <Field id="order-instrument" label="Reader">
+            <select id="order-instrument" className={inputClass} value={instrumentId} onChange={(e) => setInstrumentId(e.target.value)}>
+              <option value="">Not chosen</option>
+              {instruments.map((i) => (
+                <option key={i.id} value={i.id}>
+                  {i.name}
+                </option>
+              ))}
+            </select>
+          </Field>
+          <Field id="order-sample-type" label="Sample">
+            <select id="order-sample-type" className={inputClass} value={sampleType} onChange={(e) => setSampleType(e.target.value)}>
+              {Object.entries(SAMPLE_TYPE_LABELS).map(([value, label]) => (
+                <option key={value} value={value}>
+                  {label}
+                </option>
+              ))}
+            </select>
+          </Field>
+          <Field id="order-sample-id" label="Tube label (optional)">
+            <input id="order-sample-id" className={inputClass} value={sampleId} onChange={(e) => setSampleId(e.target.value)} autoComplete="off" />
+          </Field>
+        </div>
+        <Field id="order-ordered-by" label="Ordered by">
+          <select id="order-ordered-by" className={inputClass} value={orderer} onChange={(e) => setOrderedBy(e.target.value)}>
+            {options.data?.orderers.map((s) => (
+              <option key={s.id} value={s.id}>
+                {s.displayName}
+              </option>
+            ))}
+          </select>
+        </Field>
+        <Field id="order-started" label="Run started (minutes ago)" hint="0 if the sample goes in now; decimals allowed.">
+          <input id="order-started" inputMode="decimal" className={inputClass} value={minutesAgo} onChange={(e) => setMinutesAgo(e.target.value)} />
+        </Field>
+        {protocol && (
+          <p className="text-xs text-ink-700" data-testid="protocol-summary">
+            {protocol.name}: {protocol.stages.map((s) => `${s.label} ${formatDuration(s.seconds)}`).join(' → ')} (
+            {formatDuration(protocolSeconds(protocol.stages))})
+            {preview && <> · due {preview.toLocaleTimeString(undefined, { hour: '2-digit', minute: '2-digit', second: '2-digit' })}</>}
+          </p>
+        )}
+        {failure && <Notice tone="error">{failure}</Notice>}
+        {done && <Notice tone="ok">{done}</Notice>}
+        <button type="submit" className={buttonClass.primary} disabled={saving || !options.data}>
+          Start test
+        </button>
+      </form>
+    </section>
+  );
+}

@@ -1,0 +1,126 @@
+'use client';
+import Link from 'next/link';
+import { useState } from 'react';
+import useSWR from 'swr';
+import { Notice, buttonClass } from '@/app/components/ui';
+import type { StaffRole } from '@/db/schema';
+import { fetcher, send } from '@/lib/client/fetcher';
+import { formatMeasured } from '@/lib/clinical/evaluate';
+import { FLAG_CODE, type FlagResult } from '@/lib/clinical/flags';
+import { formatDateTime } from '@/lib/format';
+
+interface AlertRow {
+  id: string;
+  patientId: string;
+  patientName: string;
+  patientRecordNumber: string;
+  message: string;
+  createdAt: string;
+  recipientId: string | null;
+}
+
+interface UnreviewedRow {
+  id: string;
+  analyte: string;
+  display: { value: number | null; comparator: '<' | '>' | null; unit: string | null };
+  flag: FlagResult | null;
+  decimals: number;
+  measuredAt: string | null;
+  receivedAt: string;
+  patientId: string;
+  patientName: string;
+  patientRecordNumber: string;
+  attendingVetName: string | null;
+}
+
+export function ReviewBoard({ role }: { role: StaffRole }) {
+  const [mine, setMine] = useState(role === 'veterinarian');
+  const alerts = useSWR<{ alerts: AlertRow[] }>(`/api/alerts?status=open&mine=${mine ? 1 : 0}`, fetcher);
+  const unreviewed = useSWR<{ results: UnreviewedRow[] }>(`/api/reviews/unreviewed?mine=${mine ? 1 : 0}`, fetcher);
+  const [failure, setFailure] = useState<string | null>(null);
+
+  const acknowledge = async (id: string) => {
+    setFailure(null);
+    try {
+      await send(`/api/alerts/${id}/acknowledge`, 'POST', {});
+      void alerts.mutate();
+    } catch (error) {
+      setFailure(error instanceof Error ? error.message : 'Could not acknowledge.');
+    }
+  };
+
+  return (
+    <div className="space-y-8">
+      {role === 'veterinarian' && (
+        <label className="flex items-center gap-2 text-sm">
+          <input type="checkbox" checked={mine} onChange={(e) => setMine(e.target.checked)} /> Only my patients
+        </label>
+      )}
+      <section aria-labelledby="alerts-heading">
+        <h2 id="alerts-heading" className="mb-3 text-lg font-semibold">
+          Critical results to acknowledge
+        </h2>
+        {failure && <Notice tone="error">{failure}</Notice>}
+        {alerts.data?.alerts.length === 0 && <p className="text-sm text-ink-500">None open.</p>}
+        <ul className="space-y-2" data-testid="open-alerts">
+          {alerts.data?.alerts.map((a) => (
+            <li key={a.id} data-alert-id={a.id} className="flex flex-wrap items-center gap-3 rounded-lg border border-alarm-700/40 bg-alarm-100 p-3 text-sm">
+              <span className="font-semibold text-alarm-700">Critical</span>
+              <span className="flex-1">{a.message}</span>
+              <span className="text-xs text-ink-700">{formatDateTime(a.createdAt)}</span>
+              <Link className={buttonClass.secondary} href={`/patients/${a.patientId}`}>
+                Open chart
+              </Link>
+              {role === 'veterinarian' && (
+                <button type="button" className={buttonClass.primary} onClick={() => acknowledge(a.id)}>
+                  Acknowledge
+                </button>
+              )}
+            </li>
+          ))}
+        </ul>
+      </section>
+      <section aria-labelledby="unreviewed-heading">
+        <h2 id="unreviewed-heading" className="mb-3 text-lg font-semibold">
+          Not yet reviewed
+        </h2>
+        {unreviewed.data?.results.length === 0 && <p className="text-sm text-ink-500">Everything is signed off.</p>}
+        {unreviewed.data && unreviewed.data.results.length > 0 && (
+          <div className="overflow-x-auto rounded-lg border border-ink-100 bg-white shadow-sm">
+            <table className="min-w-full divide-y divide-ink-100 text-sm" data-testid="unreviewed-results">
+              <thead className="bg-paper-deep/60 text-left text-xs uppercase tracking-wide text-ink-700">
+                <tr>
+                  <th scope="col" className="px-4 py-2">Patient</th>
+                  <th scope="col" className="px-4 py-2">Test</th>
+                  <th scope="col" className="px-4 py-2">Result</th>
+                  <th scope="col" className="px-4 py-2">Flag</th>
+                  <th scope="col" className="px-4 py-2">Measured</th>
+                  <th scope="col" className="px-4 py-2">Attending</th>
+                </tr>
+              </thead>
+              <tbody className="divide-y divide-ink-100">
+                {unreviewed.data.results.map((r) => (
+                  <tr key={r.id} data-unreviewed-id={r.id}>
+                    <td className="px-4 py-2">
+                      <Link href={`/patients/${r.patientId}`} className="font-medium underline-offset-2 hover:underline">
+                        {r.patientName}
+                      </Link>{' '}
+                      <span className="font-mono text-xs">{r.patientRecordNumber}</span>
+                    </td>
+                    <td className="px-4 py-2">{r.analyte}</td>
+                    <td className="px-4 py-2 font-mono font-semibold">{formatMeasured(r.display, r.decimals)}</td>
+                    <td className="px-4 py-2 text-xs" title={r.flag?.text}>
+                      {r.flag ? `${FLAG_CODE[r.flag.flag]}${r.flag.certain ? '' : '?'}` : '—'}
+                    </td>
+                    <td className="whitespace-nowrap px-4 py-2">{formatDateTime(r.measuredAt ?? r.receivedAt)}</td>
+                    <td className="px-4 py-2">{r.attendingVetName ?? '—'}</td>
+                  </tr>
+                ))}
+              </tbody>
+            </table>
+          </div>
+        )}
+      </section>
+    </div>
+  );
+}
