@@ -3,6 +3,7 @@ import { Writable } from 'node:stream';
 import { pipeline } from 'node:stream/promises';
 import type { ParserOutput } from '../lib/validation/readings';
 import { backoffDelay, formatSeconds } from './backoff';
+import { checkBridgeOptions } from './config';
 import { getDialect, type Dialect } from './dialects';
 import type { LineEncoding } from './framing/lines';
 import { errorMessage, silentLog, type Log } from './log';
@@ -24,6 +25,7 @@ export const BRIDGE_VERSION: string = (() => {
 /** Appends each parser output to the spool; the stream moves on only once it is on disk. */
 export class SpoolWriter extends Writable {
   private giveUp = false;
+  private wake: (() => void) | undefined;
 
   constructor(
     private readonly spool: Spool,
@@ -38,8 +40,6 @@ export class SpoolWriter extends Writable {
     this.giveUp = true;
     this.wake?.();
   }
-
-  private wake: (() => void) | undefined;
 
   override _write(output: ParserOutput, _encoding: BufferEncoding, callback: (error?: Error | null) => void): void {
     void this.store(output).then(() => callback(), callback);
@@ -147,6 +147,7 @@ export interface RunningBridge {
 
 /** Opens the spool, starts every instrument's pipeline and the shared uploader. */
 export async function startBridge(options: BridgeOptions): Promise<RunningBridge> {
+  checkBridgeOptions(options);
   const log = options.log ?? silentLog;
   const spool = await Spool.open(options.spoolDir, { log });
   const instruments: InstrumentPipeline[] = [];
