@@ -61,8 +61,9 @@ describe('bridge over a real pseudo-terminal pair', () => {
   });
 
   it('captures what the reader prints, spools it and posts it to the server', async () => {
+    const clock = () => new Date(2026, 11, 1, 14, 3, 22);
     const slips = (() => {
-      const reader = createReader({ seed: 31 });
+      const reader = createReader({ seed: 31, clock });
       return Array.from({ length: 6 }, () => reader.next());
     })();
     const expected = slips.reduce((sum, slip) => sum + (slip.notice ? 2 : 1), 0);
@@ -90,7 +91,7 @@ describe('bridge over a real pseudo-terminal pair', () => {
     // Done when the server has every record and the bridge has its confirmation.
     const confirmed = when(running.uploader, 'uploaded', () => store.ids.size >= expected && running.spool.depth() === 0);
 
-    await runSimulator({ target: { kind: 'serial', path: join(dir, 'analyzer'), settings: { baudRate: 9600 } }, seed: 31, count: 6, everyMs: 0 });
+    await runSimulator({ target: { kind: 'serial', path: join(dir, 'analyzer'), settings: { baudRate: 9600 } }, seed: 31, count: 6, everyMs: 0, clock });
     await confirmed;
 
     // What arrived, in order, is what was printed: notices as unparsed text, slips as readings or failed runs.

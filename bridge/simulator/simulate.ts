@@ -18,6 +18,8 @@ export interface SimulatorOptions {
   /** Pause between slips. */
   everyMs: number;
   serialNumber?: string;
+  /** What the slips print as DATE and TIME; now by default. */
+  clock?: () => Date;
   log?: Log;
   signal?: AbortSignal;
   /** Called once the target is ready (for listen: with the port actually bound). */
@@ -32,7 +34,7 @@ interface Printer {
 /** Prints slips to the target on a schedule until the count is reached or the signal aborts. */
 export async function runSimulator(options: SimulatorOptions): Promise<void> {
   const log = options.log ?? silentLog;
-  const reader = createReader({ seed: options.seed, serialNumber: options.serialNumber });
+  const reader = createReader({ seed: options.seed, serialNumber: options.serialNumber, clock: options.clock });
   const printer = await openPrinter(options, log);
   try {
     for (let printed = 0; options.count === undefined || printed < options.count; printed++) {
