@@ -1,7 +1,7 @@
 import 'server-only';
 import { aliasedTable, and, asc, desc, eq, inArray } from 'drizzle-orm';
 import { db } from '@/db/client';
-import { instruments, labOrders, patients, runProtocols, staffUsers } from '@/db/schema';
+import { instruments, labOrders, patients, runProtocols, staffUsers, type StaffRole } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { allowed } from '@/lib/auth/roles';
 import { recordAudit } from '@/lib/audit';
@@ -11,9 +11,12 @@ import { ApiError, notFound } from '@/lib/http';
 import { publish } from '@/lib/live/bus';
 import type { NewOrderInput } from '@/lib/validation/clinical';
 
-// Starting a test is clinical work: whoever may assign readings may start and close tests.
+// Starting and closing tests is bench work: technicians and veterinarians (the brief), not administrators.
+const RUNS_TESTS: readonly StaffRole[] = ['technician', 'veterinarian'];
 const mustRun = (actor: Actor) => {
-  if (!allowed(actor.role, 'assignReadings')) throw new ApiError(403, 'forbidden', 'Your role does not allow this.');
+  if (!allowed(actor.role, 'assignReadings') || !RUNS_TESTS.includes(actor.role)) {
+    throw new ApiError(403, 'forbidden', 'Only technicians and veterinarians start or close tests.');
+  }
 };
 
 /** Clock skew between the lab PC and the server is allowed this much when a start time is "now". */
