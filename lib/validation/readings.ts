@@ -72,6 +72,10 @@ export const bridgeHeartbeatSchema = z.object({
         instrument: z.string().max(64),
         state: z.enum(['open', 'connecting', 'closed', 'error']),
         detail: z.string().max(200).optional(),
+        /** Link-health warnings for people, e.g. a stream that looks like the wrong baud rate or parity. */
+        warnings: z.array(z.string().max(200)).max(10).optional(),
+        bytesReceived: z.number().int().min(0).optional(),
+        lastByteAt: z.iso.datetime({ offset: true }).optional(),
       }),
     )
     .max(64)
