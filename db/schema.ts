@@ -140,7 +140,8 @@ export type InstrumentConnection =
       stopBits: 1 | 1.5 | 2;
       flowControl?: 'none' | 'rtscts' | 'xonxoff';
     }
-  | { kind: 'tcp'; host: string; port: number };
+  /** 'connect' (default): the bridge dials a serial-to-network adapter; 'listen': the analyzer dials the bridge. */
+  | { kind: 'tcp'; host: string; port: number; mode?: 'connect' | 'listen' };
 
 export const instruments = pgTable(
   'instruments',

@@ -73,6 +73,7 @@ export const newInstrumentSchema = z.object({
         kind: z.literal('tcp'),
         host: z.string().trim().min(1).max(200),
         port: z.coerce.number().int().min(1).max(65535),
+        mode: z.enum(['connect', 'listen']).default('connect'),
       }),
     ])
     .optional(),
