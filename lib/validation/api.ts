@@ -1,5 +1,6 @@
 import { z } from 'zod';
 import { ROLES } from '@/lib/auth/roles';
+import { profileDefinitionSchema } from './profile';
 
 // Request shapes shared by the forms in app/ and the route handlers.
 
@@ -128,3 +129,13 @@ export const transcribeCaptureSchema = z.object({
   note: z.string().trim().max(500).optional(),
 });
 export type TranscribeCaptureInput = z.infer<typeof transcribeCaptureSchema>;
+
+export const saveProfileSchema = z.object({
+  name: z.string().trim().min(2, 'Name the profile.').max(120),
+  definition: profileDefinitionSchema,
+});
+
+export const previewProfileSchema = z.object({
+  definition: profileDefinitionSchema,
+  sample: z.string().max(256 * 1024, 'Paste at most 256 KB of printout.'),
+});
