@@ -16,7 +16,7 @@ import {
   resultReviews,
   staffUsers,
 } from './schema';
-import { installClinicalDefaults } from '@/lib/clinical/config';
+import { installClinicalDefaults } from '@/lib/clinical/install';
 import { DEFAULT_PROTOCOLS } from '@/lib/clinical/defaults';
 import { dueAt } from '@/lib/clinical/protocols';
 import { hashPassword } from '@/lib/auth/password';
