@@ -1,7 +1,7 @@
 import 'server-only';
 import { and, asc, eq, isNull } from 'drizzle-orm';
 import { db } from '@/db/client';
-import { bridges, instruments } from '@/db/schema';
+import { bridges, instruments, printoutProfiles } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { newBridgeToken } from '@/lib/auth/tokens';
 import { recordAudit } from '@/lib/audit';
@@ -106,6 +106,16 @@ export async function addInstrument(actor: Actor, input: NewInstrumentInput) {
           .where(and(eq(bridges.id, input.bridgeId), eq(bridges.clinicId, actor.clinicId)));
         if (!bridge) throw new ApiError(400, 'invalid_request', 'That bridge is not one of this clinic’s.', [
           { path: 'bridgeId', message: 'Unknown bridge.' },
+        ]);
+      }
+      if (input.profileId) {
+        const [profile] = await tx
+          .select({ key: printoutProfiles.profileKey })
+          .from(printoutProfiles)
+          .where(and(eq(printoutProfiles.profileKey, input.profileId), eq(printoutProfiles.clinicId, actor.clinicId)))
+          .limit(1);
+        if (!profile) throw new ApiError(400, 'invalid_request', 'That printout profile is not one of this clinic’s.', [
+          { path: 'profileId', message: 'Unknown profile.' },
         ]);
       }
       const [instrument] = await tx

@@ -59,6 +59,8 @@ export const newInstrumentSchema = z.object({
   dialect: z.string().trim().min(1).max(64),
   serialNumber: z.string().trim().max(64).optional(),
   bridgeId: z.uuid().optional(),
+  /** For dialect 'profile': the printout profile to read with (its latest version). */
+  profileId: z.uuid().optional(),
   connection: z
     .discriminatedUnion('kind', [
       z.object({
@@ -78,7 +80,11 @@ export const newInstrumentSchema = z.object({
       }),
     ])
     .optional(),
+}).refine((v) => v.dialect !== 'profile' || v.profileId, {
+  path: ['profileId'],
+  message: 'Choose the printout profile this instrument is read with.',
 });
+
 export type NewInstrumentInput = z.infer<typeof newInstrumentSchema>;
 
 export const readingStatusQuery = z.object({
@@ -112,6 +118,7 @@ export const DIALECT_LABELS: Record<string, string> = {
   'plain-printout': 'Text printout (single-test reader)',
   'astm-e1394': 'ASTM E1381/E1394 (LIS1/LIS2)',
   hl7v2: 'HL7 v2 over MLLP',
+  profile: 'Printout profile (Admin → Printout profiles)',
 };
 
 export const dismissCaptureSchema = z.object({

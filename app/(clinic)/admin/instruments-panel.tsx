@@ -17,7 +17,8 @@ type FormValues = {
   dialect: string;
   serialNumber: string;
   bridgeId: string;
-  kind: 'none' | 'serial' | 'tcp';
+  profileId: string;
+  kind: 'none' | 'serial' | 'tcp' | 'tcp-listen';
   path: string;
   baudRate: string;
   dataBits: string;
@@ -29,7 +30,7 @@ type FormValues = {
 
 function describeConnection(c: NewInstrumentInput['connection']) {
   if (!c) return '—';
-  if (c.kind === 'tcp') return `TCP ${c.host}:${c.port}`;
+  if (c.kind === 'tcp') return c.mode === 'listen' ? `analyzer dials ${c.host}:${c.port}` : `TCP ${c.host}:${c.port}`;
   return `${c.path} · ${c.baudRate} ${c.dataBits}${c.parity[0].toUpperCase()}${c.stopBits}`;
 }
 
@@ -42,11 +43,12 @@ function toInput(v: FormValues) {
     dialect: v.dialect,
     serialNumber: v.serialNumber || undefined,
     bridgeId: v.bridgeId || undefined,
+    profileId: v.dialect === 'profile' ? v.profileId || undefined : undefined,
     connection:
       v.kind === 'serial'
         ? { kind: 'serial', path: v.path, baudRate: Number(v.baudRate), dataBits: Number(v.dataBits), parity: v.parity, stopBits: Number(v.stopBits) }
-        : v.kind === 'tcp'
-          ? { kind: 'tcp', host: v.host, port: Number(v.port) }
+        : v.kind === 'tcp' || v.kind === 'tcp-listen'
+          ? { kind: 'tcp', host: v.host, port: Number(v.port), mode: v.kind === 'tcp-listen' ? 'listen' : 'connect' }
           : undefined,
   };
 }
@@ -54,12 +56,14 @@ function toInput(v: FormValues) {
 export function InstrumentsPanel() {
   const { data, mutate } = useSWR<{ instruments: Instrument[] }>('/api/admin/instruments', fetcher);
   const bridges = useSWR<{ bridges: Bridge[] }>('/api/admin/bridges', fetcher);
+  const profiles = useSWR<{ profiles: { key: string; name: string; version: number }[] }>('/api/admin/profiles', fetcher);
   const [message, setMessage] = useState<{ tone: 'ok' | 'error'; text: string } | null>(null);
   const { register, handleSubmit, control, reset, setError, formState } = useForm<FormValues>({
     defaultValues: { dialect: 'plain-printout', kind: 'serial', baudRate: '9600', dataBits: '8', parity: 'none', stopBits: '1', path: '/dev/ttyUSB0' },
   });
   const { errors, isSubmitting } = formState;
   const kind = useWatch({ control, name: 'kind' });
+  const dialect = useWatch({ control, name: 'dialect' });
 
   const add = handleSubmit(async (values) => {
     setMessage(null);
@@ -126,6 +130,16 @@ export function InstrumentsPanel() {
               ))}
             </select>
           </Field>
+          {dialect === 'profile' && (
+            <Field id="instrument-profileId" label="Printout profile" error={errors.profileId?.message}>
+              <select id="instrument-profileId" className={inputClass} {...register('profileId')}>
+                <option value="">Choose…</option>
+                {profiles.data?.profiles.map((p) => (
+                  <option key={p.key} value={p.key}>{p.name} (v{p.version})</option>
+                ))}
+              </select>
+            </Field>
+          )}
           {text('serialNumber', 'Serial number (optional)')}
           <Field id="instrument-bridgeId" label="Bridge" error={errors.bridgeId?.message}>
             <select id="instrument-bridgeId" className={inputClass} {...register('bridgeId')}>
@@ -139,6 +153,7 @@ export function InstrumentsPanel() {
             <select id="instrument-kind" className={inputClass} {...register('kind')}>
               <option value="serial">Serial port (RS-232 / USB)</option>
               <option value="tcp">Serial-to-network adapter (TCP)</option>
+              <option value="tcp-listen">Analyzer connects to the bridge (TCP)</option>
               <option value="none">Set later</option>
             </select>
           </Field>
@@ -164,9 +179,9 @@ export function InstrumentsPanel() {
             </Field>
           </div>
         )}
-        {kind === 'tcp' && (
+        {(kind === 'tcp' || kind === 'tcp-listen') && (
           <div className="grid gap-3 sm:grid-cols-4">
-            {text('host', 'Adapter address', { placeholder: '192.0.2.15' })}
+            {text('host', kind === 'tcp' ? 'Adapter address' : 'Bridge listens on', { placeholder: kind === 'tcp' ? '192.0.2.15' : '0.0.0.0' })}
             {text('port', 'Port', { inputMode: 'numeric', placeholder: '4001' })}
           </div>
         )}

@@ -1,6 +1,7 @@
 import type { Metadata } from 'next';
 import { requirePageActor } from '@/lib/auth/current';
-import { PageHeader } from '@/app/components/ui';
+import Link from 'next/link';
+import { PageHeader, buttonClass } from '@/app/components/ui';
 import { BridgesPanel } from './bridges-panel';
 import { ClinicalPanel } from './clinical-panel';
 import { InstrumentsPanel } from './instruments-panel';
@@ -12,7 +13,11 @@ export default async function AdminPage() {
   const actor = await requirePageActor('manageClinic');
   return (
     <>
-      <PageHeader title="Clinic administration" />
+      <PageHeader title="Clinic administration">
+        <Link href="/admin/profiles" className={buttonClass.secondary}>
+          Printout profiles
+        </Link>
+      </PageHeader>
       <div className="space-y-10">
         <StaffPanel selfId={actor.userId} />
         <BridgesPanel />
