@@ -1,0 +1,113 @@
+// Matching in a real browser: a technician starts a CRP test on the bench, the reader's anonymous reading
+// arrives at the due time (posted as the bridge posts it), Intake ranks the right patient first with its
+// reasons, the technician confirms in one click, and the veterinarian's open chart gains the point live.
+// Timing check value (common practice for a single-test CRP reader, no published source): due = start + 700 s.
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { Browser, Page } from 'playwright-core';
+import { launchBrowser, signInAs, startApp, type RunningApp } from './support';
+
+let app: RunningApp;
+let browser: Browser;
+
+beforeAll(async () => {
+  app = await startApp();
+  browser = await launchBrowser();
+}, 180_000);
+
+afterAll(async () => {
+  await browser?.close();
+  await app?.stop();
+});
+
+const mark = (page: Page) => page.evaluate(() => ((window as unknown as { __kept: number }).__kept = 7));
+const stillMarked = (page: Page) => page.evaluate(() => (window as unknown as { __kept?: number }).__kept);
+
+/** Posts one reading the way the bridge uploads a parsed slip with no sample ID on it. */
+async function anonymousReading(value: number, at: Date) {
+  const raw = `---- RESULT ----\nTEST      cCRP\nRESULT    ${value.toFixed(1)} mg/L\nSN        SIM-0001\n---- END ----\n`;
+  const response = await fetch(`${app.baseUrl}/api/bridge/readings`, {
+    method: 'POST',
+    headers: { 'content-type': 'application/json', authorization: `Bearer ${app.bridgeToken}` },
+    body: JSON.stringify({
+      records: [
+        {
+          key: `e2e-match-${at.getTime()}`,
+          instrument: 'crp-reader',
+          receivedAt: at.toISOString(),
+          payload: { kind: 'reading', analyte: 'cCRP', value, comparator: null, unit: 'mg/L', sampleId: null, patientRef: null, measuredAt: at.toISOString(), instrumentSerial: 'SIM-0001', raw },
+        },
+      ],
+    }),
+  });
+  expect(response.status).toBe(200);
+  const { results } = (await response.json()) as { results: { id: string }[] };
+  return results[0].id;
+}
+
+describe('an anonymous reading matched by timing', () => {
+  it('ranks the due run first, is confirmed in one click, and lands on the open chart’s trend live', async () => {
+    const tech = await signInAs(browser, app.baseUrl, 'tech@fernhollow.example');
+    // The demo seed leaves two tests running; clear the bench so only this test's run is due.
+    await tech.evaluate(async () => {
+      const { orders } = await (await fetch('/api/orders?status=open')).json();
+      for (const o of orders as { id: string }[]) {
+        await fetch(`/api/orders/${o.id}/cancel`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ reason: 'clearing the bench for the test' }) });
+      }
+    });
+
+    const vet = await signInAs(browser, app.baseUrl, 'vet@fernhollow.example');
+    await vet.goto('/patients');
+    await vet.fill('#patients-q', 'Biscuit');
+    await vet.click('a:has-text("Biscuit")');
+    await vet.waitForURL('**/patients/*');
+    const biscuitId = vet.url().split('/').pop()!;
+    await vet.waitForSelector('[data-testid=trend-chart][data-analyte=cCRP] [data-testid=trend-point]', { timeout: 60_000 });
+    const pointsBefore = await vet.locator('[data-testid=trend-point]').count();
+    expect(pointsBefore).toBe(5); // the seeded post-operative series
+    await mark(vet);
+
+    // Start the test on the bench: the run began 700 s ago, so its reading is due now.
+    await tech.goto('/bench');
+    await tech.fill('#order-patient', 'Biscuit');
+    await tech.click('[data-patient-choice="FH-1001"]', { timeout: 30_000 });
+    await tech.selectOption('#order-instrument', { label: 'CRP reader (bench 1)' });
+    await tech.fill('#order-started', String(700 / 60));
+    await tech.click('button:has-text("Start test")');
+    const card = await tech.waitForSelector('li[data-order-id]:has-text("Biscuit")', { timeout: 30_000 });
+    expect(['due', 'running']).toContain(await card.getAttribute('data-phase'));
+
+    // Intake open; the reading arrives at the due time with nothing on it to say whose it is.
+    await tech.goto('/intake');
+    await tech.waitForSelector('[data-live-state=live]', { timeout: 60_000 });
+    await mark(tech);
+    const readingId = await anonymousReading(42, new Date());
+    const row = tech.locator(`tr[data-reading-id="${readingId}"]`);
+    await row.waitFor({ timeout: 60_000 });
+    const match = row.locator('[data-testid=suggested-match]');
+    await expect.poll(() => match.getAttribute('data-top-patient'), { timeout: 30_000 }).toBe(biscuitId);
+    expect(await stillMarked(tech)).toBe(7);
+    // The reasons are there in plain words.
+    await match.locator('summary').click();
+    const reasons = await match.locator('[data-testid=match-reasons]').first().innerText();
+    expect(reasons).toMatch(/Arrived .*due time/);
+    expect(reasons).toMatch(/Started on CRP reader \(bench 1\)/);
+
+    await row.locator('button:has-text("Confirm Biscuit")').first().click();
+    await row.waitFor({ state: 'detached', timeout: 30_000 });
+
+    // The veterinarian's chart, never reloaded, now has the new point and row.
+    await vet.waitForSelector(`[data-testid=trend-point][data-reading-id="${readingId}"]`, { timeout: 30_000 });
+    await vet.waitForSelector(`[data-testid=patient-results] tr[data-reading-id="${readingId}"]`, { timeout: 30_000 });
+    expect(await vet.locator('[data-testid=trend-point]').count()).toBe(pointsBefore + 1);
+    expect(await stillMarked(vet)).toBe(7);
+    const newRow = vet.locator(`[data-testid=patient-results] tr[data-reading-id="${readingId}"]`);
+    expect(await newRow.locator('[data-testid=result-flag]').getAttribute('data-flag')).toBe('high'); // 42 > 10 mg/L
+    expect(await newRow.locator('[data-testid=result-change]').innerText()).toBe("at least +37.0 mg/L (at least +740%)"); // from <5.0 mg/L: a bound, not a number
+
+    // The veterinarian signs it off; the history names the suggestion that was confirmed.
+    await newRow.locator('button:has-text("Details")').click();
+    await vet.waitForSelector('[data-testid=result-history] li:has-text("suggested match confirmed")', { timeout: 30_000 });
+    await vet.click('[data-testid=result-detail] button:has-text("Sign off")');
+    await vet.waitForSelector(`[data-testid=patient-results] tr[data-reading-id="${readingId}"] :text("Reviewed by Dr. Ilse Corvan")`, { timeout: 30_000 });
+  }, 300_000);
+});
