@@ -1,7 +1,7 @@
 import 'server-only';
 import { and, asc, eq, isNull } from 'drizzle-orm';
 import { db } from '@/db/client';
-import { bridges, instruments, printoutProfiles } from '@/db/schema';
+import { bridges, instruments, printoutProfiles, type Bridge } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { newBridgeToken } from '@/lib/auth/tokens';
 import { recordAudit } from '@/lib/audit';
@@ -66,12 +66,22 @@ export async function revokeBridge(actor: Actor, bridgeId: string) {
   });
 }
 
-export async function recordHeartbeat(bridgeId: string, heartbeat: BridgeHeartbeat) {
+/** Keeps the bridge's last word and each instrument's link health (shown to admins, warnings included). */
+export async function recordHeartbeat(bridge: Pick<Bridge, 'id' | 'clinicId'>, heartbeat: BridgeHeartbeat) {
   const database = await db();
-  await database
-    .update(bridges)
-    .set({ lastSeenAt: new Date(), lastHeartbeat: { ...heartbeat, at: new Date().toISOString() } })
-    .where(eq(bridges.id, bridgeId));
+  const at = new Date().toISOString();
+  await database.transaction(async (tx) => {
+    await tx
+      .update(bridges)
+      .set({ lastSeenAt: new Date(), lastHeartbeat: { ...heartbeat, at } })
+      .where(eq(bridges.id, bridge.id));
+    for (const source of heartbeat.sources) {
+      await tx
+        .update(instruments)
+        .set({ health: { ...source, at, bridgeId: bridge.id } })
+        .where(and(eq(instruments.clinicId, bridge.clinicId), eq(instruments.code, source.instrument)));
+    }
+  });
 }
 
 export async function listInstruments(actor: Actor) {
@@ -88,6 +98,8 @@ export async function listInstruments(actor: Actor) {
       active: instruments.active,
       bridgeId: instruments.bridgeId,
       bridgeName: bridges.name,
+      profileId: instruments.profileId,
+      health: instruments.health,
     })
     .from(instruments)
     .leftJoin(bridges, eq(bridges.id, instruments.bridgeId))

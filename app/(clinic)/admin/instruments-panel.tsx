@@ -4,10 +4,28 @@ import useSWR from 'swr';
 import { useForm, useWatch } from 'react-hook-form';
 import { Field, Notice, buttonClass, inputClass } from '@/app/components/ui';
 import { fetcher, send } from '@/lib/client/fetcher';
+import { timeAgo } from '@/lib/format';
 import { DIALECT_LABELS, newInstrumentSchema, type NewInstrumentInput } from '@/lib/validation/api';
 import { Panel, td, th } from './panel';
 
-type Instrument = NewInstrumentInput & { id: string; bridgeName: string | null; active: boolean };
+type LinkHealth = { state?: string; detail?: string; warnings?: string[]; at?: string };
+type Instrument = NewInstrumentInput & { id: string; bridgeName: string | null; active: boolean; health: LinkHealth | null };
+
+function HealthCell({ health }: { health: LinkHealth | null }) {
+  if (!health?.state) return <span className="text-ink-500">no report yet</span>;
+  const tone = health.warnings?.length || health.state === 'error' ? 'text-alarm-700' : health.state === 'open' ? 'text-moss-700' : 'text-signal-600';
+  const label = { open: 'connected', connecting: 'connecting', closed: 'disconnected', error: 'error' }[health.state] ?? health.state;
+  return (
+    <span className={tone}>
+      {label}
+      {health.at && <span className="text-ink-500"> · {timeAgo(health.at)}</span>}
+      {health.detail && <span className="block text-xs text-ink-700">{health.detail}</span>}
+      {health.warnings?.map((w) => (
+        <span key={w} role="alert" className="block text-xs font-medium text-alarm-700">⚠ {w}</span>
+      ))}
+    </span>
+  );
+}
 type Bridge = { id: string; name: string; revokedAt: string | null };
 
 type FormValues = {
@@ -54,7 +72,7 @@ function toInput(v: FormValues) {
 }
 
 export function InstrumentsPanel() {
-  const { data, mutate } = useSWR<{ instruments: Instrument[] }>('/api/admin/instruments', fetcher);
+  const { data, mutate } = useSWR<{ instruments: Instrument[] }>('/api/admin/instruments', fetcher, { refreshInterval: 30_000 });
   const bridges = useSWR<{ bridges: Bridge[] }>('/api/admin/bridges', fetcher);
   const profiles = useSWR<{ profiles: { key: string; name: string; version: number }[] }>('/api/admin/profiles', fetcher);
   const [message, setMessage] = useState<{ tone: 'ok' | 'error'; text: string } | null>(null);
@@ -103,6 +121,7 @@ export function InstrumentsPanel() {
             <th scope="col" className={th}>Reads as</th>
             <th scope="col" className={th}>Connection</th>
             <th scope="col" className={th}>Bridge</th>
+            <th scope="col" className={th}>Link</th>
           </tr>
         </thead>
         <tbody className="divide-y divide-ink-100">
@@ -114,6 +133,7 @@ export function InstrumentsPanel() {
               <td className={td}>{DIALECT_LABELS[i.dialect] ?? i.dialect}</td>
               <td className={`${td} font-mono text-xs`}>{describeConnection(i.connection)}</td>
               <td className={td}>{i.bridgeName ?? '—'}</td>
+              <td className={td}><HealthCell health={i.health} /></td>
             </tr>
           ))}
         </tbody>

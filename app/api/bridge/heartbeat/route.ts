@@ -6,6 +6,6 @@ import { bridgeHeartbeatSchema } from '@/lib/validation/readings';
 export const POST = apiRoute(async (request) => {
   const bridge = await requireBridge(request);
   const heartbeat = await readJson(request, bridgeHeartbeatSchema);
-  await recordHeartbeat(bridge.id, heartbeat);
+  await recordHeartbeat(bridge, heartbeat);
   return json({ ok: true, serverTime: new Date().toISOString() });
 });
