@@ -110,4 +110,35 @@ describe('an anonymous reading matched by timing', () => {
     await vet.click('[data-testid=result-detail] button:has-text("Sign off")');
     await vet.waitForSelector(`[data-testid=patient-results] tr[data-reading-id="${readingId}"] :text("Reviewed by Dr. Ilse Corvan")`, { timeout: 30_000 });
   }, 300_000);
+
+  it('a critical result put on a patient alerts the attending veterinarian at once, in the app', async () => {
+    const tech = await signInAs(browser, app.baseUrl, 'tech@fernhollow.example');
+    const vet = await signInAs(browser, app.baseUrl, 'vet@fernhollow.example');
+    await vet.goto('/patients');
+    await vet.waitForSelector('[data-testid=alert-count]', { timeout: 30_000 });
+    const before = Number((await vet.innerText('[data-testid=alert-count]')).replace(/\D/g, ''));
+
+    // 250 mg/L is above the demo clinic's critical limit of 100 mg/L (a clinic policy placeholder, no published source).
+    const readingId = await anonymousReading(250, new Date());
+    const row = tech.locator(`tr[data-reading-id="${readingId}"]`);
+    await row.waitFor({ timeout: 60_000 });
+    await row.locator('button:has-text("Assign…")').click();
+    await tech.fill('#patient-search', 'Juniper');
+    await tech.click('[role=option] button:has-text("Juniper")');
+    await tech.click('button:has-text("Assign to Juniper")');
+    await row.waitFor({ state: 'detached', timeout: 30_000 });
+
+    // Juniper's attending veterinarian sees it without reloading: a notice and the open count.
+    const toast = vet.locator('[data-testid=critical-toast]');
+    await toast.waitFor({ timeout: 30_000 });
+    expect(await toast.innerText()).toMatch(/cCRP 250\.0 mg\/L for Juniper \(FH-1002\): above the critical limit 100 mg\/L/);
+    await expect.poll(() => vet.innerText('[data-testid=alert-count]'), { timeout: 30_000 }).toBe(`Critical: ${before + 1}`);
+
+    // Listed on Review until acknowledged.
+    await vet.goto('/reviews');
+    const listed = vet.locator('[data-testid=open-alerts] li:has-text("Juniper")');
+    await listed.waitFor({ timeout: 30_000 });
+    await listed.locator('button:has-text("Acknowledge")').click();
+    await listed.waitFor({ state: 'detached', timeout: 30_000 });
+  }, 300_000);
 });

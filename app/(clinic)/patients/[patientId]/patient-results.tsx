@@ -54,7 +54,7 @@ export function PatientResults({ patientId, patientName }: { patientId: string; 
       {data && data.results.length === 0 && <p className="text-sm text-ink-500">No results on this record yet.</p>}
       {data && data.results.length > 0 && (
         <>
-          <div className="grid gap-4 lg:grid-cols-2">
+          <div className={`grid gap-4 ${analytes.length > 1 ? 'lg:grid-cols-2' : ''}`}>
             {analytes.map((a) => (
               <div key={a.code}>
                 <TrendChart analyte={a} results={data.results} />

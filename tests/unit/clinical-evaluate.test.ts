@@ -1,0 +1,65 @@
+import { describe, expect, it } from 'vitest';
+import { DEFAULT_ANALYTES, DEFAULT_INTERVALS } from '@/lib/clinical/defaults';
+import { evaluateResult, formatMeasured, pickInterval, type IntervalContext } from '@/lib/clinical/evaluate';
+import { revalidates } from '@/app/(clinic)/live';
+
+// Canine CRP defaults: upper limit 10 mg/L (from memory; healthy dogs < 5 mg/L in Caspi et al., Am J Vet
+// Res 1987;48:919–921), critical 100 mg/L (clinic policy placeholder, no published source). Unit
+// arithmetic is UCUM's (1 mg/dL = 10 mg/L, unitsofmeasure.org: prefix d = 10^-1).
+const crp = { ...DEFAULT_ANALYTES[0], speciesNote: DEFAULT_ANALYTES[0].speciesNote };
+const dogInterval: IntervalContext = { ...DEFAULT_INTERVALS[0], id: 'i-dog', instrumentId: null };
+const readerInterval: IntervalContext = { ...dogInterval, id: 'i-reader', instrumentId: 'reader-1', high: 8, source: 'in-house, reader 1' };
+const dog = { name: 'Biscuit', species: 'dog' };
+const r = (value: number | null, extra: Partial<{ comparator: '<' | '>' | null; unit: string | null; instrumentId: string | null }> = {}) => ({
+  analyte: 'cCRP',
+  value,
+  comparator: null,
+  unit: 'mg/L',
+  instrumentId: null,
+  ...extra,
+});
+
+describe('a result in context', () => {
+  it('prefers an interval set for the instrument, then the species-wide one', () => {
+    expect(pickInterval([dogInterval, readerInterval], 'cCRP', 'dog', 'reader-1')?.id).toBe('i-reader');
+    expect(pickInterval([dogInterval, readerInterval], 'cCRP', 'dog', 'reader-2')?.id).toBe('i-dog');
+    expect(pickInterval([dogInterval], 'cCRP', 'cat', null)).toBeNull();
+  });
+
+  it('flags in the display unit: 37.4 mg/L shown as 3.74 mg/dL is high against 1 mg/dL', () => {
+    const e = evaluateResult(r(37.4), dog, { ...crp, displayUnit: 'mg/dL' }, [dogInterval]);
+    expect(e.display).toEqual({ value: 3.74, comparator: null, unit: 'mg/dL' });
+    expect(e.interval).toMatchObject({ high: 1, criticalHigh: 10, unit: 'mg/dL' });
+    expect(e.flag).toMatchObject({ flag: 'high', certain: true });
+    expect(e.band).toEqual({ label: 'Raised', certain: true });
+    expect(formatMeasured(e.display, 2)).toBe('3.74 mg/dL');
+  });
+
+  it('a loosely printed unit (mg/l) is the same UCUM unit; an unknown unit is said, not flagged', () => {
+    expect(evaluateResult(r(152, { unit: 'mg/l' }), dog, crp, [dogInterval]).flag).toMatchObject({ flag: 'critical-high' });
+    const bad = evaluateResult(r(152, { unit: 'mg per litre' }), dog, crp, [dogInterval]);
+    expect(bad.flag).toBeNull();
+    expect(bad.problems[0]).toMatch(/^Unit: "mg per litre" is not a UCUM unit/);
+  });
+
+  it('keeps the comparator through conversion: <5 mg/L is <0.5 mg/dL', () => {
+    const e = evaluateResult(r(5, { comparator: '<' }), dog, { ...crp, displayUnit: 'mg/dL' }, [dogInterval]);
+    expect(e.display).toEqual({ value: 0.5, comparator: '<', unit: 'mg/dL' });
+    expect(formatMeasured(e.display, 1)).toBe('<0.5 mg/dL');
+  });
+});
+
+describe('live updates reach every open list and chart', () => {
+  // ARCHITECTURE.md: events are {type, clinicId, id, at}; clients refetch what the event concerns.
+  const keys = (type: string, patientId?: string) => revalidates({ type: type as never, clinicId: 'c', id: 'x', at: '', patientId });
+  it('an assignment refreshes Intake, suggestions, review lists, alerts and that patient’s chart', () => {
+    expect(keys('reading.assigned', 'p1')).toEqual(expect.arrayContaining(['/api/readings', '/api/reviews', '/api/alerts', '/api/patients/p1']));
+  });
+  it('a started or closed test refreshes the bench and the suggestions (under /api/readings)', () => {
+    expect(keys('order.created')).toEqual(expect.arrayContaining(['/api/orders', '/api/readings']));
+  });
+  it('reviews and alerts refresh their lists', () => {
+    expect(keys('review.created', 'p1')).toEqual(expect.arrayContaining(['/api/reviews', '/api/patients/p1']));
+    expect(keys('alert.created')).toContain('/api/alerts');
+  });
+});
