@@ -42,7 +42,7 @@ describe('LineSplitter', () => {
   });
 
   it('gives the same lines however the input is chunked, overlong lines included', async () => {
-    const text = fc.array(fc.constantFrom('a', 'é', '€', '𝄞', ' ', '\r', '\n', '\r\n', 'RESULT    12.5 mg/L'), { maxLength: 80 });
+    const text = fc.array(fc.constantFrom('a', 'é', '€', '𝄞', ' ', '\r', '\n', '\r\n', '\f', 'RESULT    12.5 mg/L'), { maxLength: 80 });
     await fc.assert(
       fc.asyncProperty(text, fc.array(fc.nat({ max: 400 }), { maxLength: 12 }), async (parts, cuts) => {
         const input = Buffer.from(parts.join(''));
@@ -88,6 +88,27 @@ describe('LineSplitter', () => {
     expect(out.map((line) => line.raw).join('')).toBe(`${'ab€'.repeat(20)}\n`);
   });
 
+  // Printers end lines with CR, LF or CRLF and eject pages with a form feed (ASCII FF, 0x0C).
+  it('ends lines at CR, LF, CRLF and form feed, keeping each ending in raw', async () => {
+    const out = await lines(['one\rtwo\nthree\r\n\ffour\r', '\nfive\r']);
+    expect(out).toEqual([
+      { raw: 'one\r', text: 'one', overlong: false },
+      { raw: 'two\n', text: 'two', overlong: false },
+      { raw: 'three\r\n', text: 'three', overlong: false },
+      { raw: '\f', text: '', overlong: false },
+      { raw: 'four\r\n', text: 'four', overlong: false },
+      { raw: 'five\r', text: 'five', overlong: false },
+    ]);
+  });
+
+  it('releases a line held on a trailing CR once the link goes quiet', async () => {
+    const splitter = new LineSplitter({ releaseCrAfterMs: 5 });
+    const seen = new Promise<Line>((resolve) => splitter.once('data', resolve));
+    splitter.write(Buffer.from('END\r'));
+    expect(await seen).toEqual({ raw: 'END\r', text: 'END', overlong: false });
+    splitter.destroy();
+  });
+
   it('decodes latin1 when asked', async () => {
     const out = await lines([Buffer.from([0x35, 0x20, 0xb5, 0x6d, 0x6f, 0x6c, 0x0d, 0x0a])], { encoding: 'latin1' });
     expect(out).toEqual([{ raw: '5 µmol\r\n', text: '5 µmol', overlong: false }]);
@@ -99,6 +120,8 @@ describe('lineText', () => {
     expect(lineText('a\r\n')).toBe('a');
     expect(lineText('a\n')).toBe('a');
     expect(lineText('a\r')).toBe('a');
+    expect(lineText('a\f')).toBe('a');
+    expect(lineText('a\r\r')).toBe('a\r');
     expect(lineText(' a \t')).toBe(' a \t');
   });
 });

@@ -131,7 +131,43 @@ describe('RecordFramer', () => {
     framer.destroy();
   });
 
+  // Profiles (lib/validation/profile.ts) may mark records by a start line only, an end line only,
+  // a form feed or a quiet gap; the rules below are ours.
+  it('ends a start-only record at the next start, and at end of input', async () => {
+    expect(summary(await frame('BEGIN\nA\nBEGIN\nB\n', { end: undefined }))).toEqual([{ record: 'BEGIN\nA\n' }, { record: 'BEGIN\nB\n' }]);
+  });
+
+  it('starts an end-only record at the first non-blank line', async () => {
+    expect(summary(await frame('\nA\nEND\n\nB\nEND\nC\n', { start: undefined }))).toEqual([
+      { record: 'A\nEND\n' },
+      { record: 'B\nEND\n' },
+      { unparsed: 'C\n', reason: 'record cut short: input ended before the end line' },
+    ]);
+  });
+
+  it('ends a record at a form feed, which stays in its raw text', async () => {
+    expect(summary(await frame('A\nB\r\n\fC\n\f', { start: undefined, end: undefined, formFeed: true }))).toEqual([
+      { record: 'A\nB\r\n\f' },
+      { record: 'C\n\f' },
+    ]);
+  });
+
+  it('ends a gap-framed record normally when the line goes quiet', async () => {
+    vi.useFakeTimers();
+    const framer = new RecordFramer({ maxLines: 10, gapMs: 500 });
+    const seen: FramerOutput[] = [];
+    framer.on('data', (output: FramerOutput) => seen.push(output));
+    framer.write({ raw: 'A 1\n', text: 'A 1', overlong: false });
+    framer.write({ raw: 'B 2\n', text: 'B 2', overlong: false });
+    await vi.advanceTimersByTimeAsync(499);
+    expect(seen).toEqual([]);
+    await vi.advanceTimersByTimeAsync(1);
+    expect(summary(seen)).toEqual([{ record: 'A 1\nB 2\n' }]);
+    framer.destroy();
+  });
+
   it('rejects a nonsensical configuration', () => {
+    expect(() => new RecordFramer({ maxLines: 3 })).toThrow(/say where records are/);
     expect(() => new RecordFramer({ ...framing, maxLines: 0 })).toThrow(RangeError);
     expect(() => new RecordFramer({ ...framing, idleMs: 0 })).toThrow(RangeError);
   });
