@@ -12,6 +12,7 @@ import {
   type AnalyteSettingsInput,
   type ClinicalSettings,
   type IntervalInput,
+  type ProtocolInput,
 } from '@/lib/validation/clinical';
 import type { AnalyteContext, IntervalContext } from './evaluate';
 import { installClinicalDefaults } from './install';
@@ -161,6 +162,38 @@ export async function updateAnalyte(actor: Actor, code: string, input: AnalyteSe
       details: { before: existing, after: input },
     });
     await publish(tx, { type: 'settings.updated', clinicId: actor.clinicId, id: row.id });
+    return row;
+  });
+}
+
+/**
+ * Changes a run protocol's stages and tolerances. Tests already started keep the stages they were
+ * started with (copied onto the order), so their due times do not move.
+ */
+export async function updateProtocol(actor: Actor, protocolId: string, input: ProtocolInput) {
+  mustManage(actor);
+  const database = await db();
+  return database.transaction(async (tx) => {
+    const [existing] = await tx
+      .select()
+      .from(runProtocols)
+      .where(and(eq(runProtocols.id, protocolId), eq(runProtocols.clinicId, actor.clinicId)))
+      .for('update');
+    if (!existing) throw notFound('The run protocol');
+    const [row] = await tx
+      .update(runProtocols)
+      .set({ ...input, updatedBy: actor.userId, updatedAt: new Date() })
+      .where(eq(runProtocols.id, protocolId))
+      .returning();
+    await recordAudit(tx, {
+      clinicId: actor.clinicId,
+      actorUserId: actor.userId,
+      action: 'protocol.changed',
+      entityType: 'run_protocol',
+      entityId: protocolId,
+      details: { before: { stages: existing.stages, earlySeconds: existing.earlySeconds, lateSeconds: existing.lateSeconds, source: existing.source }, after: input },
+    });
+    await publish(tx, { type: 'settings.updated', clinicId: actor.clinicId, id: protocolId });
     return row;
   });
 }

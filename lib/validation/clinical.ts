@@ -109,3 +109,25 @@ export const analyteSettingsSchema = z.object({
   deltaWindowHours: z.number().positive().nullable(),
 });
 export type AnalyteSettingsInput = z.infer<typeof analyteSettingsSchema>;
+
+export const protocolSchema = z.object({
+  name: z.string().trim().min(2).max(120),
+  stages: z
+    .array(
+      z.object({
+        key: z.string().trim().min(1).max(32).regex(/^[a-z0-9-]+$/, 'Use lower-case letters, digits and dashes.'),
+        label: z.string().trim().min(1).max(80),
+        seconds: z.number().int().min(0).max(24 * 3600),
+        maxSeconds: z.number().int().min(0).max(24 * 3600).nullable().optional(),
+        handsOn: z.boolean().optional(),
+      }),
+    )
+    .min(1, 'A protocol has at least one stage.')
+    .max(20)
+    .refine((stages) => new Set(stages.map((s) => s.key)).size === stages.length, 'Stage keys must differ.')
+    .refine((stages) => stages.some((s) => s.seconds > 0), 'The stages must take some time.'),
+  earlySeconds: z.number().int().min(0).max(3600),
+  lateSeconds: z.number().int().min(0).max(24 * 3600),
+  source: z.string().trim().min(3, 'Say where the timings come from.').max(1000),
+});
+export type ProtocolInput = z.infer<typeof protocolSchema>;

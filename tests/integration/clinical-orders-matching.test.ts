@@ -8,8 +8,9 @@ import * as assign from '@/app/api/readings/[readingId]/assign/route';
 import * as suggestions from '@/app/api/readings/[readingId]/suggestions/route';
 import * as allSuggestions from '@/app/api/readings/suggestions/route';
 import * as adminClinical from '@/app/api/admin/clinical/route';
+import * as protocolRoute from '@/app/api/admin/clinical/protocols/[protocolId]/route';
 import type { Database } from '@/db/client';
-import { auditEvents, labOrders, readings, resultAssignments } from '@/db/schema';
+import { auditEvents, labOrders, readings, resultAssignments, runProtocols } from '@/db/schema';
 import { seededDatabase } from '../helpers/db';
 import { params, request, signIn } from '../helpers/http';
 
@@ -211,5 +212,28 @@ describe('auto-assign on an exact sample ID (opt-in)', () => {
     await startOrder({ patientId: ids.willow, instrumentId: ids.reader, sampleId: 'T-8001', startedAt: started });
     const catReading = await reading(new Date(), { sampleId: 'T-8001' });
     expect((await database.db.select().from(readings).where(eq(readings.id, catReading)))[0].status).toBe('unassigned');
+  });
+});
+
+describe('run protocols are data an administrator changes', () => {
+  it('a new incubation time moves the due time of tests started afterwards, not of tests already running', async () => {
+    await closeAll();
+    const [protocol] = await database.db.select().from(runProtocols).where(eq(runProtocols.clinicId, clinicId));
+    const running = (await body(await startOrder({ patientId: ids.pepper }))).order;
+    const stages = protocol.stages.map((s) => (s.key === 'incubate' ? { ...s, seconds: 600 } : s));
+    const patch = (cookie: string, value: unknown) =>
+      protocolRoute.PATCH(request('/api/admin/clinical/protocols/x', { method: 'PATCH', cookie, body: value }), params({ protocolId: protocol.id }));
+    const valid = { name: protocol.name, stages, earlySeconds: 60, lateSeconds: 180, source: 'In-house timing check, 2026' };
+    expect((await patch(cookies.tech, valid)).status).toBe(403);
+    expect((await patch(cookies.admin, { ...valid, stages: [] })).status).toBe(400);
+    expect((await patch(cookies.admin, { ...valid, stages: [...stages, stages[0]] })).status).toBe(400); // duplicate stage key
+    expect((await patch(cookies.admin, { ...valid, source: '' })).status).toBe(400);
+    expect((await patch(cookies.admin, valid)).status).toBe(200);
+
+    const later = (await body(await startOrder({ patientId: ids.juniper }))).order;
+    expect(new Date(later.dueAt).getTime() - new Date(later.startedAt).getTime()).toBe(640_000);
+    const [kept] = await database.db.select().from(labOrders).where(eq(labOrders.id, running.id));
+    expect(kept.dueAt.getTime() - kept.startedAt.getTime()).toBe(700_000);
+    await patch(cookies.admin, { ...valid, stages: protocol.stages, source: protocol.source });
   });
 });

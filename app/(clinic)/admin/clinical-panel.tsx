@@ -109,21 +109,16 @@ export function ClinicalPanel() {
 
         <div>
           <h3 className="mb-2 font-semibold">Run protocols</h3>
-          <ul className="space-y-2 text-sm">
+          <div className="space-y-2">
             {data.protocols.map((p) => (
-              <li key={p.id} className="rounded border border-ink-100 p-2">
-                <span className="font-medium">
-                  {p.analyte} · {p.name}
-                </span>{' '}
-                <span className="text-ink-700">({instrumentName(p.instrumentId)})</span>
-                <p>
-                  {p.stages.map((s) => `${s.label} ${formatDuration(s.seconds)}${s.maxSeconds != null ? ` (at most ${s.maxSeconds} s)` : ''}`).join(' → ')} · due after{' '}
-                  {formatDuration(protocolSeconds(p.stages))} · matched from {formatDuration(p.earlySeconds)} early to {formatDuration(p.lateSeconds)} late
-                </p>
-                <p className="text-xs text-ink-500">Source: {p.source}</p>
-              </li>
+              <ProtocolRow
+                key={p.id}
+                protocol={p}
+                instrument={instrumentName(p.instrumentId)}
+                onSave={(body) => run(() => send(`/api/admin/clinical/protocols/${p.id}`, 'PATCH', body), `${p.name} saved; running tests keep their due times.`)}
+              />
             ))}
-          </ul>
+          </div>
         </div>
       </div>
     </Panel>
@@ -237,5 +232,61 @@ function IntervalRow({ interval, label, onSave }: { interval: ReferenceInterval;
         </button>
       </td>
     </tr>
+  );
+}
+
+function ProtocolRow({ protocol, instrument, onSave }: { protocol: RunProtocol; instrument: string; onSave: (body: unknown) => void }) {
+  const [seconds, setSeconds] = useState(protocol.stages.map((st) => String(st.seconds)));
+  const [early, setEarly] = useState(String(protocol.earlySeconds));
+  const [late, setLate] = useState(String(protocol.lateSeconds));
+  const [source, setSource] = useState(protocol.source);
+  const stages = protocol.stages.map((st, i) => ({ ...st, seconds: Number(seconds[i]) }));
+  return (
+    <form
+      className="rounded border border-ink-100 p-3 text-sm"
+      aria-label={`Run protocol ${protocol.name}`}
+      onSubmit={(e) => {
+        e.preventDefault();
+        onSave({ name: protocol.name, stages, earlySeconds: Number(early), lateSeconds: Number(late), source });
+      }}
+    >
+      <p className="mb-2">
+        <span className="font-medium">
+          {protocol.analyte} · {protocol.name}
+        </span>{' '}
+        <span className="text-ink-700">({instrument})</span>
+      </p>
+      <div className="flex flex-wrap items-end gap-2">
+        {protocol.stages.map((st, i) => (
+          <label key={st.key}>
+            <span className="block text-xs text-ink-700">
+              {st.label} (s){st.maxSeconds != null && `, at most ${st.maxSeconds}`}
+            </span>
+            <input
+              className={`${inputClass} w-24`}
+              inputMode="numeric"
+              value={seconds[i]}
+              onChange={(e) => setSeconds(seconds.map((v, j) => (j === i ? e.target.value : v)))}
+            />
+          </label>
+        ))}
+        <label>
+          <span className="block text-xs text-ink-700">Match from (s early)</span>
+          <input className={`${inputClass} w-24`} inputMode="numeric" value={early} onChange={(e) => setEarly(e.target.value)} />
+        </label>
+        <label>
+          <span className="block text-xs text-ink-700">to (s late)</span>
+          <input className={`${inputClass} w-24`} inputMode="numeric" value={late} onChange={(e) => setLate(e.target.value)} />
+        </label>
+      </div>
+      <p className="mt-1 text-xs text-ink-700">Due {Number.isFinite(protocolSeconds(stages)) ? formatDuration(protocolSeconds(stages)) : '—'} after the start.</p>
+      <label className="mt-2 block">
+        <span className="block text-xs text-ink-700">Source of the timings</span>
+        <textarea className={`${inputClass} text-xs`} rows={2} value={source} onChange={(e) => setSource(e.target.value)} />
+      </label>
+      <button type="submit" className={`${buttonClass.secondary} mt-2`}>
+        Save protocol
+      </button>
+    </form>
   );
 }
