@@ -71,6 +71,9 @@ export const clinicalSettingsSchema = z.object({
 });
 export type ClinicalSettings = z.infer<typeof clinicalSettingsSchema>;
 
+/** A change to some switches; no defaults here, so an omitted switch keeps its value. */
+export const clinicalSettingsPatchSchema = z.object({ autoAssignExactId: z.boolean().optional() }).strict();
+
 const limit = z.number().finite().nullable();
 
 export const intervalSchema = z

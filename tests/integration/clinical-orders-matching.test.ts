@@ -186,6 +186,8 @@ describe('auto-assign on an exact sample ID (opt-in)', () => {
     expect((await patch(cookies.admin, { autoAssignExactId: 'yes' })).status).toBe(400);
     expect((await patch(cookies.admin, { autoAssignExactId: true, other: 1 })).status).toBe(400);
     expect((await body(await patch(cookies.admin, { autoAssignExactId: true }))).settings).toEqual({ autoAssignExactId: true });
+    // An empty change keeps the switch as it is.
+    expect((await body(await patch(cookies.admin, {}))).settings).toEqual({ autoAssignExactId: true });
 
     await closeAll();
     const o = (await body(await startOrder({ patientId: ids.pepper, instrumentId: ids.reader, sampleId: 'T-6001', startedAt: new Date(Date.now() - 700_000).toISOString() }))).order;

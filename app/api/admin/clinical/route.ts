@@ -1,7 +1,7 @@
 import { requireActor } from '@/lib/auth/guards';
 import { clinicalConfiguration, updateClinicalSettings } from '@/lib/clinical/config';
 import { apiRoute, json, readJson } from '@/lib/http';
-import { clinicalSettingsSchema } from '@/lib/validation/clinical';
+import { clinicalSettingsPatchSchema } from '@/lib/validation/clinical';
 
 export const GET = apiRoute(async (request) => {
   const actor = await requireActor(request, 'manageClinic');
@@ -10,6 +10,6 @@ export const GET = apiRoute(async (request) => {
 
 export const PATCH = apiRoute(async (request) => {
   const actor = await requireActor(request, 'manageClinic');
-  const input = await readJson(request, clinicalSettingsSchema.partial().strict());
+  const input = await readJson(request, clinicalSettingsPatchSchema);
   return json({ settings: await updateClinicalSettings(actor, input) });
 });
