@@ -42,3 +42,32 @@ function daysInMonth(year: number, month: number): number {
 function pad(value: number, width = 2): string {
   return String(value).padStart(width, '0');
 }
+
+const COMPACT = /^(\d{4})(\d{2})(\d{2})(?:(\d{2})(\d{2})(\d{2})?)?(?:\.\d{1,4})?([+-]\d{4})?$/;
+
+export type CompactTimestamp = { ok: true; iso: string | null } | { ok: false; problem: string };
+
+/**
+ * YYYYMMDD[HHMM[SS]][.S…][±ZZZZ] as ASTM E1394 and HL7 v2 (DTM/TS) write it. Without an offset it is
+ * the lab PC's local time; a date without a time is no moment (null), not midnight.
+ */
+export function compactTimestamp(text: string): CompactTimestamp {
+  const match = COMPACT.exec(text.trim());
+  if (!match) return { ok: false, problem: 'is not YYYYMMDDHHMMSS' };
+  const [, year, month, day, hour, minute, second, offset] = match;
+  if (hour === undefined) {
+    const check = localIsoDateTime({ year: +year, month: +month, day: +day, hour: 12, minute: 0, second: 0 });
+    return check.ok ? { ok: true, iso: null } : { ok: false, problem: 'is not a real date' };
+  }
+  const clock = { year: +year, month: +month, day: +day, hour: +hour, minute: +minute, second: +(second ?? 0) };
+  const local = localIsoDateTime(clock);
+  if (!local.ok) return { ok: false, problem: local.problem === 'date' ? 'is not a real date' : 'is not a real time' };
+  if (!offset) return { ok: true, iso: local.iso };
+  const hours = Number(offset.slice(1, 3));
+  const minutes = Number(offset.slice(3, 5));
+  if (hours > 14 || minutes > 59) return { ok: false, problem: 'has an impossible UTC offset' };
+  return {
+    ok: true,
+    iso: `${year}-${month}-${day}T${hour}:${minute}:${second ?? '00'}${offset.slice(0, 3)}:${offset.slice(3, 5)}`,
+  };
+}

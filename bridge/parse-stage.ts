@@ -1,49 +1,76 @@
-import { Transform, type TransformCallback } from 'node:stream';
+import { Transform, type Duplex, type TransformCallback } from 'node:stream';
 import { parserOutputSchema, type ParserOutput } from '../lib/validation/readings';
-import type { Dialect } from './dialects';
-import { LineSplitter, type LineEncoding } from './framing/lines';
+import type { Dialect, Reply, StageOptions } from './dialects/dialect';
+import { LineSplitter } from './framing/lines';
 import { RecordFramer, type FramerOutput } from './framing/records';
 import { fragments } from './fragments';
+import { errorMessage, silentLog, type Log } from './log';
+
+export interface ParseStageOptions {
+  /** Where a dialect's answer to each message goes (HL7 ACK); none, no answers. */
+  reply?: Reply;
+  log?: Log;
+  now?: () => Date;
+}
 
 /** Frames → readings or unparsed fragments. Whatever goes wrong, the text comes out as a fragment. */
 export class ParseStage extends Transform {
-  constructor(private readonly dialect: Dialect) {
+  private answers = 0;
+
+  constructor(
+    private readonly dialect: Pick<Dialect, 'name' | 'parse' | 'answer'>,
+    private readonly options: ParseStageOptions = {},
+  ) {
     super({ objectMode: true });
   }
 
   override _transform(frame: FramerOutput, _encoding: BufferEncoding, callback: TransformCallback): void {
-    for (const output of parseFrame(this.dialect, frame)) this.push(output);
+    const outputs = parseFrame(this.dialect, frame);
+    for (const output of outputs) this.push(output);
+    if (frame.kind === 'record' && this.dialect.answer && this.options.reply) {
+      try {
+        const answer = this.dialect.answer(frame, outputs, { now: (this.options.now ?? (() => new Date()))(), sequence: ++this.answers });
+        if (answer) this.options.reply(answer);
+      } catch (error) {
+        // The message is kept either way; without an answer the sender will send it again.
+        (this.options.log ?? silentLog).error(`${this.dialect.name}: could not answer a message: ${errorMessage(error)}`);
+      }
+    }
     callback();
   }
 }
 
 /** One frame through the dialect, every output checked against the contract before it moves on. */
-export function parseFrame(dialect: Dialect, frame: FramerOutput): ParserOutput[] {
-  let output: ParserOutput;
+export function parseFrame(dialect: Pick<Dialect, 'name' | 'parse'>, frame: FramerOutput): ParserOutput[] {
+  let outputs: ParserOutput[];
   try {
-    output = frame.kind === 'record' ? dialect.parse(frame) : frame;
+    const parsed = frame.kind === 'record' ? dialect.parse(frame) : frame;
+    outputs = Array.isArray(parsed) ? parsed : [parsed];
   } catch (error) {
     return fragments(frame.raw, `${dialect.name} parser failed: ${error instanceof Error ? error.message : String(error)}`);
   }
-  const checked = parserOutputSchema.safeParse(output);
-  if (checked.success) return [checked.data];
-  const issue = checked.error.issues[0];
-  return fragments(frame.raw, `does not fit the contract: ${issue?.path.join('.')} ${issue?.message}`);
+  if (outputs.length === 0) return fragments(frame.raw, `${dialect.name} found nothing to read`);
+  return outputs.flatMap((output) => {
+    const checked = parserOutputSchema.safeParse(output);
+    if (checked.success) return [checked.data];
+    const issue = checked.error.issues[0];
+    return fragments(output.raw ?? frame.raw, `does not fit the contract: ${issue?.path.join('.')} ${issue?.message}`);
+  });
 }
 
-export interface ParsingOptions {
-  encoding?: LineEncoding;
-  maxLineBytes?: number;
-  /** Give up unfinished records after the dialect's idle gap; off when reading a file in one go. */
-  idle?: boolean;
-}
+export type ParsingOptions = StageOptions;
 
-/** bytes → lines → records → readings/fragments, as three stream stages to pipe in order. */
-export function createParsingStages(dialect: Dialect, options: ParsingOptions = {}): [LineSplitter, RecordFramer, ParseStage] {
-  const framing = { ...dialect.framing, idleMs: options.idle === false ? undefined : dialect.framing.idleMs };
+/** bytes → (lines → records | a protocol's framer) → readings/fragments, as stream stages to pipe in order. */
+export function createParsingStages(dialect: Dialect, options: ParsingOptions = {}): Duplex[] {
+  const live = options.idle !== false;
+  const encoding = options.encoding ?? dialect.defaultEncoding;
+  const parse = new ParseStage(dialect, { reply: options.reply, log: options.log });
+  if (dialect.framer) return [...dialect.framer({ ...options, encoding }), parse];
+  if (!dialect.framing) throw new Error(`dialect ${dialect.name} has neither a record framing nor a framer`);
+  const framing = { ...dialect.framing, idleMs: live ? dialect.framing.idleMs : undefined, gapMs: live ? dialect.framing.gapMs : undefined };
   return [
-    new LineSplitter({ encoding: options.encoding, maxLineBytes: options.maxLineBytes }),
+    new LineSplitter({ encoding, maxLineBytes: options.maxLineBytes, releaseCrAfterMs: live ? 200 : undefined }),
     new RecordFramer(framing),
-    new ParseStage(dialect),
+    parse,
   ];
 }
