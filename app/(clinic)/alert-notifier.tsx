@@ -27,8 +27,9 @@ export function AlertNotifier() {
     [listen, actor.userId],
   );
 
-  if (actor.role !== 'veterinarian') return null;
-  const open = data?.alerts ?? [];
+  // Nothing until the list has loaded: a "0" before then would be a false all-clear.
+  if (actor.role !== 'veterinarian' || !data) return null;
+  const open = data.alerts;
   const fresh = open.filter((a) => arrived.includes(a.id));
   return (
     <>

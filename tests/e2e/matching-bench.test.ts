@@ -115,6 +115,7 @@ describe('an anonymous reading matched by timing', () => {
     const tech = await signInAs(browser, app.baseUrl, 'tech@fernhollow.example');
     const vet = await signInAs(browser, app.baseUrl, 'vet@fernhollow.example');
     await vet.goto('/patients');
+    // The count appears once the open alerts have loaded (the seed leaves one open for this veterinarian).
     await vet.waitForSelector('[data-testid=alert-count]', { timeout: 30_000 });
     const before = Number((await vet.innerText('[data-testid=alert-count]')).replace(/\D/g, ''));
 
