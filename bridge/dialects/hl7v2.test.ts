@@ -1,0 +1,142 @@
+import fc from 'fast-check';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { ParserOutput } from '../../lib/validation/readings';
+import { MllpCutter } from '../framing/mllp';
+import type { RecordFrame } from '../framing/records';
+import { createParsingStages } from '../parse-stage';
+import { runThrough, splitAt } from '../testing/streams';
+import { acknowledgment, hl7v2, parseOru } from './hl7v2';
+import { getDialect } from './index';
+
+// Messages are built here from HL7 v2.5 segment definitions (chapters 2 and 7, field numbers from
+// memory): a segment is its ID and fields joined by "|", so SEG-n is the n-th piece after the ID;
+// in MSH, MSH-1 is the "|" itself and MSH-2 the encoding characters ^~\&.
+// MLLP envelope (HL7 MLLP guide, from memory): 0x0B message 0x1C 0x0D, written out byte by byte here.
+
+const seg = (...fields: string[]) => fields.join('|');
+// MSH-3 sending application, MSH-4 facility, MSH-7 time, MSH-9 type, MSH-10 control ID, MSH-11 processing ID, MSH-12 version.
+const MSH = (type = 'ORU^R01^ORU_R01', control = 'MSG00042') => seg('MSH', '^~\\&', 'HEMASIM', 'BENCH3', 'LIS', 'CLINIC', '20261201140500', '', type, control, 'P', '2.5');
+// PID-3 patient identifier list (CX: ID^^^authority).
+const PID = seg('PID', '1', '', 'PT-4711^^^CLINIC', '', 'Rex');
+// OBR-2 placer order number, OBR-3 filler order number, OBR-4 service, OBR-7 observation time.
+const OBR = seg('OBR', '1', 'PL-1', 'S-3001', 'CBC^Blood count', '', '', '20261201140000');
+// OBX-2 type, -3 identifier, -5 value, -6 units (CE), -7 range, -8 flags, -11 status, -14 time, -18 equipment.
+const OBX = (seq: number, type: string, id: string, value: string, units: string, flags = '', status = 'F', time = '20261201140322') =>
+  seg('OBX', String(seq), type, id, '', value, units, '5.5-16.9', flags, '', '', status, '', '', time, '', '', '', 'SIM-0003');
+
+const wrap = (segments: string[]) => Buffer.concat([Buffer.from([0x0b]), Buffer.from(`${segments.join('\r')}\r`), Buffer.from([0x1c, 0x0d])]);
+const parse = (chunks: ReadonlyArray<Buffer | string>) => runThrough<ParserOutput>(chunks, createParsingStages(hl7v2, { idle: false }));
+const frameOf = (segments: string[]): RecordFrame => {
+  const [frame] = new MllpCutter().push(wrap(segments));
+  if (frame.kind !== 'record') throw new Error('not a message');
+  return frame;
+};
+
+const timeZoneBefore = process.env.TZ;
+beforeAll(() => {
+  process.env.TZ = 'Europe/Berlin';
+});
+afterAll(() => {
+  if (timeZoneBefore === undefined) delete process.env.TZ;
+  else process.env.TZ = timeZoneBefore;
+});
+
+describe('HL7 v2 dialect', () => {
+  it('is registered by name', () => {
+    expect(getDialect('hl7v2')).toBe(hl7v2);
+  });
+
+  it('maps PID, OBR and each OBX of an ORU^R01 to a reading', async () => {
+    const message = [MSH(), PID, OBR, OBX(1, 'NM', 'WBC^White cells', '12.4', '10*9/L^^UCUM', 'N'), OBX(2, 'SN', 'PLT^Platelets', '<^50', '10*9/L', 'L~A')];
+    expect(await parse([wrap(message)])).toEqual([
+      {
+        kind: 'reading',
+        analyte: 'WBC',
+        value: 12.4,
+        comparator: null,
+        unit: '10*9/L',
+        flags: ['N'],
+        sampleId: 'S-3001',
+        patientRef: 'PT-4711',
+        measuredAt: '2026-12-01T14:03:22+01:00',
+        instrumentSerial: 'SIM-0003',
+        raw: `${MSH()}\r${PID}\r${OBR}\r${message[3]}\r`,
+      },
+      expect.objectContaining({ analyte: 'PLT', value: 50, comparator: '<', flags: ['L', 'A'] }),
+    ]);
+  });
+
+  // HL7 v2 TS with an offset is that moment; without one it is the lab PC's local time. OBR-2 when OBR-3 is empty.
+  it('reads observation times with offsets and falls back to the placer number', async () => {
+    const obr = seg('OBR', '1', 'PL-9', '', 'CBC');
+    const [out] = await parse([wrap([MSH(), obr, OBX(1, 'NM', 'HCT', '45', '%', '', 'C', '20261201140322+0000')])]);
+    expect(out).toMatchObject({ sampleId: 'PL-9', measuredAt: '2026-12-01T14:03:22+00:00', flags: ['corrected'] });
+  });
+
+  // HL7 v2 escape sequences (chapter 2): \F\ \S\ \T\ \R\ \E\ stand for the separators.
+  it('undoes escape sequences', async () => {
+    const [out] = await parse([wrap([MSH(), seg('OBR', '1', '', 'S\\F\\7'), OBX(1, 'NM', 'A\\S\\B', '1', 'U\\T\\L')])]);
+    expect(out).toMatchObject({ analyte: 'A^B', sampleId: 'S|7', unit: 'U&L' });
+  });
+
+  it('keeps what it cannot read as unparsed, saying why', async () => {
+    const out = await parse([wrap([MSH(), OBR, OBX(1, 'ST', 'MORPH', 'clumped', ''), OBX(2, 'NM', 'RBC', '', '', '', 'X')]), wrap([MSH('ADT^A01')])]);
+    expect(out.map((o) => (o.kind === 'unparsed' ? o.reason : o.kind))).toEqual([
+      'OBX 1 MORPH: OBX-5 "clumped" is not a number',
+      'OBX 2 RBC: the result could not be obtained (OBX-11 X)',
+      'not a result message: MSH-9 is ADT^A01 (Benchwire reads ORU^R01)',
+    ]);
+  });
+
+  // HL7 v2 chapter 2 acknowledgment: MSA-1 AA/AE/AR, MSA-2 = the message's MSH-10; ACK's MSH-5/6 are the sender's MSH-3/4.
+  it('acknowledges with AA, AE or AR and echoes MSH-10 in MSA-2', () => {
+    const context = { now: new Date(2026, 11, 1, 14, 5, 0), sequence: 7 };
+    const good = frameOf([MSH(), OBR, OBX(1, 'NM', 'WBC', '12.4', '10*9/L')]);
+    const [msh, msa] = acknowledgment(good, parseOru(good), context).split('\r');
+    expect(msh.split('|')).toEqual(['MSH', '^~\\&', 'Benchwire', '', 'HEMASIM', 'BENCH3', '20261201140500', '', 'ACK^R01^ACK', 'BW202612011405000007', 'P', '2.5']);
+    expect(msa.split('|')).toEqual(['MSA', 'AA', 'MSG00042', '']);
+
+    const partly = frameOf([MSH('ORU^R01', 'M2'), OBX(1, 'ST', 'MORPH', 'clumped', '')]);
+    expect(acknowledgment(partly, parseOru(partly), context).split('\r')[1]).toMatch(/^MSA\|AE\|M2\|1 of 1 result\(s\) not read/);
+    const other = frameOf([MSH('ADT^A01', 'M3')]);
+    expect(acknowledgment(other, parseOru(other), context).split('\r')[1]).toBe('MSA|AR|M3|unsupported message type ADT\\S\\A01; kept for review');
+    // (the ^ in MSA-3's text is escaped as \S\, HL7 v2 chapter 2)
+  });
+
+  it('answers each message through the back channel, in its MLLP envelope', async () => {
+    const sent: Buffer[] = [];
+    await runThrough([wrap([MSH(), OBR, OBX(1, 'NM', 'WBC', '12.4', '')])], createParsingStages(hl7v2, { idle: false, reply: (b) => sent.push(b) }));
+    expect(sent).toHaveLength(1);
+    expect([sent[0][0], sent[0].at(-2), sent[0].at(-1)]).toEqual([0x0b, 0x1c, 0x0d]);
+    expect(sent[0].toString().split('\r')[1]).toBe('MSA|AA|MSG00042|');
+  });
+
+  it('keeps bytes outside envelopes and a message broken off by a new VT', async () => {
+    const broken = Buffer.concat([Buffer.from([0x0b]), Buffer.from(`${MSH()}\rOBX|1`)]);
+    const out = await parse([Buffer.from('garbage\r\n'), broken, wrap([MSH(), OBX(1, 'NM', 'WBC', '3', '')])]);
+    expect(out.map((o) => (o.kind === 'unparsed' ? [o.reason, o.raw] : o.kind))).toEqual([
+      ['bytes outside an MLLP message (VT … FS CR)', 'garbage\r\n'],
+      ['message cut short: a new message (VT) began before FS', `${MSH()}\rOBX|1`],
+      'reading',
+    ]);
+  });
+
+  it('gives the same outputs for any split, and random bytes never stop a later message', async () => {
+    const stream = Buffer.concat([wrap([MSH(), PID, OBR, OBX(1, 'NM', 'WBC', '12.4', 'x')]), Buffer.from('\x00zz'), wrap([MSH(), OBX(1, 'NM', 'RBC', '7', 'y')])]);
+    const whole = await parse([stream]);
+    await fc.assert(
+      fc.asyncProperty(fc.array(fc.nat({ max: stream.length }), { maxLength: 12 }), async (cuts) => {
+        expect(await parse(splitAt(stream, cuts))).toEqual(whole);
+      }),
+      { numRuns: 100 },
+    );
+    const good = wrap([MSH(), OBX(1, 'NM', 'RBC', '7', 'y')]);
+    await fc.assert(
+      fc.asyncProperty(fc.uint8Array({ maxLength: 300 }), async (noise) => {
+        const out = await parse([Buffer.from(noise), Buffer.from([0x1c, 0x0d]), good]);
+        expect(out.at(-1)).toMatchObject({ kind: 'reading', analyte: 'RBC', value: 7 });
+      }),
+      { numRuns: 150 },
+    );
+  });
+});
