@@ -1,0 +1,127 @@
+import fc from 'fast-check';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { profileDefinitionSchema, type ProfileDefinitionInput } from '../../lib/validation/profile';
+import type { ParserOutput } from '../../lib/validation/readings';
+import { createParsingStages } from '../parse-stage';
+import { runThrough, splitAt } from '../testing/streams';
+import { loadProfile, previewProfile, profileDialect } from './profile';
+
+// The profile format is ours (lib/validation/profile.ts); expectations follow its field descriptions.
+// The printouts are invented. Times are the lab PC's local time, so the time zone is pinned.
+
+const panel: ProfileDefinitionInput = {
+  analyzer: 'Invented benchtop chemistry printer',
+  record: { start: '^\\*\\*\\* CHEM PANEL', end: '^\\*\\*\\* END' },
+  fields: [
+    { label: 'Sample', pattern: '^ID:\\s*(?<sampleId>\\S+)', required: true },
+    { label: 'Patient', pattern: '^PATIENT:\\s*(?<patientRef>\\S+)' },
+    { label: 'When', pattern: '^DATE\\s+(?<date>\\S+)\\s+(?<time>\\S+)' },
+    { label: 'Result', pattern: '^(?<analyte>[A-Z]{2,5})\\s+(?<value>[<>]?\\s*[\\d.,]+)\\s+(?<unit>\\S+)(?:\\s+(?<flag>[HL]))?$', repeats: true },
+  ],
+  decimalComma: true,
+  dateFormat: 'DD.MM.YYYY',
+  timeFormat: 'HH:mm',
+};
+const definition = profileDefinitionSchema.parse(panel);
+const printout = [
+  '*** CHEM PANEL ***',
+  'ID: S-5001',
+  'PATIENT: PT-12',
+  'DATE 01.12.2026 14:03',
+  'GLU      5,2 mmol/L',
+  'CREA   <18   umol/L  L',
+  'ALT     43   U/L     H',
+  '*** END ***',
+  '',
+].join('\r\n');
+
+const timeZoneBefore = process.env.TZ;
+beforeAll(() => {
+  process.env.TZ = 'Europe/Berlin';
+});
+afterAll(() => {
+  if (timeZoneBefore === undefined) delete process.env.TZ;
+  else process.env.TZ = timeZoneBefore;
+});
+
+describe('previewProfile', () => {
+  it('reads one reading per repeating result line, with the record\'s own fields', () => {
+    const preview = previewProfile(definition, `PAPER OUT\r\n${printout}`);
+    const common = { sampleId: 'S-5001', patientRef: 'PT-12', measuredAt: '2026-12-01T14:03:00+01:00', instrumentSerial: null, raw: printout };
+    expect(preview.outputs).toEqual([
+      { kind: 'unparsed', raw: 'PAPER OUT\r\n', reason: 'text outside any record' },
+      { kind: 'reading', analyte: 'GLU', value: 5.2, comparator: null, unit: 'mmol/L', flags: [], ...common },
+      { kind: 'reading', analyte: 'CREA', value: 18, comparator: '<', unit: 'umol/L', flags: ['L'], ...common },
+      { kind: 'reading', analyte: 'ALT', value: 43, comparator: null, unit: 'U/L', flags: ['H'], ...common },
+    ]);
+    expect(preview.unparsed).toEqual([preview.outputs[0]]);
+    expect(preview.records).toHaveLength(1);
+    expect(preview.records[0].fields).toEqual({ sampleId: 'S-5001', patientRef: 'PT-12', date: '01.12.2026', time: '14:03' });
+    expect(preview.records[0].lines.map((line) => line.fields)).toEqual([[], ['Sample'], ['Patient'], ['When'], ['Result'], ['Result'], ['Result'], []]);
+    expect(preview.records[0].lines[5].captures).toEqual({ analyte: 'CREA', value: '<18', unit: 'umol/L', flag: 'L' });
+  });
+
+  it('says why a record is not read: a required line missing, a value that is no number, an impossible date', () => {
+    const reasons = (text: string) => previewProfile(definition, text).outputs.map((o) => (o.kind === 'unparsed' ? o.reason : o.kind));
+    expect(reasons(printout.replace('ID: S-5001\r\n', ''))).toEqual(['no line matches "Sample"']);
+    expect(reasons(printout.replace('5,2', '5.2'))).toEqual(['GLU: value "5.2" is not a number with a decimal comma', 'reading', 'reading']);
+    expect(reasons(printout.replace('01.12.2026', '31.11.2026'))).toEqual(Array(3).fill('GLU: date "31.11.2026" is not a real date').map((r, i) => r.replace('GLU', ['GLU', 'CREA', 'ALT'][i])));
+    expect(reasons(printout.replace('*** END ***\r\n', ''))).toEqual(['record cut short: input ended before the end line']);
+  });
+
+  // A single-test reader: the test and unit come from the profile; a form feed ejects each slip.
+  it('reads form-feed slips of a single-test reader with a 12-hour clock', () => {
+    const slip = profileDefinitionSchema.parse({
+      analyzer: 'Invented SDMA reader',
+      record: { formFeed: true },
+      fields: [
+        { label: 'Result', pattern: '^RESULT\\s+(?<value>[<>]?[\\d.]+)', required: true },
+        { label: 'Time', pattern: '^(?<date>\\d\\d/\\d\\d/\\d\\d) (?<time>.+)$' },
+      ],
+      analyte: 'SDMA',
+      unit: 'ug/dL',
+      dateFormat: 'YY/MM/DD',
+      timeFormat: 'hh:mm a',
+    });
+    const out = previewProfile(slip, 'RESULT  14\n26/12/01 02:03 PM\n\fRESULT >100\n26/12/01 12:10 AM\n\f').outputs;
+    expect(out).toEqual([
+      expect.objectContaining({ analyte: 'SDMA', value: 14, unit: 'ug/dL', measuredAt: '2026-12-01T14:03:00+01:00', raw: 'RESULT  14\n26/12/01 02:03 PM\n\f' }),
+      expect.objectContaining({ analyte: 'SDMA', value: 100, comparator: '>', measuredAt: '2026-12-01T00:10:00+01:00' }),
+    ]);
+  });
+});
+
+describe('loadProfile', () => {
+  it('refuses a bad profile with a message that points at the field', () => {
+    expect(loadProfile({ ...panel, fields: [{ label: 'x', pattern: '(?<value' }] })).toEqual({ ok: false, message: expect.stringMatching(/^fields\.0\.pattern: Not a valid pattern/) });
+    expect(loadProfile({ ...panel, record: {} })).toEqual({ ok: false, message: expect.stringMatching(/^record: Say how a record is told apart/) });
+    expect(loadProfile(panel)).toEqual({ ok: true, definition });
+  });
+});
+
+describe('profile dialect on a byte stream', () => {
+  const parse = (chunks: ReadonlyArray<Buffer | string>) => runThrough<ParserOutput>(chunks, createParsingStages(profileDialect(definition), { idle: false }));
+
+  it('gives what the preview gives, for any split of the bytes', async () => {
+    const bytes = Buffer.from(`noise\r${printout}\f${printout.replace(/\r\n/g, '\r')}`);
+    const whole = await parse([bytes]);
+    expect(whole).toEqual(previewProfile(definition, bytes.toString()).outputs);
+    expect(whole.filter((o) => o.kind === 'reading')).toHaveLength(6);
+    await fc.assert(
+      fc.asyncProperty(fc.array(fc.nat({ max: bytes.length }), { maxLength: 12 }), async (cuts) => {
+        expect(await parse(splitAt(bytes, cuts))).toEqual(whole);
+      }),
+      { numRuns: 100 },
+    );
+  });
+
+  it('never throws on random bytes, and a printout after them is still read', async () => {
+    await fc.assert(
+      fc.asyncProperty(fc.uint8Array({ maxLength: 300 }), async (noise) => {
+        const out = await parse([Buffer.from(noise), '\r\n*** END ***\r\n', printout]);
+        expect(out.slice(-3).map((o) => (o.kind === 'reading' ? o.analyte : o.reason))).toEqual(['GLU', 'CREA', 'ALT']);
+      }),
+      { numRuns: 150 },
+    );
+  });
+});
