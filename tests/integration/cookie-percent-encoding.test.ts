@@ -5,11 +5,9 @@
 //    returned promise rejects; server.ts calls it as `void hub.handleUpgrade(...)`, an unhandled rejection,
 //    which ends the Node process (Node ≥ 15 default --unhandled-rejections=throw). Anyone who can reach
 //    /api/live can take the server down with one request.
-import { createServer, type Server } from 'node:http';
-import type { AddressInfo } from 'node:net';
 import { PassThrough } from 'node:stream';
 import type { IncomingMessage } from 'node:http';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import './support';
 import { GET as me } from '@/app/api/auth/me/route';
 import { GET as readings } from '@/app/api/readings/route';

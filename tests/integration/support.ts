@@ -16,6 +16,7 @@ import { request } from '../helpers/http';
 process.env.SESSION_SECRET ||= `test-only-${randomBytes(24).toString('hex')}`;
 
 /** Reads a response body as JSON (the route handlers always answer JSON). */
+// eslint-disable-next-line @typescript-eslint/no-explicit-any -- bodies are checked by the assertions, not by types
 export async function body<T = any>(response: Response): Promise<T> {
   return (await response.json()) as T;
 }

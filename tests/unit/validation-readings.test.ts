@@ -73,7 +73,8 @@ describe('parsedReadingSchema', () => {
 
   it('requires value to be present: a number or an explicit null', () => {
     expect(parsedReadingSchema.safeParse(reading({ value: null })).success).toBe(true);
-    const { value: _omit, ...withoutValue } = reading();
+    const withoutValue: Record<string, unknown> = { ...reading() };
+    delete withoutValue.value;
     expect(paths(parsedReadingSchema.safeParse(withoutValue))).toEqual(['value']);
     expect(paths(parsedReadingSchema.safeParse(reading({ value: '12.3' })))).toEqual(['value']);
   });
