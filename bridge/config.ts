@@ -1,7 +1,7 @@
 import { readFile } from 'node:fs/promises';
 import { dirname, resolve } from 'node:path';
 import { z } from 'zod';
-import { DEFAULT_DIALECT, dialectNames, findDialect } from './dialects';
+import { DEFAULT_DIALECT, PROFILE_DIALECT, dialectNames, findDialect } from './dialects';
 import { LINE_ENCODINGS, type LineEncoding } from './framing/lines';
 import type { BridgeOptions, InstrumentConfig } from './pipeline';
 import { parseSourceSpec } from './sources';
@@ -80,7 +80,9 @@ export function checkBridgeOptions(options: Pick<BridgeOptions, 'server' | 'toke
 function checkInstrument(instrument: InstrumentConfig): void {
   const code = instrumentCodeSchema.safeParse(instrument.code);
   if (!code.success) throw new UsageError(`"${instrument.code}": ${code.error.issues[0].message}`);
-  if (!findDialect(instrument.dialect)) {
+  if (instrument.dialect === PROFILE_DIALECT) {
+    if (!instrument.profile) throw new UsageError(`${instrument.code}: dialect "profile" needs a printout profile`);
+  } else if (!findDialect(instrument.dialect)) {
     throw new UsageError(`${instrument.code}: unknown dialect "${instrument.dialect}" (known: ${dialectNames().join(', ')})`);
   }
   const spec = typeof instrument.source === 'string' ? parseSourceSpec(instrument.source) : instrument.source;

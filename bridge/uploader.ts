@@ -244,6 +244,9 @@ export class Uploader extends EventEmitter<UploaderEvents> {
         instrument: source.instrument.slice(0, 64),
         state: source.state,
         ...(source.detail ? { detail: source.detail.slice(0, 200) } : {}),
+        ...(source.warnings?.length ? { warnings: source.warnings.slice(0, 10).map((w) => w.slice(0, 200)) } : {}),
+        ...(source.bytesReceived !== undefined ? { bytesReceived: source.bytesReceived } : {}),
+        ...(source.lastByteAt ? { lastByteAt: source.lastByteAt } : {}),
       })),
     };
     this.heartbeatInFlight = this.post('/api/bridge/heartbeat', heartbeat)

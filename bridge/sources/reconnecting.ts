@@ -1,16 +1,18 @@
 import { EventEmitter } from 'node:events';
-import { PassThrough, type Readable } from 'node:stream';
+import { PassThrough, type Duplex } from 'node:stream';
 import { backoffDelay, formatSeconds, type RetryPolicy } from '../backoff';
 import { errorMessage, silentLog, type Log } from '../log';
 import type { ByteSource, SourceState } from './source';
 
-export interface Link<T extends Readable> {
+export interface Link<T extends Duplex> {
   /** Resolves with an open connection, or rejects if it could not be opened. */
   open(): Promise<T>;
   close(connection: T): Promise<void>;
+  /** Release what the link holds besides its connections (a listening socket); called once on stop. */
+  shutdown?(): Promise<void>;
 }
 
-export interface ReconnectingOptions<T extends Readable> {
+export interface ReconnectingOptions<T extends Duplex> {
   /** Who is talking, for log lines (the instrument code). */
   name: string;
   /** Where, for log lines and the heartbeat (e.g. tcp://192.0.2.20:4001). */
@@ -34,10 +36,10 @@ interface ReconnectingEvents<T> {
 const DEFAULT_RETRY: RetryPolicy = { initialMs: 1_000, maxMs: 30_000 };
 
 /**
- * One continuous byte stream over a link that may drop (a serial adapter unplugged, a TCP adapter
+ * One continuous byte stream (with a back channel) over a link that may drop (a serial adapter unplugged, a TCP adapter
  * rebooted): opens, and after a failure or a close opens again with backoff, until stopped.
  */
-export class ReconnectingSource<T extends Readable> extends EventEmitter<ReconnectingEvents<T>> implements ByteSource {
+export class ReconnectingSource<T extends Duplex> extends EventEmitter<ReconnectingEvents<T>> implements ByteSource {
   readonly stream = new PassThrough();
   private current: T | undefined;
   private currentState: SourceState = 'connecting';
@@ -68,9 +70,18 @@ export class ReconnectingSource<T extends Readable> extends EventEmitter<Reconne
       connection.unpipe(this.stream);
       await this.options.link.close(connection).catch(() => {});
     }
+    await this.options.link.shutdown?.().catch(() => {});
     this.currentState = 'closed';
     this.detail = this.options.address;
     this.stream.end();
+  }
+
+  /** Writes to the open connection (ACK/NAK and answers); false when none is open. */
+  write(bytes: Buffer): boolean {
+    const connection = this.current;
+    if (!connection || connection.destroyed || !connection.writable) return false;
+    connection.write(bytes);
+    return true;
   }
 
   private async connect(): Promise<void> {

@@ -47,17 +47,17 @@ export function openTcpSource(options: TcpSourceOptions): ReconnectingSource<Soc
   });
 }
 
-/** tcp://host:port → host and port, or an error message. */
-export function parseTcpAddress(address: string): { host: string; port: number } | string {
+/** tcp://host:port (or another scheme's host:port) → host and port, or an error message. */
+export function parseTcpAddress(address: string, scheme = 'tcp'): { host: string; port: number } | string {
   let url: URL;
   try {
     url = new URL(address);
   } catch {
-    return `"${address}" is not a tcp://host:port address`;
+    return `"${address}" is not a ${scheme}://host:port address`;
   }
   const port = Number(url.port);
-  if (url.protocol !== 'tcp:' || !url.hostname || !Number.isInteger(port) || port < 1 || port > 65535 || url.pathname.replace(/^\/$/, '') !== '') {
-    return `"${address}" is not a tcp://host:port address`;
+  if (url.protocol !== `${scheme}:` || !url.hostname || !Number.isInteger(port) || port < 1 || port > 65535 || url.pathname.replace(/^\/$/, '') !== '') {
+    return `"${address}" is not a ${scheme}://host:port address`;
   }
   return { host: url.hostname.replace(/^\[(.*)\]$/, '$1'), port };
 }
