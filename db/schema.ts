@@ -73,6 +73,22 @@ export const staffUsers = pgTable(
   ],
 );
 
+/** One signed-in browser. The cookie names its row, so signing out ends it on the server too. */
+export const staffSessions = pgTable(
+  'staff_sessions',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    userId: uuid()
+      .notNull()
+      .references(() => staffUsers.id, { onDelete: 'cascade' }),
+    createdAt: createdAt(),
+    expiresAt: timestamp({ withTimezone: true }).notNull(),
+    endedAt: timestamp({ withTimezone: true }),
+  },
+  (t) => [index('staff_sessions_user_idx').on(t.userId)],
+);
+
 export const owners = pgTable(
   'owners',
   {
@@ -534,6 +550,7 @@ export const resultAlerts = pgTable(
 
 export type Clinic = typeof clinics.$inferSelect;
 export type StaffUser = typeof staffUsers.$inferSelect;
+export type StaffSession = typeof staffSessions.$inferSelect;
 export type StaffRole = (typeof staffRole.enumValues)[number];
 export type Patient = typeof patients.$inferSelect;
 export type Owner = typeof owners.$inferSelect;

@@ -1,7 +1,7 @@
 import 'server-only';
-import { and, eq, isNull } from 'drizzle-orm';
+import { and, eq, gt, isNull } from 'drizzle-orm';
 import { db } from '@/db/client';
-import { bridges, staffUsers, type Bridge, type StaffRole } from '@/db/schema';
+import { bridges, staffSessions, staffUsers, type Bridge, type StaffRole } from '@/db/schema';
 import { ApiError } from '@/lib/http';
 import { allowed, type Permission } from './roles';
 import { SESSION_COOKIE, cookieValue, unsealSession } from './session';
@@ -19,12 +19,22 @@ export interface Actor {
 /** Resolves a sealed session cookie to an active staff member, re-reading role and status from the database. */
 export async function actorFromSeal(seal: string | null | undefined): Promise<Actor | null> {
   const session = await unsealSession(seal);
-  if (!session) return null;
+  if (!session?.sessionId) return null;
   const database = await db();
-  const [user] = await database
-    .select()
-    .from(staffUsers)
-    .where(and(eq(staffUsers.id, session.userId), eq(staffUsers.clinicId, session.clinicId)));
+  const [row] = await database
+    .select({ user: staffUsers })
+    .from(staffSessions)
+    .innerJoin(staffUsers, eq(staffUsers.id, staffSessions.userId))
+    .where(
+      and(
+        eq(staffSessions.id, session.sessionId),
+        eq(staffSessions.userId, session.userId),
+        eq(staffUsers.clinicId, session.clinicId),
+        isNull(staffSessions.endedAt),
+        gt(staffSessions.expiresAt, new Date()),
+      ),
+    );
+  const user = row?.user;
   if (!user || !user.active) return null;
   return { userId: user.id, clinicId: user.clinicId, role: user.role, displayName: user.displayName, email: user.email };
 }

@@ -12,6 +12,8 @@ export const SESSION_TTL_SECONDS = 12 * 60 * 60;
 export interface SessionData {
   userId: string;
   clinicId: string;
+  /** The staff_sessions row this cookie belongs to; signing out ends it. */
+  sessionId?: string;
   issuedAt: number;
 }
 

@@ -7,11 +7,22 @@ import { publish } from '@/lib/live/bus';
 import type { BridgeBatch, BridgeBatchResult } from '@/lib/validation/readings';
 import { autoAssignOnIngest } from './suggestions';
 
+/** PostgreSQL text cannot hold U+0000, which line noise often sends; keep it visible as ␀ (U+2400) instead. */
+export function storable<T>(value: T): T {
+  if (typeof value === 'string') return value.replaceAll('\u0000', '\u2400') as T;
+  if (Array.isArray(value)) return value.map(storable) as T;
+  if (value && typeof value === 'object') {
+    return Object.fromEntries(Object.entries(value).map(([k, v]) => [k, storable(v)])) as T;
+  }
+  return value;
+}
+
 /**
  * Stores a bridge's batch in one transaction. A record whose key this bridge already sent is
  * acknowledged as a duplicate and not stored again, so the bridge can resend freely.
  */
-export async function ingestBatch(bridge: Bridge, batch: BridgeBatch): Promise<BridgeBatchResult> {
+export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promise<BridgeBatchResult> {
+  const batch = storable(received);
   const database = await db();
   return database.transaction(async (tx) => {
     const codes = [...new Set(batch.records.map((r) => r.instrument))];

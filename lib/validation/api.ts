@@ -4,8 +4,11 @@ import { profileDefinitionSchema } from './profile';
 
 // Request shapes shared by the forms in app/ and the route handlers.
 
+/** Trimmed and lower-cased first, then checked: a pasted address with spaces is still an address. */
+const emailAddress = z.string().trim().toLowerCase().max(200).pipe(z.email('Enter a valid e-mail address.'));
+
 export const signInSchema = z.object({
-  email: z.email('Enter a valid e-mail address.').trim().toLowerCase().max(200),
+  email: emailAddress,
   password: z.string().min(1, 'Enter your password.').max(200),
 });
 export type SignInInput = z.infer<typeof signInSchema>;
@@ -19,14 +22,14 @@ export const setupSchema = z.object({
   clinicName: z.string().trim().min(2, 'Enter the clinic name.').max(120),
   timeZone: z.string().trim().min(1).max(64).default('UTC'),
   displayName: z.string().trim().min(2, 'Enter your name.').max(120),
-  email: z.email('Enter a valid e-mail address.').trim().toLowerCase().max(200),
+  email: emailAddress,
   password,
 });
 export type SetupInput = z.infer<typeof setupSchema>;
 
 export const newStaffSchema = z.object({
   displayName: z.string().trim().min(2, 'Enter the name.').max(120),
-  email: z.email('Enter a valid e-mail address.').trim().toLowerCase().max(200),
+  email: emailAddress,
   role: z.enum(ROLES),
   password,
 });

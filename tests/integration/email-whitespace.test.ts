@@ -1,5 +1,4 @@
-// PENDING: enable (rename to .test.ts) once the e-mail fields trim before they validate.
-// Bug: lib/validation/api.ts signInSchema / setupSchema / newStaffSchema use `z.email(...).trim().toLowerCase()`.
+// Regression: lib/validation/api.ts signInSchema / setupSchema / newStaffSchema use `z.email(...).trim().toLowerCase()`.
 // In zod 4 the e-mail format check of z.email() runs before the .trim() overwrite, so a pasted or auto-filled
 // address with a leading/trailing space fails with "Enter a valid e-mail address." (400) — the .trim() never helps.
 // Expected: trimmed first, then checked, e.g. `z.string().trim().toLowerCase().pipe(z.email(...))`.

@@ -1,5 +1,4 @@
-// PENDING: enable (rename to .test.ts) once ingest copes with U+0000 in text fields.
-// Bug (lib/readings/ingest.ts ingestBatch, inserts into readings / unparsed_captures): PostgreSQL text cannot hold
+// Regression (lib/readings/ingest.ts ingestBatch, inserts into readings / unparsed_captures): PostgreSQL text cannot hold
 // U+0000 (PostgreSQL docs, "Character Types": the character with code zero cannot be stored; error 22021
 // "invalid byte sequence for encoding UTF8: 0x00"). The zod contract (lib/validation/readings.ts) lets "\u0000"
 // through in raw (and analyte, unit, sampleId, …), so the insert fails, the whole batch rolls back and the route

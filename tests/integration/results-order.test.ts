@@ -1,5 +1,4 @@
-// PENDING: enable (rename to .test.ts) once a patient's results order readings without measuredAt sensibly.
-// Bug (lib/readings/queries.ts patientResults, orderBy(desc(readings.measuredAt), desc(readings.receivedAt))):
+// Regression (lib/readings/queries.ts patientResults, orderBy(desc(readings.measuredAt), desc(readings.receivedAt))):
 // PostgreSQL sorts NULLs first in DESC order (PostgreSQL docs, ORDER BY: "NULLS FIRST is the default for DESC
 // order"). A reading whose instrument printed no time (measuredAt null — allowed by the contract) is listed above
 // every dated result, however old it is, so the chart's "newest first" is wrong.

@@ -1,5 +1,4 @@
-// PENDING: enable (rename to .test.ts) once sign-out ends the session on the server, not only in the browser.
-// Design gap: sessions are stateless iron seals (lib/auth/session.ts). POST /api/auth/sign-out only sends an
+// Regression: Design gap: sessions are stateless iron seals (lib/auth/session.ts). POST /api/auth/sign-out only sends an
 // expired cookie; the seal itself stays valid until its 12-hour TTL, so a copied cookie (shared lab PC, proxy
 // log, stolen from a kiosk browser) keeps working after the person signed out. OWASP ASVS 4.0 V3.3.1: "logout and
 // expiration invalidate the session token" (from memory). Needs server state, e.g. a session id or a per-user

@@ -1,4 +1,4 @@
-import { sealSession, sessionCookie } from '@/lib/auth/session';
+import { startSession } from '@/lib/auth/sign-in';
 import { apiRoute, json, readJson } from '@/lib/http';
 import { clinicCount, createFirstClinic } from '@/lib/staff';
 import { setupSchema } from '@/lib/validation/api';
@@ -11,8 +11,7 @@ export const GET = apiRoute(async () => json({ needsSetup: (await clinicCount())
 export const POST = apiRoute(async (request) => {
   const input = await readJson(request, setupSchema);
   const { clinic, admin } = await createFirstClinic(input);
-  const seal = await sealSession({ userId: admin.id, clinicId: clinic.id, issuedAt: Date.now() });
   const response = json({ clinic: { id: clinic.id, name: clinic.name } }, { status: 201 });
-  response.cookies.set(sessionCookie(seal));
+  response.cookies.set(await startSession(admin));
   return response;
 });

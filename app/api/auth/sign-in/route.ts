@@ -1,4 +1,4 @@
-import { sealSession, sessionCookie } from '@/lib/auth/session';
+import { startSession } from '@/lib/auth/sign-in';
 import { ApiError, apiRoute, json, readJson } from '@/lib/http';
 import { authenticate } from '@/lib/staff';
 import { signInSchema } from '@/lib/validation/api';
@@ -7,8 +7,7 @@ export const POST = apiRoute(async (request) => {
   const { email, password } = await readJson(request, signInSchema);
   const user = await authenticate(email, password);
   if (!user) throw new ApiError(401, 'invalid_credentials', 'That e-mail and password do not match an active account.');
-  const seal = await sealSession({ userId: user.id, clinicId: user.clinicId, issuedAt: Date.now() });
   const response = json({ user: { id: user.id, displayName: user.displayName, role: user.role } });
-  response.cookies.set(sessionCookie(seal));
+  response.cookies.set(await startSession(user));
   return response;
 });
