@@ -1,30 +1,34 @@
 import { randomInt } from 'node:crypto';
 import { createReadStream, realpathSync } from 'node:fs';
+import { readFile } from 'node:fs/promises';
 import { resolve } from 'node:path';
 import { Writable } from 'node:stream';
 import { pipeline } from 'node:stream/promises';
 import { fileURLToPath } from 'node:url';
 import { parseArgs, type ParseArgsConfig } from 'node:util';
+import type { ProfileDefinition } from '../lib/validation/profile';
 import type { ParserOutput } from '../lib/validation/readings';
 import { UsageError, checkBridgeOptions, loadConfigFile } from './config';
-import { DEFAULT_DIALECT, dialectNames, findDialect } from './dialects';
+import { DEFAULT_DIALECT, PROFILE_DIALECT, dialectNames, findDialect } from './dialects';
+import { loadProfile, profileDialect } from './dialects/profile';
 import { LINE_ENCODINGS, type LineEncoding } from './framing/lines';
 import { streamLog } from './log';
 import { createParsingStages } from './parse-stage';
 import type { BridgeOptions, InstrumentConfig } from './pipeline';
 import { PARITIES, serialSettingsSchema, type SerialSettings } from './sources/serial';
+import { parseTcpAddress } from './sources/tcp';
 
 export { startBridge } from './pipeline';
 export type { BridgeOptions, RunningBridge } from './pipeline';
 
-const USAGE = `Benchwire bridge: analyzer printouts from a serial line into Benchwire.
+const USAGE = `Benchwire bridge: analyzer results from a serial line or the network into Benchwire.
 
 Usage: npm run bridge -- <command> [options]
 
 Commands:
   run        read instruments, spool every record, send them to the server
-  parse      show what a dialect makes of a capture file (nothing is sent)
-  simulate   an invented CRP reader printing result slips (stdout, serial port or TCP)
+  parse      show what a dialect or printout profile makes of a capture file (nothing is sent)
+  simulate   invented analyzers: a CRP slip printer, an ASTM chemistry analyzer, an HL7 hematology analyzer
   ports      list serial ports
 
 "npm run bridge -- <command> --help" tells more about each.
@@ -40,16 +44,22 @@ const SERIAL_HELP = `  --baud N               baud rate (default 9600)
 const HELP: Record<string, string> = {
   run: `Usage: npm run bridge -- run [options]
 
-One instrument from flags:
+Instruments from the server (Admin → Instruments), followed without a restart:
   --server URL           Benchwire server (default: $BENCHWIRE_SERVER)
   --token TOKEN          bridge token (default: $BENCHWIRE_BRIDGE_TOKEN; prefer the variable,
                          a flag shows in the process list)
+  --config-from-server   the default when no --instrument and no --config is given
+  --spool DIR            spool directory (default ./bridge-spool); the last config from the
+                         server is kept there, so the bridge runs on it while the server is away
+
+One instrument from flags:
   --instrument CODE      the instrument's code in Admin → Instruments
-  --source SOURCE        serial:/dev/ttyUSB0 (serial:COM3), tcp://host:port, or file:PATH
+  --source SOURCE        serial:/dev/ttyUSB0 (serial:COM3), tcp://host:port (the bridge connects),
+                         tcp-listen://host:port (the analyzer connects), or file:PATH
   --dialect NAME         ${dialectNames().join(', ')} (default ${DEFAULT_DIALECT})
-  --encoding E           ${LINE_ENCODINGS.join('|')} (default utf8)
+  --profile FILE         read by a printout profile (JSON) instead of a dialect
+  --encoding E           ${LINE_ENCODINGS.join('|')} (default utf8; latin1 for ASTM)
 ${SERIAL_HELP}
-  --spool DIR            spool directory (default ./bridge-spool)
 
 Or several from a file:
   --config FILE          JSON: {"server", "token", "spoolDir",
@@ -57,28 +67,34 @@ Or several from a file:
                          "dataBits", "parity", "stopBits", "rtscts", "xon", "xoff"}, "encoding"}]}
                          (--server, --token and --spool still override it)
 
-Every record is on disk before it is sent and stays there until the server confirmed it.
+Every record is on disk before it is sent and stays there until the server confirmed it; every
+byte received is also kept as sent in SPOOL/capture/CODE/capture.log (rotated, 5 × 10 MB).
 Stop with Ctrl+C (SIGINT) or SIGTERM.
 `,
-  parse: `Usage: npm run bridge -- parse [--dialect NAME] [--encoding E] [FILE|-]
+  parse: `Usage: npm run bridge -- parse [--dialect NAME | --profile FILE] [--encoding E] [FILE|-]
 
 Reads FILE (or stdin) and prints one JSON object per line: readings, and
-{"kind":"unparsed",...} for text that is not one. Nothing is sent or spooled.
+{"kind":"unparsed",...} for text that is not one. Nothing is sent, spooled or answered.
   --dialect NAME         ${dialectNames().join(', ')} (default ${DEFAULT_DIALECT})
-  --encoding E           ${LINE_ENCODINGS.join('|')} (default utf8)
+  --profile FILE         a printout profile (JSON: the definition, or {"definition": …})
+  --encoding E           ${LINE_ENCODINGS.join('|')} (default utf8; latin1 for ASTM)
 `,
-  simulate: `Usage: npm run bridge -- simulate [options]
+  simulate: `Usage: npm run bridge -- simulate [--kind KIND] [options]
 
-An invented single-test CRP reader printing result slips (demo and test data only).
-  --seed N               same seed, same slips (default: random, printed at start)
-  --count N              slips to print (default 10 to stdout, otherwise unlimited)
-  --every SECONDS        pause between slips (default 0 to stdout, otherwise 20)
-  --serial-number SN     printed on the slips (default SIM-0001)
-Where to (default stdout):
-  --listen PORT          act as a serial-to-network adapter: serve slips to TCP clients
+Invented analyzers (demo and test data only):
+  --kind crp-printer     a single-test CRP reader printing text slips (default)
+  --kind astm-chemistry  a chemistry analyzer sending ASTM E1394 over E1381; needs --listen
+  --kind hl7-hematology  a hematology analyzer sending HL7 ORU^R01 over MLLP; needs --connect
+  --seed N               same seed, same results (default: random, printed at start)
+  --count N              results to send (default 10 to stdout, otherwise unlimited)
+  --every SECONDS        pause between results (default 0 to stdout, otherwise 20)
+  --serial-number SN     the instrument's serial number in what it sends
+Where to (crp-printer: default stdout):
+  --listen PORT          serve TCP clients like a serial-to-network adapter (the bridge connects)
   --host HOST            address to listen on (default 127.0.0.1)
-  --wait-for-client      hold the first slip until a client is connected
-  --serial PATH          write to a serial port (e.g. one end of a socat pty pair)
+  --wait-for-client      crp-printer: hold the first slip until a client is connected
+  --connect HOST:PORT    hl7-hematology: connect to the bridge (its tcp-listen source)
+  --serial PATH          crp-printer: write to a serial port (e.g. one end of a socat pty pair)
 ${SERIAL_HELP}
 `,
   ports: `Usage: npm run bridge -- ports [--json]
@@ -186,11 +202,13 @@ function serialSettingsOf(values: Values): Partial<SerialSettings> {
 async function runCommand(args: string[]): Promise<number> {
   const { values } = parseFlags(args, {
     config: { type: 'string' },
+    'config-from-server': { type: 'boolean' },
     server: { type: 'string' },
     token: { type: 'string' },
     instrument: { type: 'string' },
     source: { type: 'string' },
     dialect: { type: 'string' },
+    profile: { type: 'string' },
     encoding: { type: 'string' },
     spool: { type: 'string' },
     ...SERIAL_OPTIONS,
@@ -199,7 +217,7 @@ async function runCommand(args: string[]): Promise<number> {
   checkBridgeOptions(options);
   const log = streamLog(process.stdout);
   const { startBridge } = await import('./pipeline');
-  log.info(`bridge: spool ${options.spoolDir}, server ${options.server}`);
+  log.info(`bridge: spool ${options.spoolDir}, server ${options.server}${options.configFromServer ? ', instruments from the server' : ''}`);
   const bridge = await startBridge({ ...options, log });
   await new Promise<void>((done) => {
     let signals = 0;
@@ -215,13 +233,20 @@ async function runCommand(args: string[]): Promise<number> {
   return 0;
 }
 
-/** Flags, then the config file, then the environment. */
+const SINGLE_INSTRUMENT_FLAGS = ['instrument', 'source', 'dialect', 'profile', 'encoding', ...Object.keys(SERIAL_OPTIONS)];
+
+/** Flags, then the config file, then the environment. Without --instrument or --config, the server's config. */
 export async function runOptions(values: Values, env: Record<string, string | undefined>): Promise<BridgeOptions> {
   const text = (name: string) => (typeof values[name] === 'string' ? (values[name] as string) : undefined);
-  let instruments: InstrumentConfig[];
+  let instruments: InstrumentConfig[] = [];
   let fromFile: { server?: string; token?: string; spoolDir?: string } = {};
-  if (text('config')) {
-    const clash = ['instrument', 'source', 'dialect', 'encoding', ...Object.keys(SERIAL_OPTIONS)].find((name) => values[name] !== undefined);
+  const given = SINGLE_INSTRUMENT_FLAGS.filter((name) => values[name] !== undefined);
+  const fromServer = values['config-from-server'] === true || (!text('config') && given.length === 0);
+  if (fromServer) {
+    if (text('config')) throw new UsageError('--config-from-server and --config do not go together');
+    if (given.length) throw new UsageError(`--${given[0]} does not go with --config-from-server; set it in Admin → Instruments`);
+  } else if (text('config')) {
+    const clash = given[0];
     if (clash) throw new UsageError(`--${clash} does not go with --config; set it per instrument in the file`);
     const config = await loadConfigFile(resolve(text('config') as string));
     fromFile = config;
@@ -229,12 +254,17 @@ export async function runOptions(values: Values, env: Record<string, string | un
   } else {
     const code = text('instrument');
     const source = text('source');
-    if (!code) throw new UsageError('--instrument CODE is required (or --config FILE)');
-    if (!source) throw new UsageError('--source is required: serial:/dev/ttyUSB0, tcp://host:port or file:PATH');
+    if (!code) throw new UsageError('--instrument CODE is required with --source (or leave both out to take the instruments from the server)');
+    if (!source) throw new UsageError('--source is required: serial:/dev/ttyUSB0, tcp://host:port, tcp-listen://host:port or file:PATH');
     if (!source.startsWith('serial:') && Object.keys(SERIAL_OPTIONS).some((name) => values[name] !== undefined)) {
       throw new UsageError('serial settings (--baud, --parity, …) only apply to a serial: source');
     }
-    instruments = [{ code, source, dialect: dialectOf(values), encoding: encodingOf(values), serial: serialSettingsOf(values) }];
+    if (text('dialect') !== undefined && text('profile') !== undefined) throw new UsageError('--dialect and --profile do not go together');
+    const profilePath = text('profile');
+    const instrument: InstrumentConfig = profilePath
+      ? { code, source, dialect: PROFILE_DIALECT, profile: { key: `file:${profilePath}`, version: 1, definition: await profileFile(profilePath) } }
+      : { code, source, dialect: dialectOf(values) };
+    instruments = [{ ...instrument, encoding: encodingOf(values), serial: serialSettingsOf(values) }];
   }
   const server = text('server') ?? fromFile.server ?? env.BENCHWIRE_SERVER;
   if (!server) throw new UsageError('no server: pass --server URL or set BENCHWIRE_SERVER');
@@ -243,14 +273,16 @@ export async function runOptions(values: Values, env: Record<string, string | un
     token: text('token') ?? fromFile.token ?? env.BENCHWIRE_BRIDGE_TOKEN ?? '',
     spoolDir: resolve(text('spool') ?? fromFile.spoolDir ?? 'bridge-spool'),
     instruments,
+    ...(fromServer ? { configFromServer: true } : {}),
   };
 }
 
 async function parseCommand(args: string[]): Promise<number> {
-  const { values, positionals } = parseFlags(args, { dialect: { type: 'string' }, encoding: { type: 'string' } }, true);
+  const { values, positionals } = parseFlags(args, { dialect: { type: 'string' }, profile: { type: 'string' }, encoding: { type: 'string' } }, true);
   if (positionals.length > 1) throw new UsageError('give one file (or - for stdin)');
+  if (values.dialect !== undefined && values.profile !== undefined) throw new UsageError('--dialect and --profile do not go together');
   const file = positionals[0] ?? '-';
-  const dialect = findDialect(dialectOf(values));
+  const dialect = values.profile !== undefined ? profileDialect(await profileFile(values.profile)) : findDialect(dialectOf(values));
   if (!dialect) return 2;
   const input = file === '-' ? process.stdin : createReadStream(file);
   // A missing file is a bad argument: say so before anything is printed.
@@ -270,8 +302,25 @@ async function parseCommand(args: string[]): Promise<number> {
   return 0;
 }
 
+/** A printout profile from a JSON file: the definition itself, or the server's {key, version, definition}. */
+async function profileFile(path: string): Promise<ProfileDefinition> {
+  let json: unknown;
+  try {
+    json = JSON.parse(await readFile(path, 'utf8'));
+  } catch (error) {
+    throw new UsageError(`cannot read profile ${path}: ${(error as Error).message}`);
+  }
+  const definition = json && typeof json === 'object' && 'definition' in json ? (json as { definition: unknown }).definition : json;
+  const profile = loadProfile(definition);
+  if (!profile.ok) throw new UsageError(`profile ${path}: ${profile.message}`);
+  return profile.definition;
+}
+
+const SIMULATOR_KINDS = ['crp-printer', 'astm-chemistry', 'hl7-hematology'] as const;
+
 async function simulateCommand(args: string[]): Promise<number> {
   const { values } = parseFlags(args, {
+    kind: { type: 'string' },
     seed: { type: 'string' },
     count: { type: 'string' },
     every: { type: 'string' },
@@ -279,42 +328,56 @@ async function simulateCommand(args: string[]): Promise<number> {
     listen: { type: 'string' },
     host: { type: 'string' },
     'wait-for-client': { type: 'boolean' },
+    connect: { type: 'string' },
     serial: { type: 'string' },
     ...SERIAL_OPTIONS,
   });
+  const kind = values.kind ?? 'crp-printer';
+  if (!(SIMULATOR_KINDS as readonly string[]).includes(kind)) throw new UsageError(`--kind must be ${SIMULATOR_KINDS.join(', ')}`);
   if (values.listen !== undefined && values.serial !== undefined) throw new UsageError('--listen and --serial do not go together');
   if (values.serial === undefined && Object.keys(SERIAL_OPTIONS).some((name) => values[name as keyof typeof values] !== undefined)) {
     throw new UsageError('serial settings (--baud, --parity, …) only apply with --serial PATH');
   }
-  const toStdout = values.listen === undefined && values.serial === undefined;
+  if (kind !== 'crp-printer' && (values.serial !== undefined || values['wait-for-client'])) throw new UsageError(`--serial and --wait-for-client are for the crp-printer`);
+  if (kind === 'astm-chemistry' && values.listen === undefined) throw new UsageError('astm-chemistry needs --listen PORT (the bridge connects to it)');
+  if (kind === 'hl7-hematology' && values.connect === undefined) throw new UsageError('hl7-hematology needs --connect HOST:PORT (the bridge listens)');
+  if (kind !== 'hl7-hematology' && values.connect !== undefined) throw new UsageError('--connect is for hl7-hematology');
+  if (kind === 'hl7-hematology' && values.listen !== undefined) throw new UsageError('hl7-hematology connects out; use --connect');
+  const toStdout = values.listen === undefined && values.serial === undefined && values.connect === undefined;
   const every = values.every === undefined ? (toStdout ? 0 : 20) : Number(values.every);
   if (!Number.isFinite(every) || every < 0) throw new UsageError(`--every must be a number of seconds, not "${values.every}"`);
   const seed = integer(values, 'seed', { min: 0, max: 2 ** 32 - 1 }) ?? randomInt(2 ** 32 - 1);
   const count = integer(values, 'count', { min: 1, max: Number.MAX_SAFE_INTEGER }) ?? (toStdout ? 10 : undefined);
   const serialNumber = values['serial-number'];
   if (serialNumber !== undefined && !/^[\x21-\x7e]{1,32}$/.test(serialNumber)) throw new UsageError('--serial-number: 1–32 printable characters, no spaces');
+  const connectTo = values.connect === undefined ? undefined : parseTcpAddress(`tcp://${values.connect}`);
+  if (typeof connectTo === 'string') throw new UsageError(`--connect must be HOST:PORT, not "${values.connect}"`);
 
   const log = streamLog(process.stderr);
   const controller = new AbortController();
   const stop = () => controller.abort();
   process.on('SIGINT', stop);
   process.on('SIGTERM', stop);
-  log.info(`simulator: seed ${seed} (pass --seed ${seed} to print the same slips again)`);
-  const { runSimulator } = await import('./simulator/simulate');
-  await runSimulator({
-    target:
-      values.listen !== undefined
-        ? { kind: 'listen', port: integer(values, 'listen', { min: 0, max: 65535 }) ?? 0, host: values.host, waitForClient: values['wait-for-client'] }
-        : values.serial !== undefined
-          ? { kind: 'serial', path: values.serial, settings: serialSettingsOf(values) }
-          : { kind: 'stdout' },
-    seed,
-    count,
-    everyMs: every * 1000,
-    serialNumber,
-    log,
-    signal: controller.signal,
-  });
+  log.info(`simulator: seed ${seed} (pass --seed ${seed} to send the same results again)`);
+  const common = { seed, count, everyMs: every * 1000, serialNumber, log, signal: controller.signal };
+  if (kind === 'astm-chemistry') {
+    const { runAstmChemistry } = await import('./simulator/astm-chemistry');
+    await runAstmChemistry({ ...common, port: integer(values, 'listen', { min: 0, max: 65535 }) ?? 0, host: values.host });
+  } else if (kind === 'hl7-hematology' && connectTo) {
+    const { runHl7Hematology } = await import('./simulator/hl7-hematology');
+    await runHl7Hematology({ ...common, host: connectTo.host, port: connectTo.port });
+  } else {
+    const { runSimulator } = await import('./simulator/simulate');
+    await runSimulator({
+      ...common,
+      target:
+        values.listen !== undefined
+          ? { kind: 'listen', port: integer(values, 'listen', { min: 0, max: 65535 }) ?? 0, host: values.host, waitForClient: values['wait-for-client'] }
+          : values.serial !== undefined
+            ? { kind: 'serial', path: values.serial, settings: serialSettingsOf(values) }
+            : { kind: 'stdout' },
+    });
+  }
   process.off('SIGINT', stop);
   process.off('SIGTERM', stop);
   return 0;

@@ -117,7 +117,7 @@ async function openPrinter(options: SimulatorOptions, log: Log): Promise<Printer
 }
 
 /** Resolves true after ms, or false as soon as the signal aborts. */
-function pause(ms: number, signal?: AbortSignal): Promise<boolean> {
+export function pause(ms: number, signal?: AbortSignal): Promise<boolean> {
   return new Promise((resolve) => {
     if (signal?.aborted) return resolve(false);
     const timer = setTimeout(() => {
@@ -133,7 +133,7 @@ function pause(ms: number, signal?: AbortSignal): Promise<boolean> {
 }
 
 /** Settles when the signal aborts; never without a signal. */
-function aborted(signal?: AbortSignal): Promise<void> {
+export function aborted(signal?: AbortSignal): Promise<void> {
   return new Promise((resolve) => {
     if (signal?.aborted) return resolve();
     signal?.addEventListener('abort', () => resolve(), { once: true });
