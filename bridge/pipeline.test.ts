@@ -1,4 +1,4 @@
-import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
+import type { ChildProcess } from 'node:child_process';
 import { join } from 'node:path';
 import type { SerialPort } from 'serialport';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -10,6 +10,7 @@ import type { ReconnectingSource } from './sources/reconnecting';
 import { Spool } from './spool';
 import { when } from './testing/events';
 import { tempDir } from './testing/payloads';
+import { startPtyPair, stopPtyPair } from './testing/pty';
 import { keyStore, startTestServer, type TestServer } from './testing/server';
 
 // The whole bridge over a real pseudo-terminal pair (socat) with serialport's real binding: the
@@ -19,35 +20,13 @@ let dir: string;
 let cleanup: () => Promise<void>;
 let socat: ChildProcess | undefined;
 
-/** Starts socat and resolves once both pty ends exist (it says so on stderr with -d -d). */
-function startPtyPair(a: string, b: string): Promise<ChildProcess> {
-  const probe = spawnSync('socat', ['-V']);
-  if (probe.error) {
-    throw new Error(`socat is needed for the pseudo-terminal test and was not found (${probe.error.message}); install it: apt-get install socat`);
-  }
-  const child = spawn('socat', ['-d', '-d', `pty,raw,echo=0,link=${a}`, `pty,raw,echo=0,link=${b}`], { stdio: ['ignore', 'ignore', 'pipe'] });
-  return new Promise((resolve, reject) => {
-    let said = '';
-    child.stderr?.on('data', (chunk: Buffer) => {
-      said += chunk.toString();
-      if (said.includes('starting data transfer loop')) resolve(child);
-    });
-    child.once('error', reject);
-    child.once('exit', (code) => reject(new Error(`socat exited (${code}) before the ptys were ready: ${said}`)));
-  });
-}
-
 beforeAll(async () => {
   ({ dir, cleanup } = await tempDir());
   socat = await startPtyPair(join(dir, 'analyzer'), join(dir, 'lab-pc'));
 });
 
 afterAll(async () => {
-  if (socat && socat.exitCode === null) {
-    const exited = new Promise((resolve) => socat?.once('exit', resolve));
-    socat.kill('SIGTERM');
-    await exited;
-  }
+  await stopPtyPair(socat);
   await cleanup();
 });
 

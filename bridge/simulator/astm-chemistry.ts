@@ -1,4 +1,5 @@
 import { createServer, type Socket } from 'node:net';
+import type { Duplex } from 'node:stream';
 import type { AddressInfo } from 'node:net';
 import { ACK, ENQ, EOT, NAK, SENDER_TIMEOUT_MS, MAX_RETRANSMISSIONS, astmFrames } from '../framing/astm-e1381';
 import { silentLog, type Log } from '../log';
@@ -49,11 +50,11 @@ export function createChemistryAnalyzer(options: { seed: number; serialNumber?: 
 }
 
 /** Reads single reply bytes from the bridge with a timeout. */
-class Replies {
+export class Replies {
   private bytes: number[] = [];
   private waiter: ((byte: number | undefined) => void) | undefined;
 
-  constructor(socket: Socket) {
+  constructor(socket: Duplex) {
     socket.on('data', (chunk: Buffer) => {
       this.bytes.push(...chunk);
       this.wake();
@@ -85,7 +86,7 @@ class Replies {
  * One E1381 session as the sender: ENQ, each frame until ACKed (at most MAX_RETRANSMISSIONS tries), EOT.
  * corruptFrame: that frame goes out once with a wrong checksum first. Resolves with what happened.
  */
-export async function sendSession(socket: Socket, replies: Replies, records: string[], corruptFrame?: number): Promise<string> {
+export async function sendSession(socket: Duplex, replies: Replies, records: string[], corruptFrame?: number): Promise<string> {
   const write = (bytes: Buffer | number[]) => socket.write(Buffer.from(bytes));
   write([ENQ]);
   const answer = await replies.next(SENDER_TIMEOUT_MS);
