@@ -71,7 +71,8 @@ export type ReasonCode =
   | 'not-first-in-line'
   | 'species-validated'
   | 'species-not-validated'
-  | 'no-order';
+  | 'no-order'
+  | 'another-reading-fits';
 
 export interface Reason {
   code: ReasonCode;
@@ -110,6 +111,7 @@ export const POINTS = {
   notFirstInLine: -30,
   speciesValidated: 5,
   speciesNotValidated: -25,
+  anotherReadingFits: -45,
 } as const;
 
 const sameId = (a: string | null | undefined, b: string | null | undefined) =>
@@ -281,28 +283,86 @@ export function rankCandidates(input: MatchInput): Candidate[] {
     });
   }
 
-  const startedAt = new Map(eligible.map((o) => [o.id, o.startedAt.getTime()]));
-  // An ID printed on the reading is direct evidence; timing and instrument are circumstantial. So
-  // candidates named by an ID come first, and their contrary reasons are shown beside them.
-  const exact = (c: (typeof candidates)[number]) => c.reasons.some((r) => r.code === 'sample-id-match' || r.code === 'record-id-match');
-  candidates.sort(
+  return finish(candidates, new Map(eligible.map((o) => [o.id, o.startedAt.getTime()])));
+}
+
+// An ID printed on the reading is direct evidence; timing and instrument are circumstantial. So
+// candidates named by an ID come first, and their contrary reasons are shown beside them.
+const isExact = (c: Pick<Candidate, 'reasons'>) => c.reasons.some((r) => r.code === 'sample-id-match' || r.code === 'record-id-match');
+
+/** Sorts, marks ties and grades candidates; used again after readings competing for one run are weighed. */
+function finish(candidates: Omit<Candidate, 'tiedWith' | 'strength'>[], startedAt: Map<string, number>): Candidate[] {
+  const sorted = [...candidates].sort(
     (a, b) =>
-      Number(exact(b)) - Number(exact(a)) ||
+      Number(isExact(b)) - Number(isExact(a)) ||
       b.score - a.score ||
       (startedAt.get(a.orderId ?? '') ?? Infinity) - (startedAt.get(b.orderId ?? '') ?? Infinity) ||
       a.recordNumber.localeCompare(b.recordNumber),
   );
-  return candidates.map((c) => ({
+  return sorted.map((c) => ({
     ...c,
-    tiedWith: candidates.filter((o) => o !== c && o.score === c.score && exact(o) === exact(c)).length,
-    strength: exact(c)
-      ? 'exact'
-      : c.score >= 60
-        ? 'strong'
-        : c.score >= 20
-          ? 'possible'
-          : 'weak',
+    tiedWith: sorted.filter((o) => o !== c && o.score === c.score && isExact(o) === isExact(c)).length,
+    strength: isExact(c) ? 'exact' : c.score >= 60 ? 'strong' : c.score >= 20 ? 'possible' : 'weak',
   }));
+}
+
+/**
+ * Ranks several waiting readings together. One run gives one reading, so when more than one waiting
+ * reading fits the same run, only the one the evidence favours most keeps it at full weight (an exact ID,
+ * else the arrival nearest the due time, else the earlier arrival); the others say so and drop.
+ */
+export function rankWaitingReadings(
+  readings: MatchReading[],
+  context: Omit<MatchInput, 'reading'>,
+): Map<string, Candidate[]> {
+  const ranked = new Map(readings.map((reading) => [reading.id, rankCandidates({ ...context, reading })]));
+  const byId = new Map(readings.map((r) => [r.id, r]));
+  const orders = new Map(context.orders.map((o) => [o.id, o]));
+  const clock = clockIn(context.timeZone);
+  const claims = new Map<string, { readingId: string; candidate: Candidate }[]>();
+  for (const [readingId, candidates] of ranked) {
+    for (const candidate of candidates) {
+      if (!candidate.orderId || candidate.reasons.some((r) => r.code === 'too-early')) continue;
+      const list = claims.get(candidate.orderId) ?? [];
+      list.push({ readingId, candidate });
+      claims.set(candidate.orderId, list);
+    }
+  }
+  const penalised = new Map<string, Map<string, Reason>>();
+  for (const [orderId, list] of claims) {
+    if (list.length < 2) continue;
+    const order = orders.get(orderId)!;
+    const offBy = (id: string) => Math.abs(byId.get(id)!.arrivedAt.getTime() - order.dueAt.getTime());
+    const best = [...list].sort(
+      (a, b) =>
+        Number(isExact(b.candidate)) - Number(isExact(a.candidate)) ||
+        offBy(a.readingId) - offBy(b.readingId) ||
+        byId.get(a.readingId)!.arrivedAt.getTime() - byId.get(b.readingId)!.arrivedAt.getTime(),
+    )[0];
+    const winner = byId.get(best.readingId)!;
+    for (const { readingId, candidate } of list) {
+      if (readingId === best.readingId || isExact(candidate)) continue;
+      const reason: Reason = {
+        code: 'another-reading-fits',
+        points: POINTS.anotherReadingFits,
+        text: isExact(best.candidate)
+          ? `Another waiting reading (${clock(winner.arrivedAt)}) carries this run's ID; one run gives one reading.`
+          : `Another waiting reading arrived nearer this run's due time (${clock(winner.arrivedAt)}); one run gives one reading.`,
+      };
+      const forReading = penalised.get(readingId) ?? new Map<string, Reason>();
+      forReading.set(orderId, reason);
+      penalised.set(readingId, forReading);
+    }
+  }
+  const startedAt = new Map(context.orders.map((o) => [o.id, o.startedAt.getTime()]));
+  for (const [readingId, byOrder] of penalised) {
+    const adjusted = ranked.get(readingId)!.map((c) => {
+      const reason = c.orderId ? byOrder.get(c.orderId) : undefined;
+      return reason ? { ...c, reasons: [...c.reasons, reason], score: c.score + reason.points } : c;
+    });
+    ranked.set(readingId, finish(adjusted, startedAt));
+  }
+  return ranked;
 }
 
 export interface AutoAssignTarget {

@@ -4,7 +4,7 @@ import { db, type Executor, type Tx } from '@/db/client';
 import { analyteSettings, clinics, instruments, labOrders, patients, readings, runProtocols, type Bridge, type Reading } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { clinicalSettings } from '@/lib/clinical/config';
-import { autoAssignTarget, rankCandidates, type Candidate, type MatchInput } from '@/lib/clinical/matching';
+import { autoAssignTarget, rankWaitingReadings, type Candidate, type MatchInput } from '@/lib/clinical/matching';
 import { ApiError, notFound } from '@/lib/http';
 import { loadPatientForPlacement, placeReading } from './placement';
 
@@ -60,7 +60,7 @@ function inputFor(reading: Parameters<typeof toMatchReading>[0], context: Awaite
   return { reading: toMatchReading(reading), ...context };
 }
 
-/** Ranked candidates for one unassigned reading, with reasons. */
+/** Ranked candidates for one unassigned reading, weighed against the other waiting readings. */
 export async function suggestionsFor(
   actor: Actor,
   readingId: string,
@@ -71,28 +71,35 @@ export async function suggestionsFor(
     .from(readings)
     .where(and(eq(readings.id, readingId), eq(readings.clinicId, actor.clinicId)));
   if (!reading) throw notFound('The reading');
-  const context = await matchContext(database, actor.clinicId, [reading.analyte], [reading.sampleId, reading.patientRef].filter((x): x is string => !!x));
-  const analyte = context.analytes.find((a) => a.code === reading.analyte) ?? null;
-  if (reading.status !== 'unassigned') return { readingId, candidates: [], analyte };
-  return { readingId, candidates: rankCandidates(inputFor(reading, context)), analyte };
+  if (reading.status !== 'unassigned') {
+    const context = await matchContext(database, actor.clinicId, [reading.analyte], []);
+    return { readingId, candidates: [], analyte: context.analytes.find((a) => a.code === reading.analyte) ?? null };
+  }
+  const { ranked, context } = await rankWaiting(actor.clinicId, [reading.analyte]);
+  const analyte = context?.analytes.find((a) => a.code === reading.analyte) ?? null;
+  return { readingId, candidates: ranked.get(readingId) ?? [], analyte };
+}
+
+/** Every waiting reading of these analytes (all when none given), ranked together. */
+async function rankWaiting(clinicId: string, analytes?: string[]) {
+  const database = await db();
+  const conditions = [eq(readings.clinicId, clinicId), eq(readings.status, 'unassigned')];
+  if (analytes) conditions.push(inArray(readings.analyte, analytes));
+  const waiting = await database.select().from(readings).where(and(...conditions)).limit(200);
+  if (!waiting.length) return { ranked: new Map<string, Candidate[]>(), context: null };
+  const context = await matchContext(
+    database,
+    clinicId,
+    [...new Set(waiting.map((r) => r.analyte))],
+    waiting.flatMap((r) => [r.sampleId, r.patientRef]).filter((x): x is string => !!x),
+  );
+  return { ranked: rankWaitingReadings(waiting.map(toMatchReading), context), context };
 }
 
 /** The top few candidates for every unassigned reading, for the Intake board in one request. */
 export async function suggestionsForUnassigned(actor: Actor, perReading = 3) {
-  const database = await db();
-  const waiting = await database
-    .select()
-    .from(readings)
-    .where(and(eq(readings.clinicId, actor.clinicId), eq(readings.status, 'unassigned')))
-    .limit(200);
-  if (!waiting.length) return {};
-  const context = await matchContext(
-    database,
-    actor.clinicId,
-    [...new Set(waiting.map((r) => r.analyte))],
-    waiting.flatMap((r) => [r.sampleId, r.patientRef]).filter((x): x is string => !!x),
-  );
-  return Object.fromEntries(waiting.map((r) => [r.id, rankCandidates(inputFor(r, context)).slice(0, perReading)]));
+  const { ranked } = await rankWaiting(actor.clinicId);
+  return Object.fromEntries([...ranked].map(([id, candidates]) => [id, candidates.slice(0, perReading)]));
 }
 
 /**
