@@ -83,7 +83,7 @@ async function main() {
   if (!fs.existsSync(tokenFile)) {
     console.warn('[start] no demo bridge token in the data dir (not a demo database?); the simulated analyzer is not started.');
   } else {
-    run('simulated analyzer', bin('tsx'), ['bridge/cli.ts', 'simulate', '--listen', String(analyzerPort), '--every', '20']);
+    run('simulated analyzer', bin('tsx'), ['bridge/cli.ts', 'simulate', '--listen', String(analyzerPort), '--every', '45', '--wait-for-client']);
     run('bridge', bin('tsx'), [
       'bridge/cli.ts', 'run',
       '--server', `http://127.0.0.1:${port}`,
