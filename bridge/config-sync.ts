@@ -113,6 +113,7 @@ export class ConfigSync extends EventEmitter<ConfigSyncEvents> {
   private etag: string | undefined;
   private timer: NodeJS.Timeout | undefined;
   private inFlight: Promise<void> | undefined;
+  private waiting = 0;
   private failing = false;
   private stopped = false;
   private readonly controller = new AbortController();
@@ -143,12 +144,16 @@ export class ConfigSync extends EventEmitter<ConfigSyncEvents> {
     await this.inFlight;
   }
 
-  /** One poll now (also what the timer runs). */
+  /** A poll after any under way (also what the timer runs); at most one waits behind the current one. */
   poll(): Promise<void> {
-    this.inFlight ??= this.fetchOnce().finally(() => {
-      this.inFlight = undefined;
+    if (this.waiting > 1 && this.inFlight) return this.inFlight;
+    this.waiting++;
+    const run = (this.inFlight ?? Promise.resolve()).then(() => this.fetchOnce()).finally(() => {
+      this.waiting--;
+      if (this.inFlight === run) this.inFlight = undefined;
     });
-    return this.inFlight;
+    this.inFlight = run;
+    return run;
   }
 
   private async fetchOnce(): Promise<void> {

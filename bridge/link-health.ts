@@ -72,7 +72,7 @@ export class LinkHealth {
   status(): { warnings: string[]; bytesReceived: number; lastByteAt?: string } {
     const warnings: string[] = [];
     const share = this.unreadableShare();
-    if (share !== undefined && share >= (this.options.threshold ?? 0.3)) {
+    if (share !== undefined && share >= (this.options.threshold ?? 0.2)) {
       warnings.push(`looks like the wrong baud rate or parity (${Math.round(share * 100)}% unreadable bytes)`);
     }
     const since = this.now().getTime() - (this.options.problemMs ?? 15 * 60_000);

@@ -34,8 +34,13 @@ export function openTcpServerSource(options: TcpServerSourceOptions): Reconnecti
       return;
     }
     queued.push(socket);
-    // The newer connection wins; closing the old one makes the source take the queued one.
-    if (active && !active.destroyed) active.destroy();
+    // The newer connection wins. The old one is ended, not destroyed, so bytes it already sent are
+    // still read; one that does not close (a dead peer) is dropped after a while.
+    const old = active;
+    if (old && !old.destroyed) {
+      old.end();
+      setTimeout(() => old.destroy(), 5_000).unref();
+    }
   };
 
   const listen = () =>

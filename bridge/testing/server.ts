@@ -11,7 +11,7 @@ export interface Request {
 }
 
 /** 'hang-up' drops the connection without an answer, as a server killed mid-request would. */
-export type Reply = { status: number; body?: unknown } | 'hang-up';
+export type Reply = { status: number; body?: unknown; headers?: Record<string, string> } | 'hang-up';
 
 export interface TestServer {
   url: string;
@@ -34,7 +34,7 @@ export async function startTestServer(handle: (request: Request) => Reply | Prom
         req.socket.destroy();
         return;
       }
-      res.writeHead(reply.status, { 'content-type': 'application/json' });
+      res.writeHead(reply.status, { 'content-type': 'application/json', ...reply.headers });
       res.end(reply.body === undefined ? '' : JSON.stringify(reply.body));
     });
   });

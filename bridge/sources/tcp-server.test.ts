@@ -1,0 +1,74 @@
+import { connect, type Socket } from 'node:net';
+import { afterEach, beforeEach, describe, expect, it } from 'vitest';
+import { plainPrintout } from '../dialects/plain-printout';
+import { startInstrument } from '../pipeline';
+import { Spool } from '../spool';
+import { spooled } from '../testing/events';
+import { tempDir } from '../testing/payloads';
+import { freePort } from '../testing/server';
+import { openTcpServerSource } from './tcp-server';
+
+// An analyzer that connects out to the bridge: the bridge listens; the rules for a second connection are ours.
+
+const slip = (value: string) => ['---- RESULT ----', 'TEST      cCRP', `RESULT    ${value} mg/L`, '---- END ----', ''].join('\r\n');
+
+let dir: string;
+let cleanup: () => Promise<void>;
+let spool: Spool;
+
+beforeEach(async () => {
+  ({ dir, cleanup } = await tempDir());
+  spool = await Spool.open(dir);
+});
+afterEach(async () => {
+  await spool.close();
+  await cleanup();
+});
+
+async function dial(port: number): Promise<Socket> {
+  for (;;) {
+    const socket = await new Promise<Socket | undefined>((resolve) => {
+      const s = connect({ host: '127.0.0.1', port });
+      s.once('connect', () => resolve(s));
+      s.once('error', () => resolve(undefined));
+    });
+    if (socket) return socket;
+    await new Promise((resolve) => setTimeout(resolve, 20));
+  }
+}
+
+describe('tcp-listen source', () => {
+  it('reads the analyzer that connects, again after it reconnects, and answers on its socket', async () => {
+    const port = await freePort();
+    const source = openTcpServerSource({ instrument: 'hema', host: '127.0.0.1', port, retry: { initialMs: 5, maxMs: 20 } });
+    const instrument = startInstrument({ code: 'hema', dialect: plainPrintout, source, spool });
+    const first = await dial(port);
+    first.end(slip('1.5'));
+    const second = await dial(port);
+    second.write(slip('2.5'));
+    const values = (await spooled(spool, 2)).map((r) => (r.payload.kind === 'reading' ? r.payload.value : null));
+    expect(values).toEqual([1.5, 2.5]);
+    const answered = new Promise<string>((resolve) => second.once('data', (chunk: Buffer) => resolve(chunk.toString())));
+    expect(source.write(Buffer.from('ACK'))).toBe(true);
+    expect(await answered).toBe('ACK');
+    await instrument.stop();
+    expect(source.state().state).toBe('closed');
+    second.destroy();
+  });
+
+  it('lets a new connection replace the old one', async () => {
+    const port = await freePort();
+    const source = openTcpServerSource({ instrument: 'hema', host: '127.0.0.1', port, retry: { initialMs: 5, maxMs: 20 } });
+    const instrument = startInstrument({ code: 'hema', dialect: plainPrintout, source, spool });
+    const old = await dial(port);
+    const oldClosed = new Promise((resolve) => old.once('close', resolve));
+    old.write(slip('3.5'));
+    await spooled(spool, 1);
+    const fresh = await dial(port);
+    await oldClosed;
+    fresh.write(slip('4.5'));
+    expect((await spooled(spool, 2)).map((r) => (r.payload.kind === 'reading' ? r.payload.value : null))).toEqual([3.5, 4.5]);
+    await instrument.stop();
+    fresh.destroy();
+  });
+});
