@@ -1,5 +1,5 @@
 import { spawn } from 'node:child_process';
-import { readFile } from 'node:fs/promises';
+import { readFile, writeFile } from 'node:fs/promises';
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { bridgeBatchSchema } from '../lib/validation/readings';
@@ -8,6 +8,7 @@ import { UsageError } from './config';
 import { createReader } from './simulator/printouts';
 import { runSimulator } from './simulator/simulate';
 import { Spool } from './spool';
+import { testSession } from './testing/astm';
 import { tempDir } from './testing/payloads';
 import { keyStore, startTestServer, type TestServer } from './testing/server';
 
@@ -72,6 +73,42 @@ describe('bridge cli parse', () => {
   });
 });
 
+describe('bridge cli parse for every dialect', () => {
+  let dir: string;
+  let cleanup: () => Promise<void>;
+  beforeEach(async () => {
+    ({ dir, cleanup } = await tempDir());
+  });
+  afterEach(() => cleanup());
+
+  // Inputs built from the standards (bridge/testing/astm.ts for E1381 frames, HL7 v2.5 segments) and our profile format.
+  it('prints readings and fragments for ASTM, HL7 and a printout profile', async () => {
+    const astm = join(dir, 'chem.bin');
+    await writeFile(astm, testSession(['H|\\^&|||SIM^1^SN-7', 'O|1|S-1', 'R|1|^^^GLU|5.2|mmol/L||N||F', 'L|1|N']));
+    const hl7 = Buffer.concat([Buffer.from([0x0b]), Buffer.from('MSH|^~\\&|A|B|||20261201140500||ORU^R01|M1|P|2.5\rOBR|1||S-2\rOBX|1|NM|WBC||12.4|10*9/L\r'), Buffer.from([0x1c, 0x0d])]);
+    const profile = join(dir, 'profile.json');
+    await writeFile(profile, JSON.stringify({ key: 'k', version: 1, definition: { analyzer: 'Invented', record: { end: '^END$' }, fields: [{ label: 'v', pattern: '^SDMA (?<value>\\d+)$' }], analyte: 'SDMA', unit: 'ug/dL' } }));
+    const badProfile = join(dir, 'bad.json');
+    await writeFile(badProfile, JSON.stringify({ analyzer: 'x', record: {}, fields: [] }));
+    const [a, h, p, bad] = await Promise.all([
+      cli(['parse', '--dialect', 'astm-e1394', astm]).finished,
+      cli(['parse', '--dialect', 'hl7v2', '-'], { input: hl7.toString('latin1') }).finished,
+      cli(['parse', '--profile', profile, '-'], { input: 'SDMA 14\nEND\nnoise\n' }).finished,
+      cli(['parse', '--profile', badProfile, '-']).finished,
+    ]);
+    const lines = (run: Run) => run.stdout.trim().split('\n').map((line) => JSON.parse(line));
+    expect(a.status).toBe(0);
+    expect(lines(a)).toEqual([expect.objectContaining({ kind: 'reading', analyte: 'GLU', value: 5.2, sampleId: 'S-1', instrumentSerial: 'SN-7' })]);
+    expect(lines(h)).toEqual([expect.objectContaining({ kind: 'reading', analyte: 'WBC', value: 12.4, sampleId: 'S-2' })]);
+    expect(lines(p)).toEqual([
+      expect.objectContaining({ kind: 'reading', analyte: 'SDMA', value: 14, unit: 'ug/dL', raw: 'SDMA 14\nEND\n' }),
+      { kind: 'unparsed', raw: 'noise\n', reason: 'record cut short: input ended before the end line' },
+    ]);
+    expect(bad.status).toBe(2);
+    expect(bad.stderr).toMatch(/profile .*bad\.json: record: Say how a record is told apart/);
+  });
+});
+
 describe('bridge cli run options', () => {
   const env = { BENCHWIRE_SERVER: 'http://127.0.0.1:3000', BENCHWIRE_BRIDGE_TOKEN: 'bwb_env' };
 
@@ -86,6 +123,11 @@ describe('bridge cli run options', () => {
       spoolDir: '/tmp/s',
       instruments: [{ code: 'crp-reader', source: 'serial:/dev/ttyUSB0', dialect: 'plain-printout', encoding: undefined, serial: { baudRate: 19200, parity: 'even', dataBits: 7 } }],
     });
+  });
+
+  it('takes the instruments from the server when none are given', async () => {
+    expect(await runOptions({ spool: '/tmp/s' }, env)).toEqual({ server: 'http://127.0.0.1:3000', token: 'bwb_env', spoolDir: '/tmp/s', instruments: [], configFromServer: true });
+    await expect(runOptions({ 'config-from-server': true, dialect: 'hl7v2' }, env)).rejects.toThrow(/--dialect does not go with --config-from-server/);
   });
 
   it('refuses settings that cannot work', async () => {

@@ -239,13 +239,16 @@ describe('Uploader', () => {
     expect(kept.record).toEqual(big);
   });
 
-  it('sends a heartbeat with spool depth and source states', async () => {
+  it('sends a heartbeat with spool depth, source states and link health', async () => {
     await spoolReadings(2);
     const server = await startTestServer(() => ({ status: 503 }));
     servers.push(server);
     const uploader = upload(server.url, {
       bridgeVersion: '0.1.0',
-      sources: () => [{ instrument: 'crp-reader', state: 'connecting', detail: 'tcp://127.0.0.1:4001' }],
+      sources: () => [
+        { instrument: 'crp-reader', state: 'connecting', detail: 'tcp://127.0.0.1:4001' },
+        { instrument: 'chem', state: 'open', warnings: ['looks like the wrong baud rate or parity (64% unreadable bytes)'], bytesReceived: 4096, lastByteAt: '2026-12-01T14:03:22+01:00' },
+      ],
     });
     const [beat] = await Promise.all([when(uploader, 'heartbeat'), uploader.start()]);
     expect(beat[0]).toEqual({ ok: false, status: 503 });
@@ -253,7 +256,10 @@ describe('Uploader', () => {
     expect(bridgeHeartbeatSchema.parse(heartbeat?.body)).toEqual({
       bridgeVersion: '0.1.0',
       spoolDepth: 2,
-      sources: [{ instrument: 'crp-reader', state: 'connecting', detail: 'tcp://127.0.0.1:4001' }],
+      sources: [
+        { instrument: 'crp-reader', state: 'connecting', detail: 'tcp://127.0.0.1:4001' },
+        { instrument: 'chem', state: 'open', warnings: ['looks like the wrong baud rate or parity (64% unreadable bytes)'], bytesReceived: 4096, lastByteAt: '2026-12-01T14:03:22+01:00' },
+      ],
     });
   });
 

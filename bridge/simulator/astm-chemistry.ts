@@ -126,8 +126,8 @@ export interface ChemistryOptions {
   log?: Log;
   signal?: AbortSignal;
   onReady?: (info: { port: number }) => void;
-  /** Corrupt frames now and then (default on). */
-  corrupt?: boolean;
+  /** Corrupt a frame of about one message in six (default), of every message, or never. */
+  corrupt?: boolean | 'every message';
 }
 
 /** Listens; while the bridge is connected, sends a run every everyMs. */
@@ -162,7 +162,8 @@ export async function runAstmChemistry(options: ChemistryOptions): Promise<void>
       const current = client;
       if (!current || options.signal?.aborted) continue;
       const message = analyzer.next();
-      const corrupt = options.corrupt !== false && analyzer.corruptNext() ? analyzer.pickFrame(message.records.length) : undefined;
+      const corrupting = options.corrupt === 'every message' || (options.corrupt !== false && analyzer.corruptNext());
+      const corrupt = corrupting ? analyzer.pickFrame(message.records.length) : undefined;
       const outcome = await sendSession(current.socket, current.replies, message.records, corrupt);
       log.info(`chemistry simulator: sample ${message.sampleId} (${message.species}, ${message.results.map((r) => `${r.code} ${r.value}`).join(', ')}): ${outcome}`);
       sent++;
