@@ -43,6 +43,11 @@ function pad(value: number, width = 2): string {
   return String(value).padStart(width, '0');
 }
 
+/** A moment as YYYYMMDDHHMMSS in local time, as ASTM E1394 and HL7 v2 write it. */
+export function compactStamp(moment: Date): string {
+  return `${pad(moment.getFullYear(), 4)}${pad(moment.getMonth() + 1)}${pad(moment.getDate())}${pad(moment.getHours())}${pad(moment.getMinutes())}${pad(moment.getSeconds())}`;
+}
+
 const COMPACT = /^(\d{4})(\d{2})(\d{2})(?:(\d{2})(\d{2})(\d{2})?)?(?:\.\d{1,4})?([+-]\d{4})?$/;
 
 export type CompactTimestamp = { ok: true; iso: string | null } | { ok: false; problem: string };

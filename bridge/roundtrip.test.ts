@@ -1,6 +1,5 @@
 import type { ChildProcess } from 'node:child_process';
 import { readFile } from 'node:fs/promises';
-import { connect, type Socket } from 'node:net';
 import { join } from 'node:path';
 import type { SerialPort } from 'serialport';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
@@ -13,7 +12,7 @@ import { C, named, testFrame } from './testing/astm';
 import { when } from './testing/events';
 import { tempDir } from './testing/payloads';
 import { closePort, openAnalyzerEnd, startPtyPair, stopPtyPair } from './testing/pty';
-import { freePort, keyStore, startTestServer, type TestServer } from './testing/server';
+import { dialWhenListening, freePort, keyStore, startTestServer, type TestServer } from './testing/server';
 
 // Whole-bridge round trips over real links: a socat pseudo-terminal pair with serialport's real
 // binding (ASTM E1381/E1394 and a profile-read printout), and MLLP over a loopback TCP socket.
@@ -138,22 +137,10 @@ describe('a profile-defined printout over a real pseudo-terminal pair', () => {
 });
 
 describe('HL7 v2 over MLLP on a loopback TCP socket', () => {
-  async function connectWhenListening(port: number): Promise<Socket> {
-    for (;;) {
-      const socket = await new Promise<Socket | undefined>((resolve) => {
-        const s = connect({ host: '127.0.0.1', port });
-        s.once('connect', () => resolve(s));
-        s.once('error', () => resolve(undefined));
-      });
-      if (socket) return socket;
-      await new Promise((resolve) => setTimeout(resolve, 20));
-    }
-  }
-
   it('acknowledges each message with AA and MSA-2 = MSH-10, and posts its readings', async () => {
     const port = await freePort();
     const running = await bridgeOn({ code: 'hema-analyzer', dialect: 'hl7v2', source: `tcp-listen://127.0.0.1:${port}` });
-    const socket = await connectWhenListening(port);
+    const socket = await dialWhenListening(port);
     const cutter = new MllpCutter();
     const acks: string[][] = [];
     let gotAck: () => void = () => {};

@@ -1,8 +1,9 @@
 import fc from 'fast-check';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import type { ParserOutput } from '../../lib/validation/readings';
 import { createParsingStages } from '../parse-stage';
 import { C, named, testFrame, testSession } from '../testing/astm';
+import { pinTimeZone } from '../testing/time-zone';
 import { runThrough, splitAt } from '../testing/streams';
 import { astmE1394, delimitersOf, unescape } from './astm-e1394';
 import { getDialect } from './index';
@@ -26,14 +27,7 @@ const L = record(['L', '1', 'N']);
 
 const parse = (chunks: ReadonlyArray<Buffer | string>) => runThrough<ParserOutput>(chunks, createParsingStages(astmE1394, { idle: false }));
 
-const timeZoneBefore = process.env.TZ;
-beforeAll(() => {
-  process.env.TZ = 'Europe/Berlin';
-});
-afterAll(() => {
-  if (timeZoneBefore === undefined) delete process.env.TZ;
-  else process.env.TZ = timeZoneBefore;
-});
+pinTimeZone('Europe/Berlin');
 
 describe('ASTM E1394 dialect', () => {
   it('is registered by name', () => {

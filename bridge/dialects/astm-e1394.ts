@@ -4,7 +4,7 @@ import { ASTM_CONTROL_BYTES, AstmLinkStage, type AstmLinkOutput } from '../frami
 import type { Line } from '../framing/lines';
 import { rawOf, type FramerOutput, type RecordFrame } from '../framing/records';
 import { fragment } from '../fragments';
-import { compactTimestamp } from '../local-time';
+import { compactStamp, compactTimestamp } from '../local-time';
 import type { Dialect } from './dialect';
 
 // ASTM E1394 / CLSI LIS2-A2 record layer, from our reading of the standard (field numbers from memory).
@@ -287,9 +287,7 @@ export class AstmMessageAssembler extends Transform {
 /** Our answer to a host query: nothing to report (L.3 = I, no information available, from memory). */
 export function noInformationAnswer(query: AstmRecord, now: Date): string[] {
   const d = query.delimiters;
-  const stamp = [now.getFullYear(), now.getMonth() + 1, now.getDate(), now.getHours(), now.getMinutes(), now.getSeconds()]
-    .map((n, i) => String(n).padStart(i === 0 ? 4 : 2, '0'))
-    .join('');
+  const stamp = compactStamp(now);
   const receiver = query.rawField(5);
   const header = ['H', `${d.repeat}${d.component}${d.escape}`, '', '', 'Benchwire', '', '', '', '', receiver, '', 'P', 'LIS2-A2', stamp];
   return [`H${d.field}${header.slice(1).join(d.field)}`, ['L', '1', 'I'].join(d.field)];

@@ -1,9 +1,10 @@
 import fc from 'fast-check';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import type { ParserOutput } from '../../lib/validation/readings';
 import { MllpCutter } from '../framing/mllp';
 import type { RecordFrame } from '../framing/records';
 import { createParsingStages } from '../parse-stage';
+import { pinTimeZone } from '../testing/time-zone';
 import { runThrough, splitAt } from '../testing/streams';
 import { acknowledgment, hl7v2, parseOru } from './hl7v2';
 import { getDialect } from './index';
@@ -32,14 +33,7 @@ const frameOf = (segments: string[]): RecordFrame => {
   return frame;
 };
 
-const timeZoneBefore = process.env.TZ;
-beforeAll(() => {
-  process.env.TZ = 'Europe/Berlin';
-});
-afterAll(() => {
-  if (timeZoneBefore === undefined) delete process.env.TZ;
-  else process.env.TZ = timeZoneBefore;
-});
+pinTimeZone('Europe/Berlin');
 
 describe('HL7 v2 dialect', () => {
   it('is registered by name', () => {

@@ -3,7 +3,7 @@ import type { Line } from '../framing/lines';
 import { MLLP_CONTROL_BYTES, MllpFramer, mllpWrap } from '../framing/mllp';
 import { rawOf, type RecordFrame } from '../framing/records';
 import { fragment } from '../fragments';
-import { compactTimestamp } from '../local-time';
+import { compactStamp, compactTimestamp } from '../local-time';
 import type { AnswerContext, Dialect } from './dialect';
 
 // HL7 v2.x ORU^R01 (observation result), from our reading of HL7 v2 chapters 2 and 7 (from memory).
@@ -191,12 +191,6 @@ function readObservation(obx: Segment, context: { pid?: Segment; obr?: Segment; 
   return fail(`does not fit the contract: ${issue?.path.join('.')} ${issue?.message}`);
 }
 
-function hl7Timestamp(now: Date): string {
-  return [now.getFullYear(), now.getMonth() + 1, now.getDate(), now.getHours(), now.getMinutes(), now.getSeconds()]
-    .map((n, i) => String(n).padStart(i === 0 ? 4 : 2, '0'))
-    .join('');
-}
-
 function escapeHl7(text: string, e: Encoding): string {
   const map: Record<string, string> = { [e.escape]: 'E', [e.field]: 'F', [e.component]: 'S', [e.repetition]: 'R', [e.subcomponent]: 'T' };
   return [...text].map((ch) => (map[ch] ? `${e.escape}${map[ch]}${e.escape}` : ch)).join('');
@@ -229,10 +223,10 @@ export function acknowledgment(frame: RecordFrame, outputs: readonly ParserOutpu
     '',
     msh?.raw(3) ?? '',
     msh?.raw(4) ?? '',
-    hl7Timestamp(context.now),
+    compactStamp(context.now),
     '',
     `ACK${e.component}${msh?.get(9, 2) || 'R01'}${e.component}ACK`,
-    `BW${hl7Timestamp(context.now)}${String(context.sequence).padStart(4, '0')}`,
+    `BW${compactStamp(context.now)}${String(context.sequence).padStart(4, '0')}`,
     msh?.raw(11) || 'P',
     msh?.raw(12) || '2.5',
   ];

@@ -1,8 +1,9 @@
 import { readFileSync } from 'node:fs';
 import fc from 'fast-check';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { parserOutputSchema, type ParsedReading, type ParserOutput } from '../../lib/validation/readings';
 import { createParsingStages } from '../parse-stage';
+import { pinTimeZone } from '../testing/time-zone';
 import { everyTwoPieceSplit, runThrough, splitAt, withTimeZone } from '../testing/streams';
 import { dialectNames, getDialect } from './index';
 import { plainPrintout } from './plain-printout';
@@ -40,14 +41,7 @@ async function reasonOf(text: string): Promise<string> {
   return out.reason;
 }
 
-const timeZoneBefore = process.env.TZ;
-beforeAll(() => {
-  process.env.TZ = 'Europe/Berlin';
-});
-afterAll(() => {
-  if (timeZoneBefore === undefined) delete process.env.TZ;
-  else process.env.TZ = timeZoneBefore;
-});
+pinTimeZone('Europe/Berlin');
 
 describe('plain-printout dialect', () => {
   it('is registered by name', () => {

@@ -1,8 +1,9 @@
 import fc from 'fast-check';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { profileDefinitionSchema, type ProfileDefinitionInput } from '../../lib/validation/profile';
 import type { ParserOutput } from '../../lib/validation/readings';
 import { createParsingStages } from '../parse-stage';
+import { pinTimeZone } from '../testing/time-zone';
 import { runThrough, splitAt } from '../testing/streams';
 import { loadProfile, previewProfile, profileDialect } from './profile';
 
@@ -35,14 +36,7 @@ const printout = [
   '',
 ].join('\r\n');
 
-const timeZoneBefore = process.env.TZ;
-beforeAll(() => {
-  process.env.TZ = 'Europe/Berlin';
-});
-afterAll(() => {
-  if (timeZoneBefore === undefined) delete process.env.TZ;
-  else process.env.TZ = timeZoneBefore;
-});
+pinTimeZone('Europe/Berlin');
 
 describe('previewProfile', () => {
   it('reads one reading per repeating result line, with the record\'s own fields', () => {

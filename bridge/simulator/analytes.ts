@@ -57,11 +57,4 @@ export function simulateResult(test: TestDefinition, species: Species, random: (
   return { code: test.code, unit: test.unit, value: text, range: [low, high], flag };
 }
 
-/** YYYYMMDDHHMMSS in local time, as ASTM E1394 and HL7 v2 write it. */
-export function compactStamp(now: Date): string {
-  return [now.getFullYear(), now.getMonth() + 1, now.getDate(), now.getHours(), now.getMinutes(), now.getSeconds()]
-    .map((n, i) => String(n).padStart(i === 0 ? 4 : 2, '0'))
-    .join('');
-}
-
 export const SIMULATOR_ENCODING: LineEncoding = 'latin1';

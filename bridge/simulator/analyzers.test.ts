@@ -35,7 +35,7 @@ describe('simulated chemistry analyzer', () => {
     const analyzer = createChemistryAnalyzer({ seed: 9, clock: () => new Date(2026, 11, 1, 14, 3, 22) });
     for (let n = 0; n < 50; n++) {
       const message = analyzer.next();
-      const parsed = astmE1394.parse({ kind: 'record', raw: '', lines: message.records.map((text) => ({ text, raw: `${text}\r`, overlong: false })) });
+      const parsed = [astmE1394.parse({ kind: 'record', raw: '', lines: message.records.map((text) => ({ text, raw: `${text}\r`, overlong: false })) })].flat();
       const asSent = message.results.map((r) => {
         const [, comparator, value] = /^([<>]?)(.*)$/.exec(r.value) ?? [];
         return `${r.code} ${comparator}${Number(value)} ${r.unit} ${r.flag}`;

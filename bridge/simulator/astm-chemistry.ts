@@ -2,10 +2,11 @@ import { createServer, type Socket } from 'node:net';
 import type { Duplex } from 'node:stream';
 import type { AddressInfo } from 'node:net';
 import { ACK, ENQ, EOT, NAK, SENDER_TIMEOUT_MS, MAX_RETRANSMISSIONS, astmFrames } from '../framing/astm-e1381';
-import { silentLog, type Log } from '../log';
-import { CHEMISTRY, compactStamp, simulateResult, type Species } from './analytes';
+import { silentLog } from '../log';
+import { compactStamp } from '../local-time';
+import { CHEMISTRY, simulateResult, type Species } from './analytes';
 import { seededRandom } from './random';
-import { aborted, pause } from './simulate';
+import { aborted, pause, type SimulatorBase } from './simulate';
 
 // An invented multi-analyte chemistry analyzer that sends each run as an ASTM E1394 message over
 // the E1381 low-level protocol, acting as the sender on a TCP port the bridge connects to
@@ -115,16 +116,9 @@ export async function sendSession(socket: Duplex, replies: Replies, records: str
   return `${frames.length} frames sent${retransmissions ? `, ${retransmissions} sent again after NAK` : ''}`;
 }
 
-export interface ChemistryOptions {
+export interface ChemistryOptions extends SimulatorBase {
   port: number;
   host?: string;
-  seed: number;
-  count?: number;
-  everyMs: number;
-  serialNumber?: string;
-  clock?: () => Date;
-  log?: Log;
-  signal?: AbortSignal;
   onReady?: (info: { port: number }) => void;
   /** Corrupt a frame of about one message in six (default), of every message, or never. */
   corrupt?: boolean | 'every message';

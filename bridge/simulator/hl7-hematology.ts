@@ -1,10 +1,11 @@
 import { connect, type Socket } from 'node:net';
 import { backoffDelay } from '../backoff';
 import { MllpCutter, mllpWrap } from '../framing/mllp';
-import { errorMessage, silentLog, type Log } from '../log';
-import { HEMATOLOGY, compactStamp, simulateResult, type Species } from './analytes';
+import { errorMessage, silentLog } from '../log';
+import { compactStamp } from '../local-time';
+import { HEMATOLOGY, simulateResult, type Species } from './analytes';
 import { seededRandom } from './random';
-import { aborted, pause } from './simulate';
+import { aborted, pause, type SimulatorBase } from './simulate';
 
 // An invented hematology analyzer that connects out to the bridge (MLLP over TCP) and sends each
 // run as an HL7 v2.5 ORU^R01, waiting for the ACK (field numbers as in dialects/hl7v2.ts).
@@ -42,16 +43,9 @@ export function createHematologyAnalyzer(options: { seed: number; serialNumber?:
   };
 }
 
-export interface HematologyOptions {
+export interface HematologyOptions extends SimulatorBase {
   host: string;
   port: number;
-  seed: number;
-  count?: number;
-  everyMs: number;
-  serialNumber?: string;
-  clock?: () => Date;
-  log?: Log;
-  signal?: AbortSignal;
   /** How long to wait for the ACK before sending the message again. */
   ackTimeoutMs?: number;
 }

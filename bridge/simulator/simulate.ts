@@ -10,18 +10,22 @@ export type SimulatorTarget =
   /** waitForClient: hold the first slip until someone connects (demos and tests). */
   | { kind: 'listen'; port: number; host?: string; waitForClient?: boolean };
 
-export interface SimulatorOptions {
-  target: SimulatorTarget;
+/** What every simulated analyzer takes. */
+export interface SimulatorBase {
   seed: number;
-  /** Slips to print; unlimited when undefined. */
+  /** Results to send; unlimited when undefined. */
   count?: number;
-  /** Pause between slips. */
+  /** Pause between results. */
   everyMs: number;
   serialNumber?: string;
-  /** What the slips print as DATE and TIME; now by default. */
+  /** The instrument's clock (what it prints as the result time); now by default. */
   clock?: () => Date;
   log?: Log;
   signal?: AbortSignal;
+}
+
+export interface SimulatorOptions extends SimulatorBase {
+  target: SimulatorTarget;
   /** Called once the target is ready (for listen: with the port actually bound). */
   onReady?: (info: { port?: number }) => void;
 }

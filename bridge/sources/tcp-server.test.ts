@@ -1,11 +1,10 @@
-import { connect, type Socket } from 'node:net';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { plainPrintout } from '../dialects/plain-printout';
 import { startInstrument } from '../pipeline';
 import { Spool } from '../spool';
 import { spooled } from '../testing/events';
 import { tempDir } from '../testing/payloads';
-import { freePort } from '../testing/server';
+import { dialWhenListening, freePort } from '../testing/server';
 import { openTcpServerSource } from './tcp-server';
 
 // An analyzer that connects out to the bridge: the bridge listens; the rules for a second connection are ours.
@@ -25,17 +24,7 @@ afterEach(async () => {
   await cleanup();
 });
 
-async function dial(port: number): Promise<Socket> {
-  for (;;) {
-    const socket = await new Promise<Socket | undefined>((resolve) => {
-      const s = connect({ host: '127.0.0.1', port });
-      s.once('connect', () => resolve(s));
-      s.once('error', () => resolve(undefined));
-    });
-    if (socket) return socket;
-    await new Promise((resolve) => setTimeout(resolve, 20));
-  }
-}
+const dial = dialWhenListening;
 
 describe('tcp-listen source', () => {
   it('reads the analyzer that connects, again after it reconnects, and answers on its socket', async () => {

@@ -1,5 +1,5 @@
 import { createServer, type IncomingHttpHeaders } from 'node:http';
-import type { AddressInfo } from 'node:net';
+import { connect, type AddressInfo, type Socket } from 'node:net';
 import type { BridgeBatch, BridgeBatchResult } from '../../lib/validation/readings';
 
 // A real HTTP server on 127.0.0.1 for uploader and bridge tests; each test scripts its answers.
@@ -72,6 +72,19 @@ export function keyStore() {
       };
     },
   };
+}
+
+/** Connects to a local port, trying again until something listens there (tests bound it by their timeout). */
+export async function dialWhenListening(port: number): Promise<Socket> {
+  for (;;) {
+    const socket = await new Promise<Socket | undefined>((resolve) => {
+      const attempt = connect({ host: '127.0.0.1', port });
+      attempt.once('connect', () => resolve(attempt));
+      attempt.once('error', () => resolve(undefined));
+    });
+    if (socket) return socket;
+    await new Promise((resolve) => setTimeout(resolve, 20));
+  }
 }
 
 /** A port nothing listens on right now (connections are refused). */
