@@ -1,14 +1,13 @@
-import { afterEach, beforeEach, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import type { ParserOutput } from '../../lib/validation/readings';
 import { astmE1394 } from '../dialects/astm-e1394';
 import { hl7v2 } from '../dialects/hl7v2';
 import { createParsingStages } from '../parse-stage';
 import { startInstrument } from '../pipeline';
 import { openTcpSource } from '../sources/tcp';
-import { Spool } from '../spool';
 import { named, sumChecksum } from '../testing/astm';
 import { spooled } from '../testing/events';
-import { tempDir } from '../testing/payloads';
+import { tempSpoolPerTest } from '../testing/spool';
 import { freePort } from '../testing/server';
 import { runThrough } from '../testing/streams';
 import { CHEMISTRY, HEMATOLOGY } from './analytes';
@@ -18,17 +17,7 @@ import { createHematologyAnalyzer, runHl7Hematology } from './hl7-hematology';
 // The simulated analyzers are our own invention; what they send must be what the standards say
 // (frames and checksums per ASTM E1381, records per E1394, ORU^R01 per HL7 v2.5) and read back as sent.
 
-let dir: string;
-let cleanup: () => Promise<void>;
-let spool: Spool;
-beforeEach(async () => {
-  ({ dir, cleanup } = await tempDir());
-  spool = await Spool.open(dir);
-});
-afterEach(async () => {
-  await spool.close();
-  await cleanup();
-});
+const temp = tempSpoolPerTest();
 
 describe('simulated chemistry analyzer', () => {
   it('sends realistic panels that the ASTM dialect reads back as sent', async () => {
@@ -52,7 +41,7 @@ describe('simulated chemistry analyzer', () => {
     const source = openTcpSource({ instrument: 'chem', host: '127.0.0.1', port, retry: { initialMs: 5, maxMs: 50 } });
     // The analyzer's bytes on their way in; each frame's checksum is summed again here.
     source.stream.on('data', (chunk: Buffer) => heard.push(...chunk));
-    const instrument = startInstrument({ code: 'chem', dialect: astmE1394, source, spool });
+    const instrument = startInstrument({ code: 'chem', dialect: astmE1394, source, spool: temp.spool });
     await done;
     await instrument.stop();
     const frames = [...Buffer.from(heard).toString('latin1').matchAll(/\x02([0-7]([^\x03\x17]*)[\x03\x17])([0-9A-F]{2})\r\n/g)];
@@ -62,7 +51,7 @@ describe('simulated chemistry analyzer', () => {
     // One bad frame per message, each followed by the same frame with the right checksum.
     expect(frames.length - good.length).toBe(4);
     const results = good.filter(([, , text]) => text.startsWith('R|'));
-    expect(spool.pending().map((r) => r.payload.kind)).toEqual(results.map(() => 'reading'));
+    expect(temp.spool.pending().map((r) => r.payload.kind)).toEqual(results.map(() => 'reading'));
   });
 });
 
@@ -81,11 +70,11 @@ describe('simulated hematology analyzer', () => {
     const port = await freePort();
     const { openTcpServerSource } = await import('../sources/tcp-server');
     const source = openTcpServerSource({ instrument: 'hema', host: '127.0.0.1', port });
-    const instrument = startInstrument({ code: 'hema', dialect: hl7v2, source, spool });
+    const instrument = startInstrument({ code: 'hema', dialect: hl7v2, source, spool: temp.spool });
     const lines: string[] = [];
     await runHl7Hematology({ host: '127.0.0.1', port, seed: 2, count: 2, everyMs: 0, log: { info: (m) => lines.push(m), warn() {}, error() {} } });
     expect(lines.filter((l) => l.includes('ACK AA'))).toHaveLength(2);
-    expect((await spooled(spool, 2 * HEMATOLOGY.length)).length).toBe(2 * HEMATOLOGY.length);
+    expect((await spooled(temp.spool, 2 * HEMATOLOGY.length)).length).toBe(2 * HEMATOLOGY.length);
     await instrument.stop();
   });
 });

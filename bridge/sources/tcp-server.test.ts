@@ -1,9 +1,8 @@
-import { afterEach, beforeEach, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { plainPrintout } from '../dialects/plain-printout';
 import { startInstrument } from '../pipeline';
-import { Spool } from '../spool';
 import { spooled } from '../testing/events';
-import { tempDir } from '../testing/payloads';
+import { tempSpoolPerTest } from '../testing/spool';
 import { dialWhenListening, freePort } from '../testing/server';
 import { openTcpServerSource } from './tcp-server';
 
@@ -11,18 +10,7 @@ import { openTcpServerSource } from './tcp-server';
 
 const slip = (value: string) => ['---- RESULT ----', 'TEST      cCRP', `RESULT    ${value} mg/L`, '---- END ----', ''].join('\r\n');
 
-let dir: string;
-let cleanup: () => Promise<void>;
-let spool: Spool;
-
-beforeEach(async () => {
-  ({ dir, cleanup } = await tempDir());
-  spool = await Spool.open(dir);
-});
-afterEach(async () => {
-  await spool.close();
-  await cleanup();
-});
+const temp = tempSpoolPerTest();
 
 const dial = dialWhenListening;
 
@@ -30,12 +18,12 @@ describe('tcp-listen source', () => {
   it('reads the analyzer that connects, again after it reconnects, and answers on its socket', async () => {
     const port = await freePort();
     const source = openTcpServerSource({ instrument: 'hema', host: '127.0.0.1', port, retry: { initialMs: 5, maxMs: 20 } });
-    const instrument = startInstrument({ code: 'hema', dialect: plainPrintout, source, spool });
+    const instrument = startInstrument({ code: 'hema', dialect: plainPrintout, source, spool: temp.spool });
     const first = await dial(port);
     first.end(slip('1.5'));
     const second = await dial(port);
     second.write(slip('2.5'));
-    const values = (await spooled(spool, 2)).map((r) => (r.payload.kind === 'reading' ? r.payload.value : null));
+    const values = (await spooled(temp.spool, 2)).map((r) => (r.payload.kind === 'reading' ? r.payload.value : null));
     expect(values).toEqual([1.5, 2.5]);
     const answered = new Promise<string>((resolve) => second.once('data', (chunk: Buffer) => resolve(chunk.toString())));
     expect(source.write(Buffer.from('ACK'))).toBe(true);
@@ -48,15 +36,15 @@ describe('tcp-listen source', () => {
   it('lets a new connection replace the old one', async () => {
     const port = await freePort();
     const source = openTcpServerSource({ instrument: 'hema', host: '127.0.0.1', port, retry: { initialMs: 5, maxMs: 20 } });
-    const instrument = startInstrument({ code: 'hema', dialect: plainPrintout, source, spool });
+    const instrument = startInstrument({ code: 'hema', dialect: plainPrintout, source, spool: temp.spool });
     const old = await dial(port);
     const oldClosed = new Promise((resolve) => old.once('close', resolve));
     old.write(slip('3.5'));
-    await spooled(spool, 1);
+    await spooled(temp.spool, 1);
     const fresh = await dial(port);
     await oldClosed;
     fresh.write(slip('4.5'));
-    expect((await spooled(spool, 2)).map((r) => (r.payload.kind === 'reading' ? r.payload.value : null))).toEqual([3.5, 4.5]);
+    expect((await spooled(temp.spool, 2)).map((r) => (r.payload.kind === 'reading' ? r.payload.value : null))).toEqual([3.5, 4.5]);
     await instrument.stop();
     fresh.destroy();
   });
