@@ -107,6 +107,16 @@ describe('ASTM E1381 receiver', () => {
     expect(outputs).toEqual([{ kind: 'session-end', abandoned: expect.stringMatching(/EOT before its last frame/), partial: 'R|1|^^^GLU|' }]);
   });
 
+  it('answers ENQ with NAK while it is busy, and with ACK once it is not', () => {
+    let busy = true;
+    const sent: number[] = [];
+    const core = new AstmLink({ emit: () => {}, reply: (bytes) => sent.push(...bytes), busy: () => busy });
+    core.receive(Buffer.from([C.ENQ]));
+    busy = false;
+    core.receive(Buffer.from([C.ENQ]));
+    expect(named(sent)).toBe('<NAK><ACK>');
+  });
+
   it('keeps bytes outside a session as a fragment', () => {
     const { core, outputs } = link();
     core.receive(Buffer.from('LINE TEST\r\n'));

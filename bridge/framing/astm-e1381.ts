@@ -78,6 +78,8 @@ export interface AstmLinkOptions {
   name?: string;
   /** A protocol problem worth telling a person about (link health). */
   onProblem?(message: string): void;
+  /** True while what was received cannot be taken yet (the spool is behind): ENQ is answered NAK. */
+  busy?(): boolean;
 }
 
 /**
@@ -179,6 +181,12 @@ export class AstmLink {
   private neutral(byte: number): void {
     if (byte === ENQ) {
       this.flushStray();
+      // LIS1-A: a receiver that cannot take a message answers ENQ with NAK; the sender tries later.
+      if (this.options.reply && this.options.busy?.()) {
+        this.problem('not ready for a new message (the spool is behind); NAK to ENQ');
+        this.reply(NAK);
+        return;
+      }
       this.openSession();
       return;
     }
@@ -398,7 +406,8 @@ export class AstmLinkStage extends Transform {
 
   constructor(private readonly options: AstmLinkStageOptions = {}) {
     super({ writableObjectMode: false, readableObjectMode: true });
-    this.link = new AstmLink({ ...options, emit: (output) => this.push(output) });
+    // Busy while the stages after this one have not taken what it already handed up.
+    this.link = new AstmLink({ busy: () => this.readableLength >= this.readableHighWaterMark, ...options, emit: (output) => this.push(output) });
   }
 
   override _transform(chunk: Buffer, _encoding: BufferEncoding, callback: TransformCallback): void {
