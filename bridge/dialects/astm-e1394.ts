@@ -3,7 +3,7 @@ import { parsedReadingSchema, type ParserOutput } from '../../lib/validation/rea
 import { ASTM_CONTROL_BYTES, AstmLinkStage, type AstmLinkOutput } from '../framing/astm-e1381';
 import type { Line } from '../framing/lines';
 import { rawOf, type FramerOutput, type RecordFrame } from '../framing/records';
-import { fragment } from '../fragments';
+import { fragment, fragments } from '../fragments';
 import { compactStamp, compactTimestamp } from '../local-time';
 import type { Dialect } from './dialect';
 
@@ -19,6 +19,7 @@ import type { Dialect } from './dialect';
 //   L.3 termination code (I: no information available from the last query)
 
 const MAX_RECORDS = 2000;
+const MAX_MESSAGE_CHARS = 4 * 1024 * 1024;
 
 export interface Delimiters {
   field: string;
@@ -248,8 +249,8 @@ export class AstmMessageAssembler extends Transform {
       this.message = [];
       this.answerQuery(frame);
       this.out(frame);
-    } else if (this.message.length >= MAX_RECORDS) {
-      this.out(fragment(rawOf(this.message), `message cut short: more than ${MAX_RECORDS} records without an L record`));
+    } else if (this.message.length >= MAX_RECORDS || this.message.reduce((sum, l) => sum + l.raw.length, 0) > MAX_MESSAGE_CHARS) {
+      for (const piece of fragments(rawOf(this.message), `message cut short: more than ${MAX_RECORDS} records or ${MAX_MESSAGE_CHARS} characters without an L record`)) this.out(piece);
       this.message = [];
     }
   }

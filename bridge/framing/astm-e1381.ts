@@ -1,7 +1,7 @@
 import { Transform, type TransformCallback } from 'node:stream';
 import type { UnparsedFragment } from '../../lib/validation/readings';
 import type { Reply } from '../dialects/dialect';
-import { fragment } from '../fragments';
+import { fragment, fragments } from '../fragments';
 import type { LineEncoding } from './lines';
 import { silentLog, type Log } from '../log';
 
@@ -33,6 +33,8 @@ export const MAX_FRAME_TEXT = 240;
 // Far above the standard's 247-character frame, so a lax sender still gets through, but bounded.
 const MAX_FRAME_BYTES = 64 * 1024;
 const MAX_STRAY_BYTES = 4096;
+/** ETB frames waiting for their ETX frame are bounded too. */
+const MAX_PENDING_BYTES = 1024 * 1024;
 
 /** What the link layer hands up: the text of complete messages (frames joined), session ends, noise. */
 export type AstmLinkOutput =
@@ -292,6 +294,12 @@ export class AstmLink {
     this.lastFrameNumber = number;
     this.pending.push(body.subarray(1, body.length - 1));
     this.reply(ACK);
+    if (this.pending.reduce((sum, part) => sum + part.length, 0) > MAX_PENDING_BYTES) {
+      this.problem(`more than ${MAX_PENDING_BYTES} bytes of ETB frames without an ETX frame`);
+      for (const piece of fragments(this.pendingText(), `message cut: more than ${MAX_PENDING_BYTES} bytes without an ETX frame`)) this.options.emit(piece);
+      this.pending = [];
+      return;
+    }
     if (body[body.length - 1] === ETX) {
       const text = Buffer.concat(this.pending).toString(this.encoding);
       this.pending = [];
