@@ -136,6 +136,28 @@ describe('a profile-defined printout over a real pseudo-terminal pair', () => {
   });
 });
 
+describe('a serial adapter unplugged and plugged back in', () => {
+  // socat going away removes the pty, as unplugging a USB-serial adapter removes its device node.
+  it('is reopened by itself, and reading goes on', async () => {
+    const running = await ptyBridge({ code: 'crp-reader', dialect: 'plain-printout' });
+    const slip = (value: string) => ['---- RESULT ----', 'TEST      cCRP', `RESULT    ${value} mg/L`, '---- END ----', ''].join('\r\n');
+    (analyzer as SerialPort).write(slip('11.5'));
+    await serverHas(running, 1);
+    const source = running.instruments[0].source as unknown as NodeJS.EventEmitter;
+    const lost = when(source, 'retrying');
+    await closePort(analyzer);
+    await stopPtyPair(socat);
+    await lost;
+    const reopened = when(source, 'open');
+    socat = await startPtyPair(join(dir, 'analyzer'), join(dir, 'lab-pc'));
+    await reopened;
+    analyzer = await openAnalyzerEnd(join(dir, 'analyzer'));
+    analyzer.write(slip('12.5'));
+    const records = await serverHas(running, 2);
+    expect(records.map((r) => (r.payload.kind === 'reading' ? r.payload.value : r.payload.reason))).toEqual([11.5, 12.5]);
+  });
+});
+
 describe('HL7 v2 over MLLP on a loopback TCP socket', () => {
   it('acknowledges each message with AA and MSA-2 = MSH-10, and posts its readings', async () => {
     const port = await freePort();
