@@ -1,5 +1,6 @@
 import 'server-only';
 // The demo clinic: an invented practice, its people and animals. Demo use only; every name is made up.
+import { randomUUID } from 'node:crypto';
 import { sql } from 'drizzle-orm';
 import type { Db } from './client';
 import {
@@ -10,6 +11,7 @@ import {
   labOrders,
   owners,
   patients,
+  printoutProfiles,
   readings,
   resultAlerts,
   resultAssignments,
@@ -132,11 +134,45 @@ export async function seedDemoClinic(db: Db): Promise<{ clinicId: string; bridge
         name: 'Chemistry analyzer (bench 2)',
         analytes: ['GLU', 'CREA', 'BUN', 'ALT', 'ALP', 'TP', 'ALB'],
         dialect: 'astm-e1394',
-        connection: { kind: 'serial', path: '/dev/ttyUSB1', baudRate: 9600, dataBits: 8, parity: 'none', stopBits: 1 },
+        // The demo's ASTM analyzer sits behind a serial-to-network adapter; a real one would often be on /dev/ttyUSB1.
+        connection: { kind: 'tcp', host: '127.0.0.1', port: 4002 },
         bridgeId: bridge.id,
         serialNumber: 'SIM-0002',
       },
+      {
+        clinicId: clinic.id,
+        code: 'hema-analyzer',
+        name: 'Haematology analyzer (bench 2)',
+        analytes: ['WBC', 'RBC', 'HGB', 'HCT', 'PLT'],
+        dialect: 'hl7v2',
+        // This analyzer dials out: the bridge listens and answers each message with an HL7 ACK.
+        connection: { kind: 'tcp', host: '127.0.0.1', port: 4003, mode: 'listen' },
+        bridgeId: bridge.id,
+        serialNumber: 'SIM-0003',
+      },
     ]).returning();
+
+    // An example printout profile for the editor (not attached to an instrument): an invented electrolyte printer.
+    await tx.insert(printoutProfiles).values({
+      clinicId: clinic.id,
+      profileKey: randomUUID(),
+      name: 'Electrolyte printer (example)',
+      version: 1,
+      createdBy: admin.id,
+      definition: {
+        analyzer: 'Electrolyte printer, bench 3 (example)',
+        encoding: 'utf8',
+        record: { start: '^\\*\\*\\* ELECTROLYTES', end: '^\\*\\*\\* END', formFeed: false, maxLines: 60 },
+        fields: [
+          { label: 'Sample', pattern: '^ID:\\s*(?<sampleId>\\S+)', required: false, repeats: false },
+          { label: 'Result', pattern: '^(?<analyte>Na|K|Cl)\\s+(?<comparator>[<>])?(?<value>[0-9.,]+)\\s+(?<unit>\\S+)', required: true, repeats: true },
+          { label: 'Printed at', pattern: '^(?<date>\\d\\d/\\d\\d/\\d{4}) (?<time>\\d\\d:\\d\\d)', required: false, repeats: false },
+        ],
+        decimalComma: true,
+        dateFormat: 'DD/MM/YYYY',
+        timeFormat: 'HH:mm',
+      },
+    });
 
     await installClinicalDefaults(tx, clinic.id, admin.id);
 

@@ -1,6 +1,6 @@
 // `npm start`: builds if needed, then runs the demo clinic end to end on embedded PGlite:
 // the web app with its live feed (migrates and seeds on first start), a local mail sink,
-// a simulated analyzer on a TCP port and a real bridge reading it.
+// three simulated analyzers and a real bridge reading them.
 import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
 import fs from 'node:fs';
 import path from 'node:path';
@@ -10,7 +10,6 @@ const root = process.cwd();
 const port = Number(process.env.PORT ?? 3000);
 const dataDir = path.resolve(process.env.DATA_DIR ?? path.join(root, '.data'));
 const mailPort = Number(process.env.MAIL_PORT ?? 2525);
-const analyzerPort = Number(process.env.SIMULATOR_PORT ?? 4001);
 const env = { ...process.env, DATA_DIR: dataDir, PORT: String(port), NODE_ENV: 'production' as const };
 const bin = (name: string) => path.join(root, 'node_modules', '.bin', name);
 
@@ -83,15 +82,14 @@ async function main() {
   if (!fs.existsSync(tokenFile)) {
     console.warn('[start] no demo bridge token in the data dir (not a demo database?); the simulated analyzer is not started.');
   } else {
-    run('simulated analyzer', bin('tsx'), ['bridge/cli.ts', 'simulate', '--listen', String(analyzerPort), '--every', '45', '--wait-for-client']);
-    run('bridge', bin('tsx'), [
-      'bridge/cli.ts', 'run',
-      '--server', `http://127.0.0.1:${port}`,
-      '--instrument', 'crp-reader',
-      '--dialect', 'plain-printout',
-      '--source', `tcp://127.0.0.1:${analyzerPort}`,
-      '--spool', path.join(dataDir, 'bridge-spool'),
-    ], { BENCHWIRE_BRIDGE_TOKEN: fs.readFileSync(tokenFile, 'utf8').trim() });
+    // Three invented analyzers on the seeded instruments' ports, and one real bridge that takes its
+    // instruments from the server (GET /api/bridge/config), as a bridge on a lab PC does.
+    run('simulated CRP reader', bin('tsx'), ['bridge/cli.ts', 'simulate', '--listen', '4001', '--every', '45', '--wait-for-client']);
+    run('simulated chemistry analyzer', bin('tsx'), ['bridge/cli.ts', 'simulate', '--kind', 'astm-chemistry', '--listen', '4002', '--every', '75']);
+    run('simulated haematology analyzer', bin('tsx'), ['bridge/cli.ts', 'simulate', '--kind', 'hl7-hematology', '--connect', '127.0.0.1:4003', '--every', '90']);
+    run('bridge', bin('tsx'), ['bridge/cli.ts', 'run', '--config-from-server', '--server', `http://127.0.0.1:${port}`, '--spool', path.join(dataDir, 'bridge-spool')], {
+      BENCHWIRE_BRIDGE_TOKEN: fs.readFileSync(tokenFile, 'utf8').trim(),
+    });
   }
 
   console.log(`
@@ -99,7 +97,8 @@ async function main() {
     sign in (demo only): tech@fernhollow.example, vet@fernhollow.example or admin@fernhollow.example
                          password: demo-only-pass
     mail sink: smtp://127.0.0.1:${mailPort} (messages kept in ${path.join(dataDir, 'mail')})
-    simulated analyzer: tcp://127.0.0.1:${analyzerPort}, read by a real bridge
+    simulated analyzers: CRP printer (tcp 4001), ASTM chemistry (tcp 4002), HL7 haematology (dials 4003),
+                         all read by one real bridge with its spool in ${path.join(dataDir, 'bridge-spool')}
   Stop with Ctrl+C.
 `);
 }

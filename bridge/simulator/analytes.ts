@@ -49,7 +49,8 @@ export function simulateResult(test: TestDefinition, species: Species, random: (
   let value: number;
   if (roll < 0.8) value = low + random() * span;
   else if (roll < 0.9) value = low * (0.4 + random() * 0.6);
-  else value = high * (1 + random() * (random() < 0.2 ? 3 : 0.5));
+  // Far-off values only where biology allows them (enzymes can rise many-fold; haemoglobin cannot).
+  else value = high * (1 + random() * (test.limits && random() < 0.2 ? 3 : 0.3));
   const flag = value < low ? 'L' : value > high ? 'H' : 'N';
   let text = value.toFixed(test.decimals);
   if (test.limits && value < test.limits[0]) text = `<${test.limits[0]}`;
