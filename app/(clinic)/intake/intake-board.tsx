@@ -3,16 +3,16 @@ import { useEffect, useRef, useState } from 'react';
 import useSWR from 'swr';
 import { fetcher } from '@/lib/client/fetcher';
 import { formatDateTime, formatValue, timeAgo } from '@/lib/format';
-import type { CaptureView, ReadingView } from '@/lib/readings/queries';
+import type { ReadingView } from '@/lib/readings/queries';
 import { Notice, buttonClass } from '@/app/components/ui';
 import type { Candidate } from '@/lib/clinical/matching';
 import { AssignDialog } from './assign-dialog';
+import { UnparsedCaptures } from './unparsed-captures';
 import { SuggestedMatch } from './suggested-match';
 import { VoidDialog } from './void-dialog';
 
 type Serialized<T> = { [K in keyof T]: T[K] extends Date ? string : T[K] extends Date | null ? string | null : T[K] };
 export type IntakeReading = Serialized<ReadingView>;
-type IntakeCapture = Serialized<CaptureView>;
 
 /** Remembers which ids were already on screen, so rows that arrive later can be marked as new. */
 function useArrivals(ids: string[] | undefined) {
@@ -33,9 +33,6 @@ function useArrivals(ids: string[] | undefined) {
 
 export function IntakeBoard() {
   const readings = useSWR<{ readings: IntakeReading[] }>('/api/readings?status=unassigned', fetcher, {
-    refreshInterval: 60_000,
-  });
-  const captures = useSWR<{ captures: IntakeCapture[] }>('/api/captures?status=open', fetcher, {
     refreshInterval: 60_000,
   });
   // Suggestions live under /api/readings, so every reading and order event refreshes them.
@@ -140,28 +137,7 @@ export function IntakeBoard() {
         )}
       </section>
 
-      <section aria-labelledby="captures-heading">
-        <h2 id="captures-heading" className="mb-1 text-lg font-semibold text-ink-900">
-          Unparsed captures
-        </h2>
-        <p className="mb-3 text-sm text-ink-700">
-          Text an instrument sent that did not form a reading. It is kept exactly as received; read it against the
-          instrument’s display or slip.
-        </p>
-        {captures.data && captures.data.captures.length === 0 && <p className="text-sm text-ink-500">None.</p>}
-        <ul className="space-y-3">
-          {captures.data?.captures.map((c) => (
-            <li key={c.id} className="rounded-lg border border-signal-500/40 bg-white p-3 shadow-sm">
-              <p className="mb-2 text-sm">
-                <span className="font-medium">{c.instrumentName ?? c.instrumentCode}</span>
-                <span className="text-ink-500"> · {formatDateTime(c.receivedAt)} · </span>
-                <span className="text-signal-600">{c.reason}</span>
-              </p>
-              <pre className="max-h-48 overflow-auto rounded bg-paper p-2 font-mono text-xs leading-relaxed">{c.raw}</pre>
-            </li>
-          ))}
-        </ul>
-      </section>
+      <UnparsedCaptures onDone={setDone} />
 
       {assigning && (
         <AssignDialog
