@@ -17,5 +17,7 @@ export default defineConfig({
     // PGlite and the browser are heavy; two cores, two workers.
     maxWorkers: 2,
     reporters: ['default', './tests/summary-reporter.ts'],
+    // `npm run bench`: speed and memory are measured here, never asserted in tests.
+    benchmark: { include: ['tests/bench/**/*.bench.ts'] },
   },
 });
