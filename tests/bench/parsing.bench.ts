@@ -18,11 +18,9 @@ async function run(bytes: Buffer, chunk: number) {
   const chunks = function* () {
     for (let i = 0; i < bytes.length; i += chunk) yield bytes.subarray(i, i + chunk);
   };
-  await pipeline(
-    Readable.from(chunks()),
-    ...createParsingStages(getDialect('plain-printout'), { idle: false }),
-    new Writable({ objectMode: true, write: (_o, _e, done) => (outputs++, done()) }),
-  );
+  const stages = createParsingStages(getDialect('plain-printout'), { idle: false });
+  const sink = new Writable({ objectMode: true, write: (_o, _e, done) => (outputs++, done()) });
+  await pipeline([Readable.from(chunks()), ...stages, sink]);
   return outputs;
 }
 
