@@ -221,6 +221,9 @@ export const readings = pgTable(
     /** As the bridge named it, kept even when no instrument with that code is configured. */
     instrumentCode: text().notNull(),
     instrumentSerial: text(),
+    /** As the instrument sent them (ASTM R.6 / R.9, HL7 OBX-7 / OBX-11). */
+    instrumentRange: text(),
+    resultStatus: text().$type<'final' | 'preliminary' | 'corrected'>(),
     analyte: text().notNull(),
     value: doublePrecision(),
     comparator: text().$type<'<' | '>'>(),

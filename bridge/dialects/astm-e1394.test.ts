@@ -49,6 +49,9 @@ describe('ASTM E1394 dialect', () => {
         // R.13 is the lab PC's local time (Europe/Berlin, UTC+1 in December).
         measuredAt: '2026-12-01T14:03:22+01:00',
         instrumentSerial: 'SIM-0002',
+        // R.6 as sent; R.9 "F" is a final result (LIS2-A2, from memory).
+        referenceRange: '3.9 to 6.1',
+        resultStatus: 'final',
         raw: `${H}\r${P}\r${O}\r${R(1, 'GLU', '5.2', 'mmol/L', 'N')}\r${L}\r`,
       },
       expect.objectContaining({ analyte: 'CREA', value: 18, comparator: '<', unit: 'umol/L', flags: ['L'], sampleId: 'S-2001' }),

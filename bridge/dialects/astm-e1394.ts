@@ -136,6 +136,8 @@ export function parseMessage(frame: RecordFrame): ParserOutput[] {
 
 const NUMBER = /^([<>])?\s*([+-]?(?:\d+(?:[.,]\d*)?|[.,]\d+))$/;
 const STATUS_FLAGS: Record<string, string> = { P: 'preliminary', I: 'preliminary', S: 'preliminary', C: 'corrected', W: 'questionable' };
+// R.9 result status (LIS2-A2, from memory): F final, C correction, P/I/S not yet final.
+const RESULT_STATUS: Record<string, 'final' | 'preliminary' | 'corrected'> = { F: 'final', C: 'corrected', P: 'preliminary', I: 'preliminary', S: 'preliminary' };
 
 function readResult(
   record: AstmRecord,
@@ -173,6 +175,8 @@ function readResult(
     patientRef: patientRef || null,
     measuredAt,
     instrumentSerial: record.firstComponent(14) || context.serial,
+    referenceRange: record.component(6) || null,
+    resultStatus: RESULT_STATUS[status] ?? null,
     raw: context.raw,
   });
   if (reading.success) return reading.data;

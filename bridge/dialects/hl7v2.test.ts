@@ -54,6 +54,9 @@ describe('HL7 v2 dialect', () => {
         patientRef: 'PT-4711',
         measuredAt: '2026-12-01T14:03:22+01:00',
         instrumentSerial: 'SIM-0003',
+        // OBX-7 as sent; OBX-11 "F" is a final result (HL7 table 0085, from memory).
+        referenceRange: '5.5-16.9',
+        resultStatus: 'final',
         raw: `${MSH()}\r${PID}\r${OBR}\r${message[3]}\r`,
       },
       expect.objectContaining({ analyte: 'PLT', value: 50, comparator: '<', flags: ['L', 'A'] }),

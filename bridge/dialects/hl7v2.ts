@@ -107,6 +107,8 @@ export function segmentsIn(frame: RecordFrame): Segment[] | string {
 
 const NUMBER = /^([<>])?\s*([+-]?(?:\d+(?:\.\d*)?|\.\d+))$/;
 const STATUS_FLAGS: Record<string, string> = { P: 'preliminary', R: 'preliminary', I: 'preliminary', S: 'preliminary', C: 'corrected' };
+// OBX-11 (HL7 table 0085, from memory): F final, C corrected, P/R/I/S not yet final.
+const RESULT_STATUS: Record<string, 'final' | 'preliminary' | 'corrected'> = { F: 'final', C: 'corrected', P: 'preliminary', R: 'preliminary', I: 'preliminary', S: 'preliminary' };
 const STATUS_REFUSED: Record<string, string> = { X: 'the result could not be obtained', D: 'the result was deleted', W: 'the result was marked wrong' };
 
 function messageType(msh: Segment): string {
@@ -184,6 +186,8 @@ function readObservation(obx: Segment, context: { pid?: Segment; obr?: Segment; 
     patientRef: context.pid?.get(3) || context.pid?.get(2) || null,
     measuredAt,
     instrumentSerial: obx.get(18) || null,
+    referenceRange: obx.get(7) || null,
+    resultStatus: RESULT_STATUS[status] ?? null,
     raw: context.raw,
   });
   if (reading.success) return reading.data;

@@ -63,6 +63,9 @@ describe('plain-printout dialect', () => {
       // 1 December: central European standard time, UTC+1.
       measuredAt: '2026-12-01T14:03:22+01:00',
       instrumentSerial: 'SIM-0001',
+      // A printout slip carries neither a range nor a result status.
+      referenceRange: null,
+      resultStatus: null,
       raw: example,
     });
   });

@@ -142,6 +142,8 @@ function readResult(profile: CompiledProfile, captures: Captures, raw: string): 
     patientRef: captures.patientRef ?? null,
     measuredAt,
     instrumentSerial: captures.instrumentSerial ?? null,
+    referenceRange: null,
+    resultStatus: null,
     raw,
   };
   return reading;

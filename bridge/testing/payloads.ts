@@ -18,6 +18,8 @@ export function reading(value: number, sampleId: string | null = null): ParsedRe
     patientRef: null,
     measuredAt: null,
     instrumentSerial: 'SIM-0001',
+    referenceRange: null,
+    resultStatus: null,
     raw,
   };
 }

@@ -76,6 +76,8 @@ export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promis
         .values({
           ...common,
           instrumentSerial: payload.instrumentSerial,
+          instrumentRange: payload.referenceRange,
+          resultStatus: payload.resultStatus,
           analyte: payload.analyte,
           value: payload.value,
           comparator: payload.comparator,

@@ -20,6 +20,8 @@ const readingColumns = {
   instrumentId: readings.instrumentId,
   instrumentCode: readings.instrumentCode,
   instrumentSerial: readings.instrumentSerial,
+  instrumentRange: readings.instrumentRange,
+  resultStatus: readings.resultStatus,
   instrumentName: instruments.name,
   raw: readings.raw,
   patientId: readings.patientId,

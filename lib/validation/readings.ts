@@ -4,6 +4,7 @@ import { z } from 'zod';
 // Plain zod, no server imports: the bridge bundles nothing from the web app but this.
 
 export const COMPARATORS = ['<', '>'] as const;
+export const RESULT_STATUSES = ['final', 'preliminary', 'corrected'] as const;
 
 export const parsedReadingSchema = z.object({
   kind: z.literal('reading').default('reading'),
@@ -16,6 +17,10 @@ export const parsedReadingSchema = z.object({
   patientRef: z.string().trim().max(64).nullable().default(null),
   measuredAt: z.iso.datetime({ offset: true }).nullable().default(null),
   instrumentSerial: z.string().trim().max(64).nullable().default(null),
+  /** The reference range as the instrument sent it (ASTM R.6, HL7 OBX-7), for people to compare with ours. */
+  referenceRange: z.string().trim().max(64).nullable().default(null),
+  /** The instrument's own result status (ASTM R.9, HL7 OBX-11); null when it sends none. */
+  resultStatus: z.enum(RESULT_STATUSES).nullable().default(null),
   raw: z.string().max(65536),
 });
 export type ParsedReading = z.infer<typeof parsedReadingSchema>;

@@ -35,6 +35,8 @@ function batch() {
         patientRef: null,
         measuredAt: new Date().toISOString(),
         instrumentSerial: 'SIM-0001',
+        referenceRange: null,
+        resultStatus: null,
         raw: `RESULT    ${(i % 90) + 0.5} mg/L\r\n`,
       },
     })),

@@ -180,7 +180,7 @@ describe('instruments', () => {
     const created = (await body(response)).instrument;
     expect(created).toMatchObject({ ...instrument, active: true });
     const list = await body(await listInstruments(request('/api/admin/instruments', { cookie: adminCookie }), undefined));
-    expect(list.instruments.map((i: { code: string }) => i.code).sort()).toEqual(['chem-analyzer', 'crp-reader', 'haem-analyzer']);
+    expect(list.instruments.map((i: { code: string }) => i.code).sort()).toEqual(['chem-analyzer', 'crp-reader', 'haem-analyzer', 'hema-analyzer']);
   });
 
   it('readings under its code now link to it', async () => {

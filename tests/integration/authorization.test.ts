@@ -225,7 +225,8 @@ describe('clinical roles', () => {
     expect(staff.find((u) => u.id === ids.staff)?.role).toBe('veterinarian');
     const bridgeRows = await database.db.query.bridges.findMany();
     expect(bridgeRows.map((b) => [b.name, b.revokedAt])).toEqual([['Lab PC (bench 1)', null]]);
-    expect(await database.db.query.instruments.findMany()).toHaveLength(2);
+    // The demo seed's three instruments, and no more.
+    expect(await database.db.query.instruments.findMany()).toHaveLength(3);
   });
 });
 

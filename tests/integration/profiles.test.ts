@@ -89,7 +89,8 @@ describe('printout profiles', () => {
     expect((await body(revised)).profile.version).toBe(2);
     const history = await body(await getProfile(request('/api/admin/profiles/x', { cookie: admin }), params({ profileKey: profile.key })));
     expect(history.profile.versions.map((v: { version: number }) => v.version)).toEqual([2, 1]);
-    expect((await body(await listProfiles(request('/api/admin/profiles', { cookie: admin }), undefined))).profiles[0]).toMatchObject({ key: profile.key, version: 2 });
+    const listed = (await body(await listProfiles(request('/api/admin/profiles', { cookie: admin }), undefined))).profiles;
+    expect(listed.find((p: { key: string }) => p.key === profile.key)).toMatchObject({ name: 'Electrolytes', version: 2 });
 
     const bridges = (await body(await listInstruments(request('/api/admin/instruments', { cookie: admin }), undefined))).instruments;
     const bridgeId = bridges.find((i: { code: string }) => i.code === 'crp-reader').bridgeId;

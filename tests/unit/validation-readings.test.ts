@@ -33,8 +33,18 @@ describe('parsedReadingSchema', () => {
       patientRef: null,
       measuredAt: null,
       instrumentSerial: null,
+      referenceRange: null,
+      resultStatus: null,
       raw: 'RESULT 12.3 mg/L\n',
     });
+  });
+
+  it('takes the instrument’s own range and result status, and only the statuses it knows', () => {
+    expect(parsedReadingSchema.parse(reading({ referenceRange: '3.9 to 6.1', resultStatus: 'corrected' }))).toMatchObject({
+      referenceRange: '3.9 to 6.1',
+      resultStatus: 'corrected',
+    });
+    expect(parsedReadingSchema.safeParse(reading({ resultStatus: 'F' })).success).toBe(false);
   });
 
   it.each([

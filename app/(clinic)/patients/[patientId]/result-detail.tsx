@@ -60,7 +60,11 @@ export function ResultDetail({
   onMoved: () => void;
 }) {
   const actor = useActor();
-  const detail = useSWR<{ reading: { history: HistoryEntry[]; raw: string } }>(`/api/readings/${result.id}`, fetcher);
+  const detail = useSWR<{ reading: { history: HistoryEntry[]; raw: string; instrumentRange: string | null; resultStatus: string | null } }>(
+    `/api/readings/${result.id}`,
+    fetcher,
+  );
+  const sent = detail.data?.reading;
   const [moving, setMoving] = useState(false);
   const [voiding, setVoiding] = useState(false);
   const c = result.clinical;
@@ -72,6 +76,10 @@ export function ResultDetail({
           {result.unit && c.display.unit !== result.unit && <span className="text-ink-500"> (printed {result.comparator ?? ''}{result.value} {result.unit})</span>}
         </p>
         {c.flag && <p>{c.flag.certain ? `Flag: ${c.flag.text}.` : `${c.flag.text}.`}</p>}
+        {sent?.resultStatus && sent.resultStatus !== 'final' && (
+          <Notice tone="error">The instrument sent this as a {sent.resultStatus} result.</Notice>
+        )}
+        {sent?.instrumentRange && <p className="text-ink-700">Range printed by the instrument: {sent.instrumentRange}</p>}
         {c.delta && <Notice tone="error">{c.delta.text}</Notice>}
         {c.speciesWarning && <Notice tone="error">{c.speciesWarning}</Notice>}
         {c.problems.map((p) => (
