@@ -153,3 +153,19 @@ export async function addInstrument(actor: Actor, input: NewInstrumentInput) {
     throw error;
   }
 }
+
+/** Instruments whose link needs a person: disconnected, in error, or sending what looks like line noise. */
+export async function instrumentsNeedingAttention(actor: Actor) {
+  const database = await db();
+  const rows = await database
+    .select({ code: instruments.code, name: instruments.name, health: instruments.health })
+    .from(instruments)
+    .where(and(eq(instruments.clinicId, actor.clinicId), eq(instruments.active, true)));
+  return rows.flatMap((row) => {
+    const health = row.health as { state?: string; warnings?: string[]; detail?: string; at?: string } | null;
+    if (!health?.state) return [];
+    const problems = [...(health.warnings ?? [])];
+    if (health.state === 'closed' || health.state === 'error') problems.unshift(health.detail ?? `link ${health.state}`);
+    return problems.length ? [{ code: row.code, name: row.name, problems, at: health.at ?? null }] : [];
+  });
+}

@@ -10,7 +10,7 @@ export function SignOutButton() {
       className="rounded-md border border-ink-500 px-3 py-1 text-sm text-ink-100 hover:bg-ink-800"
       onClick={async () => {
         await send('/api/auth/sign-out', 'POST').catch(() => {});
-        router.replace('/sign-in');
+        router.replace('/sign-in?signedOut=1');
         router.refresh();
       }}
     >

@@ -2,17 +2,24 @@ import type { Metadata } from 'next';
 import { redirect } from 'next/navigation';
 import { currentActor } from '@/lib/auth/current';
 import { clinicCount } from '@/lib/staff';
+import { Notice } from '@/app/components/ui';
 import { SignInForm } from './sign-in-form';
 
 export const metadata: Metadata = { title: 'Sign in' };
 export const dynamic = 'force-dynamic';
 
-export default async function SignInPage() {
+export default async function SignInPage({ searchParams }: { searchParams: Promise<{ signedOut?: string }> }) {
+  const { signedOut } = await searchParams;
   if ((await clinicCount()) === 0) redirect('/setup');
   if (await currentActor()) redirect('/intake');
   return (
     <>
       <h1 className="mb-4 text-lg font-semibold text-ink-950">Sign in</h1>
+      {signedOut && (
+        <div className="mb-4">
+          <Notice tone="ok">You are signed out.</Notice>
+        </div>
+      )}
       <SignInForm />
     </>
   );

@@ -2,6 +2,7 @@ import type { Metadata } from 'next';
 import { requirePageActor } from '@/lib/auth/current';
 import { ClinicalCaution, Notice, PageHeader } from '@/app/components/ui';
 import { IntakeBoard } from './intake-board';
+import { LinkWarnings } from './link-warnings';
 
 export const metadata: Metadata = { title: 'Intake' };
 
@@ -21,6 +22,7 @@ export default async function IntakePage({ searchParams }: { searchParams: Promi
           <Notice tone="error">That page is for administrators only.</Notice>
         </div>
       )}
+      <LinkWarnings />
       <IntakeBoard />
       <div className="mt-8">
         <ClinicalCaution />
