@@ -2,15 +2,14 @@ import 'server-only';
 import { and, eq } from 'drizzle-orm';
 import { db, type Tx } from '@/db/client';
 import { readings, unparsedCaptures } from '@/db/schema';
-import type { Actor } from '@/lib/auth/guards';
-import { allowed } from '@/lib/auth/roles';
+import { requirePermission, type Actor } from '@/lib/auth/guards';
 import { recordAudit } from '@/lib/audit';
 import { ApiError, notFound } from '@/lib/http';
 import { publish } from '@/lib/live/bus';
 import type { TranscribeCaptureInput } from '@/lib/validation/api';
 
 async function lockOpenCapture(tx: Tx, actor: Actor, captureId: string) {
-  if (!allowed(actor.role, 'assignReadings')) throw new ApiError(403, 'forbidden', 'Your role does not allow this.');
+  requirePermission(actor, 'assignReadings');
   const [capture] = await tx
     .select()
     .from(unparsedCaptures)

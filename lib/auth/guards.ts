@@ -53,6 +53,11 @@ export async function requireActor(request: Request, permission?: Permission): P
   return actor;
 }
 
+/** For lib functions called with an actor already known: 403 unless the role has the permission. */
+export function requirePermission(actor: Actor, permission: Permission, message = 'Your role does not allow this.'): void {
+  if (!allowed(actor.role, permission)) throw new ApiError(403, 'forbidden', message);
+}
+
 /** A bridge authenticates with its bearer token; revoked tokens are refused. */
 export async function requireBridge(request: Request): Promise<Bridge> {
   const token = bearerToken(request);

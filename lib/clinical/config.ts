@@ -2,8 +2,7 @@ import 'server-only';
 import { and, asc, eq, inArray } from 'drizzle-orm';
 import { db, type Executor } from '@/db/client';
 import { analyteSettings, clinics, instruments, referenceIntervals, runProtocols } from '@/db/schema';
-import type { Actor } from '@/lib/auth/guards';
-import { allowed } from '@/lib/auth/roles';
+import { requirePermission, type Actor } from '@/lib/auth/guards';
 import { recordAudit } from '@/lib/audit';
 import { ApiError, notFound } from '@/lib/http';
 import { publish } from '@/lib/live/bus';
@@ -21,7 +20,7 @@ export { installClinicalDefaults };
 import { checkUnit, convert } from './units';
 
 const mustManage = (actor: Actor) => {
-  if (!allowed(actor.role, 'manageClinic')) throw new ApiError(403, 'forbidden', 'Your role does not allow this.');
+  requirePermission(actor, 'manageClinic');
 };
 
 export async function clinicalSettings(tx: Executor, clinicId: string): Promise<ClinicalSettings> {

@@ -2,16 +2,16 @@ import 'server-only';
 import { and, asc, desc, eq, inArray, isNull, sql } from 'drizzle-orm';
 import { db } from '@/db/client';
 import { instruments, patients, readings, resultAlerts, resultAssignments, resultReviews, staffUsers } from '@/db/schema';
-import type { Actor } from '@/lib/auth/guards';
-import { allowed } from '@/lib/auth/roles';
+import { requirePermission, type Actor } from '@/lib/auth/guards';
 import { recordAudit } from '@/lib/audit';
 import { ApiError, notFound } from '@/lib/http';
 import { publish } from '@/lib/live/bus';
 import { analyteContexts, intervalContexts } from './config';
 import { evaluateResult } from './evaluate';
+import { lockReading } from '@/lib/readings/placement';
 
 const mustReview = (actor: Actor) => {
-  if (!allowed(actor.role, 'reviewResults')) throw new ApiError(403, 'forbidden', 'Only veterinarians review results.');
+  requirePermission(actor, 'reviewResults', 'Only veterinarians review results.');
 };
 
 /** A veterinarian's comment and/or "reviewed" sign-off on the result as it stands on its patient now. */
@@ -19,12 +19,7 @@ export async function reviewResult(actor: Actor, readingId: string, input: { com
   mustReview(actor);
   const database = await db();
   return database.transaction(async (tx) => {
-    const [reading] = await tx
-      .select()
-      .from(readings)
-      .where(and(eq(readings.id, readingId), eq(readings.clinicId, actor.clinicId)))
-      .for('update');
-    if (!reading) throw notFound('The reading');
+    const reading = await lockReading(tx, actor, readingId);
     if (reading.status !== 'assigned') throw new ApiError(409, 'not_assigned', 'Only a result on a patient’s record can be reviewed.');
     const [assignment] = await tx
       .select()

@@ -1,26 +1,16 @@
 import 'server-only';
 import { and, eq, isNull } from 'drizzle-orm';
-import { db, type Tx } from '@/db/client';
+import { db } from '@/db/client';
 import { readings, resultAssignments } from '@/db/schema';
-import type { Actor } from '@/lib/auth/guards';
-import { allowed } from '@/lib/auth/roles';
+import { requirePermission, type Actor } from '@/lib/auth/guards';
 import { recordAudit } from '@/lib/audit';
-import { ApiError, notFound } from '@/lib/http';
+import { ApiError } from '@/lib/http';
 import { publish } from '@/lib/live/bus';
-import { loadPatientForPlacement, placeReading, takeOffRecord } from './placement';
+import { loadPatientForPlacement, lockReading, placeReading, takeOffRecord } from './placement';
 
-async function lockReading(tx: Tx, actor: Actor, readingId: string) {
-  const [reading] = await tx
-    .select()
-    .from(readings)
-    .where(and(eq(readings.id, readingId), eq(readings.clinicId, actor.clinicId)))
-    .for('update');
-  if (!reading) throw notFound('The reading');
-  return reading;
-}
 
 const mustAssign = (actor: Actor) => {
-  if (!allowed(actor.role, 'assignReadings')) throw new ApiError(403, 'forbidden', 'Your role does not allow this.');
+  requirePermission(actor, 'assignReadings');
 };
 
 /**
@@ -107,7 +97,7 @@ export async function reassignReading(actor: Actor, readingId: string, input: { 
  * record, and the ended assignment stays in the history.
  */
 export async function voidReading(actor: Actor, readingId: string, reason: string, options: { onRecord?: boolean } = {}) {
-  if (!allowed(actor.role, 'voidReadings')) throw new ApiError(403, 'forbidden', 'Your role does not allow this.');
+  requirePermission(actor, 'voidReadings');
   const database = await db();
   return database.transaction(async (tx) => {
     const reading = await lockReading(tx, actor, readingId);

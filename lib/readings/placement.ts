@@ -178,3 +178,14 @@ export async function takeOffRecord(tx: Tx, actor: { clinicId: string; userId: s
   await tx.update(readings).set({ status: 'unassigned', patientId: null }).where(eq(readings.id, reading.id));
   return current;
 }
+
+/** Loads one of the clinic's readings and locks its row for the rest of the transaction; 404 if not the clinic's. */
+export async function lockReading(tx: Tx, actor: { clinicId: string }, readingId: string) {
+  const [reading] = await tx
+    .select()
+    .from(readings)
+    .where(and(eq(readings.id, readingId), eq(readings.clinicId, actor.clinicId)))
+    .for('update');
+  if (!reading) throw notFound('The reading');
+  return reading;
+}

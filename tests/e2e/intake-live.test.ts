@@ -1,59 +1,43 @@
 // The foundation's whole path in a real browser: simulated analyzer → real bridge → server → live Intake →
 // a technician assigns → a veterinarian's open chart shows the result without a reload.
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import type { Browser, Page } from 'playwright-core';
-import { freePort, launchBrowser, signInAs, startApp, type RunningApp } from './support';
+import { describe, expect, it } from 'vitest';
+import { freePort, markAgainstReload, signInAs, appForThisFile } from './support';
 
-let app: RunningApp;
-let browser: Browser;
-
-beforeAll(async () => {
-  app = await startApp();
-  browser = await launchBrowser();
-}, 180_000);
-
-afterAll(async () => {
-  await browser?.close();
-  await app?.stop();
-});
-
-/** Marks the page so a later check can tell it was never reloaded. */
-const mark = (page: Page) => page.evaluate(() => ((window as unknown as { __kept: number }).__kept = 42));
-const stillMarked = (page: Page) => page.evaluate(() => (window as unknown as { __kept?: number }).__kept);
+const running = appForThisFile();
 
 describe('a reading from the bench reaches the chart live', () => {
   it('arrives in Intake without reload, is assigned, and appears on the open chart', async () => {
-    const tech = await signInAs(browser, app.baseUrl, 'tech@fernhollow.example');
+    const tech = await signInAs(running.browser, running.app.baseUrl, 'tech@fernhollow.example');
     await expect.poll(() => tech.textContent('[data-testid=unassigned-count]'), { timeout: 30_000 }).toBe('0');
-    await mark(tech);
+    const techKept = await markAgainstReload(tech);
 
-    const vet = await signInAs(browser, app.baseUrl, 'vet@fernhollow.example');
+    const vet = await signInAs(running.browser, running.app.baseUrl, 'vet@fernhollow.example');
     await vet.goto('/patients');
     await vet.fill('#patients-q', 'Juniper');
     await vet.click('a:has-text("Juniper")');
     await vet.waitForURL('**/patients/*');
     await vet.waitForSelector('text=No results on this record yet.');
-    await mark(vet);
+    const vetKept = await markAgainstReload(vet);
 
     // The analyzer and the bridge start only now, so whatever appears must have come in live.
     const analyzerPort = await freePort();
-    app.spawnSide(['bridge/cli.ts', 'simulate', '--listen', String(analyzerPort), '--every', '2', '--seed', '11']);
-    app.spawnSide(
+    running.app.spawnSide(['bridge/cli.ts', 'simulate', '--listen', String(analyzerPort), '--every', '2', '--seed', '11']);
+    running.app.spawnSide(
       [
         'bridge/cli.ts', 'run',
-        '--server', app.baseUrl,
+        '--server', running.app.baseUrl,
         '--instrument', 'crp-reader',
         '--dialect', 'plain-printout',
         '--source', `tcp://127.0.0.1:${analyzerPort}`,
-        '--spool', `${app.dataDir}/e2e-spool`,
+        '--spool', `${running.app.dataDir}/e2e-spool`,
       ],
-      { BENCHWIRE_BRIDGE_TOKEN: app.bridgeToken },
+      { BENCHWIRE_BRIDGE_TOKEN: running.app.bridgeToken },
     );
 
     const row = await tech.waitForSelector('tr[data-reading-id]', { timeout: 90_000 }).catch((error) => {
-      throw new Error(`${error.message}\n--- processes ---\n${app.logs()}`);
+      throw new Error(`${error.message}\n--- processes ---\n${running.app.logs()}`);
     });
-    expect(await stillMarked(tech)).toBe(42);
+    expect(await techKept()).toBe(true);
     const readingId = await row.getAttribute('data-reading-id');
     expect(readingId).toMatch(/^[0-9a-f-]{36}$/);
     // The printed value shows with its unit (the invented slip prints mg/L).
@@ -66,7 +50,7 @@ describe('a reading from the bench reaches the chart live', () => {
     await tech.waitForSelector(`tr[data-reading-id="${readingId}"]`, { state: 'detached', timeout: 30_000 });
 
     await vet.waitForSelector(`[data-testid=patient-results] tr[data-reading-id="${readingId}"]`, { timeout: 30_000 });
-    expect(await stillMarked(vet)).toBe(42);
+    expect(await vetKept()).toBe(true);
 
     // The audit trail names who assigned it (through the API, as the technician).
     const detail = await tech.evaluate(async (id) => (await fetch(`/api/readings/${id}`)).json(), readingId);

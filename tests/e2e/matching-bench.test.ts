@@ -2,32 +2,18 @@
 // arrives at the due time (posted as the bridge posts it), Intake ranks the right patient first with its
 // reasons, the technician confirms in one click, and the veterinarian's open chart gains the point live.
 // Timing check value (common practice for a single-test CRP reader, no published source): due = start + 700 s.
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import type { Browser, Page } from 'playwright-core';
-import { launchBrowser, signInAs, startApp, type RunningApp } from './support';
+import { describe, expect, it } from 'vitest';
+import { markAgainstReload, signInAs, appForThisFile } from './support';
 
-let app: RunningApp;
-let browser: Browser;
+const running = appForThisFile();
 
-beforeAll(async () => {
-  app = await startApp();
-  browser = await launchBrowser();
-}, 180_000);
-
-afterAll(async () => {
-  await browser?.close();
-  await app?.stop();
-});
-
-const mark = (page: Page) => page.evaluate(() => ((window as unknown as { __kept: number }).__kept = 7));
-const stillMarked = (page: Page) => page.evaluate(() => (window as unknown as { __kept?: number }).__kept);
 
 /** Posts one reading the way the bridge uploads a parsed slip with no sample ID on it. */
 async function anonymousReading(value: number, at: Date) {
   const raw = `---- RESULT ----\nTEST      cCRP\nRESULT    ${value.toFixed(1)} mg/L\nSN        SIM-0001\n---- END ----\n`;
-  const response = await fetch(`${app.baseUrl}/api/bridge/readings`, {
+  const response = await fetch(`${running.app.baseUrl}/api/bridge/readings`, {
     method: 'POST',
-    headers: { 'content-type': 'application/json', authorization: `Bearer ${app.bridgeToken}` },
+    headers: { 'content-type': 'application/json', authorization: `Bearer ${running.app.bridgeToken}` },
     body: JSON.stringify({
       records: [
         {
@@ -46,7 +32,7 @@ async function anonymousReading(value: number, at: Date) {
 
 describe('an anonymous reading matched by timing', () => {
   it('ranks the due run first, is confirmed in one click, and lands on the open chart’s trend live', async () => {
-    const tech = await signInAs(browser, app.baseUrl, 'tech@fernhollow.example');
+    const tech = await signInAs(running.browser, running.app.baseUrl, 'tech@fernhollow.example');
     // The demo seed leaves two tests running; clear the bench so only this test's run is due.
     await tech.evaluate(async () => {
       const { orders } = await (await fetch('/api/orders?status=open')).json();
@@ -55,7 +41,7 @@ describe('an anonymous reading matched by timing', () => {
       }
     });
 
-    const vet = await signInAs(browser, app.baseUrl, 'vet@fernhollow.example');
+    const vet = await signInAs(running.browser, running.app.baseUrl, 'vet@fernhollow.example');
     await vet.goto('/patients');
     await vet.fill('#patients-q', 'Biscuit');
     await vet.click('a:has-text("Biscuit")');
@@ -64,7 +50,7 @@ describe('an anonymous reading matched by timing', () => {
     await vet.waitForSelector('[data-testid=trend-chart][data-analyte=cCRP] [data-testid=trend-point]', { timeout: 60_000 });
     const pointsBefore = await vet.locator('[data-testid=trend-point]').count();
     expect(pointsBefore).toBe(5); // the seeded post-operative series
-    await mark(vet);
+    const vetKept = await markAgainstReload(vet);
 
     // Start the test on the bench: the run began 700 s ago, so its reading is due now.
     await tech.goto('/bench');
@@ -79,13 +65,13 @@ describe('an anonymous reading matched by timing', () => {
     // Intake open; the reading arrives at the due time with nothing on it to say whose it is.
     await tech.goto('/intake');
     await tech.waitForSelector('[data-live-state=live]', { timeout: 60_000 });
-    await mark(tech);
+    const techKept = await markAgainstReload(tech);
     const readingId = await anonymousReading(42, new Date());
     const row = tech.locator(`tr[data-reading-id="${readingId}"]`);
     await row.waitFor({ timeout: 60_000 });
     const match = row.locator('[data-testid=suggested-match]');
     await expect.poll(() => match.getAttribute('data-top-patient'), { timeout: 30_000 }).toBe(biscuitId);
-    expect(await stillMarked(tech)).toBe(7);
+    expect(await techKept()).toBe(true);
     // The reasons are there in plain words.
     await match.locator('summary').click();
     const reasons = await match.locator('[data-testid=match-reasons]').first().innerText();
@@ -99,7 +85,7 @@ describe('an anonymous reading matched by timing', () => {
     await vet.waitForSelector(`[data-testid=trend-point][data-reading-id="${readingId}"]`, { timeout: 30_000 });
     await vet.waitForSelector(`[data-testid=patient-results] tr[data-reading-id="${readingId}"]`, { timeout: 30_000 });
     expect(await vet.locator('[data-testid=trend-point]').count()).toBe(pointsBefore + 1);
-    expect(await stillMarked(vet)).toBe(7);
+    expect(await vetKept()).toBe(true);
     const newRow = vet.locator(`[data-testid=patient-results] tr[data-reading-id="${readingId}"]`);
     expect(await newRow.locator('[data-testid=result-flag]').getAttribute('data-flag')).toBe('high'); // 42 > 10 mg/L
     expect(await newRow.locator('[data-testid=result-change]').innerText()).toBe("at least +37.0 mg/L (at least +740%)"); // from <5.0 mg/L: a bound, not a number
@@ -112,8 +98,8 @@ describe('an anonymous reading matched by timing', () => {
   }, 300_000);
 
   it('a critical result put on a patient alerts the attending veterinarian at once, in the app', async () => {
-    const tech = await signInAs(browser, app.baseUrl, 'tech@fernhollow.example');
-    const vet = await signInAs(browser, app.baseUrl, 'vet@fernhollow.example');
+    const tech = await signInAs(running.browser, running.app.baseUrl, 'tech@fernhollow.example');
+    const vet = await signInAs(running.browser, running.app.baseUrl, 'vet@fernhollow.example');
     await vet.goto('/patients');
     // The count appears once the open alerts have loaded (the seed leaves one open for this veterinarian).
     await vet.waitForSelector('[data-testid=alert-count]', { timeout: 30_000 });

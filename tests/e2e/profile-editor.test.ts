@@ -1,21 +1,9 @@
 // An administrator teaches Benchwire a new text printout from the browser: writes the profile, checks it on a
 // pasted capture in the live preview, saves it, and puts an instrument on it.
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import type { Browser } from 'playwright-core';
-import { launchBrowser, signInAs, startApp, type RunningApp } from './support';
+import { describe, expect, it } from 'vitest';
+import { signInAs, appForThisFile } from './support';
 
-let app: RunningApp;
-let browser: Browser;
-
-beforeAll(async () => {
-  app = await startApp();
-  browser = await launchBrowser();
-}, 180_000);
-
-afterAll(async () => {
-  await browser?.close();
-  await app?.stop();
-});
+const running = appForThisFile();
 
 // An invented blood-gas printer's slip (our own format), CRLF line endings, a printer notice after it.
 const CAPTURE = [
@@ -31,7 +19,7 @@ const CAPTURE = [
 
 describe('onboarding a text printout', () => {
   it('writes a profile with a live preview, saves it, and reads an instrument with it', async () => {
-    const admin = await signInAs(browser, app.baseUrl, 'admin@fernhollow.example');
+    const admin = await signInAs(running.browser, running.app.baseUrl, 'admin@fernhollow.example');
     await admin.goto('/admin/profiles/new');
     await admin.fill('#p-name', 'Blood gas printer');
     await admin.fill('#p-analyzer', 'Blood gas analyzer, bench 4');

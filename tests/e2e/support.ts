@@ -5,6 +5,7 @@ import fs from 'node:fs';
 import net from 'node:net';
 import os from 'node:os';
 import path from 'node:path';
+import { afterAll, beforeAll } from 'vitest';
 import { chromium, type Browser, type Page } from 'playwright-core';
 
 const root = process.cwd();
@@ -112,4 +113,35 @@ export async function signInAs(browser: Browser, baseUrl: string, email: string,
   await page.waitForURL('**/intake', { timeout: 60_000 });
   await page.waitForSelector('[data-live-state=live]', { timeout: 60_000 });
   return page;
+}
+
+/** One server and one browser for a test file, started before its tests and stopped after them. */
+export function appForThisFile(): { readonly app: RunningApp; readonly browser: Browser } {
+  let app: RunningApp | undefined;
+  let browser: Browser | undefined;
+  beforeAll(async () => {
+    app = await startApp();
+    browser = await launchBrowser();
+  }, 180_000);
+  afterAll(async () => {
+    await browser?.close();
+    await app?.stop();
+  });
+  return {
+    get app() {
+      if (!app) throw new Error('the app is not running (beforeAll failed?)');
+      return app;
+    },
+    get browser() {
+      if (!browser) throw new Error('the browser is not running (beforeAll failed?)');
+      return browser;
+    },
+  };
+}
+
+/** Marks a page; the returned check is true only if the page was never reloaded since. */
+export async function markAgainstReload(page: Page): Promise<() => Promise<boolean>> {
+  const token = Math.random().toString(36).slice(2);
+  await page.evaluate((t) => ((window as unknown as { __benchwireMark: string }).__benchwireMark = t), token);
+  return async () => (await page.evaluate(() => (window as unknown as { __benchwireMark?: string }).__benchwireMark)) === token;
 }

@@ -1,5 +1,6 @@
 'use client';
-import { useEffect, useState } from 'react';
+import { useDebounced } from '@/app/components/use-debounced';
+import { useState } from 'react';
 import useSWR from 'swr';
 import { Field, Notice, buttonClass, inputClass } from '@/app/components/ui';
 import { fetcher, send } from '@/lib/client/fetcher';
@@ -19,11 +20,7 @@ export function StartTestForm() {
   const actor = useActor();
   const options = useSWR<Options>('/api/orders/options', fetcher);
   const [q, setQ] = useState('');
-  const [debounced, setDebounced] = useState('');
-  useEffect(() => {
-    const timer = setTimeout(() => setDebounced(q.trim()), 200);
-    return () => clearTimeout(timer);
-  }, [q]);
+  const debounced = useDebounced(q.trim(), 200);
   const search = useSWR<{ patients: PatientView[] }>(debounced ? `/api/patients?q=${encodeURIComponent(debounced)}&limit=8` : null, fetcher);
   const [patient, setPatient] = useState<PatientView | null>(null);
   const [analyte, setAnalyte] = useState('');

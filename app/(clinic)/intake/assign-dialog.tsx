@@ -1,5 +1,6 @@
 'use client';
-import { useEffect, useId, useState } from 'react';
+import { useDebounced } from '@/app/components/use-debounced';
+import { useId, useState } from 'react';
 import useSWR from 'swr';
 import { Modal } from '@/app/components/modal';
 import { Notice, buttonClass, inputClass } from '@/app/components/ui';
@@ -11,14 +12,6 @@ import { speciesWarning, type Candidate } from '@/lib/clinical/matching';
 import { ReadingSummary } from './reading-summary';
 import { Reasons, StrengthBadge } from './suggested-match';
 
-function useDebounced<T>(value: T, ms: number) {
-  const [debounced, setDebounced] = useState(value);
-  useEffect(() => {
-    const timer = setTimeout(() => setDebounced(value), ms);
-    return () => clearTimeout(timer);
-  }, [value, ms]);
-  return debounced;
-}
 
 /**
  * Search, pick, confirm: a reading goes on a patient only after a person chose that patient.

@@ -1,5 +1,6 @@
 'use client';
-import { useEffect, useState } from 'react';
+import { useDebounced } from '@/app/components/use-debounced';
+import { useState } from 'react';
 import useSWR from 'swr';
 import { useRouter } from 'next/navigation';
 import { useFieldArray, useForm, useWatch, type FieldErrors } from 'react-hook-form';
@@ -37,14 +38,6 @@ const TEMPLATE: ProfileDefinitionInput = {
 const blankToUndefined = (v: unknown) => (v === '' || v === null ? undefined : v);
 const numberOrUndefined = (v: unknown) => (v === '' || v === null || v === undefined ? undefined : Number(v));
 
-function useDebounced<T>(value: T, ms: number) {
-  const [debounced, setDebounced] = useState(value);
-  useEffect(() => {
-    const timer = setTimeout(() => setDebounced(value), ms);
-    return () => clearTimeout(timer);
-  }, [value, ms]);
-  return debounced;
-}
 
 /** The editor: the profile as a form on the left, the captured printout and what the profile makes of it on the right. */
 export function ProfileEditor({ profileKey, initial, version }: { profileKey?: string; initial?: FormValues; version?: number }) {

@@ -1,7 +1,8 @@
 'use client';
+import { useDebounced } from '@/app/components/use-debounced';
 // One result opened on the chart: why it is flagged, its history, comments and sign-off, and the
 // corrections (move to another patient, void) that keep the history.
-import { useEffect, useState } from 'react';
+import { useState } from 'react';
 import useSWR from 'swr';
 import { Modal } from '@/app/components/modal';
 import { Field, Notice, buttonClass, inputClass } from '@/app/components/ui';
@@ -185,11 +186,7 @@ function ReviewForm({ result }: { result: ChartResult }) {
 
 function ReassignDialog({ result, fromName, fromId, onClose }: { result: ChartResult; fromName: string; fromId: string; onClose: (moved: boolean) => void }) {
   const [q, setQ] = useState('');
-  const [debounced, setDebounced] = useState('');
-  useEffect(() => {
-    const timer = setTimeout(() => setDebounced(q.trim()), 200);
-    return () => clearTimeout(timer);
-  }, [q]);
+  const debounced = useDebounced(q.trim(), 200);
   const search = useSWR<{ patients: PatientView[] }>(debounced ? `/api/patients?q=${encodeURIComponent(debounced)}&limit=10` : null, fetcher);
   const [chosen, setChosen] = useState<PatientView | null>(null);
   const [reason, setReason] = useState('');
