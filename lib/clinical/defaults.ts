@@ -47,12 +47,12 @@ export const DEFAULT_ANALYTES: DefaultAnalyte[] = [
     decimals: 1,
     validatedSpecies: ['dog'],
     speciesNote:
-      'CRP is a major acute-phase protein in dogs but not in cats (Cerón JJ, Eckersall PD, Martínez-Subiela S. Acute phase proteins in dogs and cats: current knowledge and future perspectives. Vet Clin Pathol 2005;34:85–99).',
+      'CRP is a major acute-phase protein in dogs but not in cats (Cerón JJ, Eckersall PD, Martínez-Subiela S. Acute phase proteins in dogs and cats: current knowledge and future perspectives. Vet Clin Pathol 2005;34:85–99; cited from memory).',
     deltaAbsolute: 20,
     deltaPercent: 270,
     deltaWindowHours: 72,
     deltaSource:
-      '270%: the one-sided critical difference for serial canine CRP (269.9%) in apparently healthy dogs, J Vet Intern Med 2011, doi:10.1111/j.1939-1676.2011.0729.x. 20 mg/L and 72 h: clinic choice, no published source (common practice to pair a percent limit with an absolute one).',
+      '270%: the one-sided critical difference for serial canine CRP (269.9%) in apparently healthy dogs, J Vet Intern Med 2011, doi:10.1111/j.1939-1676.2011.0729.x (value and citation from memory, not checked against the paper: verify before relying on it). 20 mg/L and 72 h: clinic choice, no published source (common practice to pair a percent limit with an absolute one).',
   },
 ];
 
@@ -88,6 +88,6 @@ export const DEFAULT_INTERVALS: DefaultInterval[] = [
       { label: 'Markedly raised', from: 100, to: null },
     ],
     source:
-      'Upper limit 10 mg/L: from memory, a limit in common use for canine-specific CRP assays; healthy dogs were below 5 mg/L in Caspi D et al., C-reactive protein in dogs, Am J Vet Res 1987;48:919–921. Band and critical limit at 100 mg/L: concentrations > 100 mg/L studied as "extremely high" in BMC Vet Res 2020, doi:10.1186/s12917-020-02367-7; using it as a critical limit is a clinic policy placeholder, no published source. Check against your instrument’s validated interval.',
+      'Upper limit 10 mg/L: from memory, a limit in common use for canine-specific CRP assays; healthy dogs were below 5 mg/L in Caspi D et al., C-reactive protein in dogs, Am J Vet Res 1987;48:919–921 (citation from memory). Band and critical limit at 100 mg/L: concentrations > 100 mg/L studied as "extremely high" in BMC Vet Res 2020, doi:10.1186/s12917-020-02367-7 (citation from memory, not checked); using it as a critical limit is a clinic policy placeholder, no published source. Check against your instrument’s validated interval.',
   },
 ];
