@@ -189,6 +189,26 @@ describe('Uploader', () => {
     expect(lines.some((line) => line.startsWith('error') && line.includes('rejected.jsonl'))).toBe(true);
   });
 
+  it('isolates a refused record: the good ones in the same batch are stored, only the bad one is rejected', async () => {
+    const records = await spoolReadings(5);
+    const bad = records[2];
+    const store = keyStore();
+    const message = 'records.2.payload.value: expected number';
+    const server = await serve((batch) =>
+      batch.records.some((r) => r.key === bad.key)
+        ? { status: 400, body: { error: { code: 'invalid_request', message, issues: [] } } }
+        : { status: 200, body: store.answer(batch) },
+    );
+    const uploader = upload(server.url);
+    const [rejected] = await Promise.all([when(uploader, 'rejected'), uploader.start()]);
+    expect(rejected[0]).toEqual({ status: 400, count: 1, message });
+    await drained(uploader);
+    expect([...store.ids.keys()].sort()).toEqual(records.filter((r) => r !== bad).map((r) => r.key).sort());
+    const kept = (await readFile(join(dir, REJECTED_FILE), 'utf8')).trim().split('\n').map((line) => JSON.parse(line));
+    expect(kept.map((k: { record: { key: string } }) => k.record.key)).toEqual([bad.key]);
+    expect(spool.depth()).toBe(0);
+  });
+
   it('says clearly when the token is refused and keeps trying', async () => {
     await spoolReadings(1);
     const store = keyStore();

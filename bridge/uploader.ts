@@ -72,7 +72,7 @@ const DEFAULT_RETRY: RetryPolicy = { initialMs: 1_000, maxMs: 60_000 };
 /**
  * Sends spooled records in batches and acks in the spool only the keys the server confirmed.
  * Server away or failing: retry with exponential backoff and jitter. Token refused: retry slowly.
- * Batch refused as malformed (400): kept in rejected.jsonl for a person, and carry on.
+ * Batch refused as malformed (400): halved until the refused record is alone, which is kept in rejected.jsonl for a person; carry on.
  */
 export class Uploader extends EventEmitter<UploaderEvents> {
   private readonly spool: Spool;
@@ -135,9 +135,15 @@ export class Uploader extends EventEmitter<UploaderEvents> {
       }
       const answer = await this.send(batch);
       if (answer.kind === 'stopped') break;
-      if (answer.kind === 'too-large' && batch.length > 1) {
+      // Too large, or refused as malformed: send halves, so one bad record cannot hold back good ones
+      // and only the records the server really refuses end up in rejected.jsonl.
+      if ((answer.kind === 'too-large' || answer.kind === 'rejected') && batch.length > 1) {
         limit = Math.ceil(batch.length / 2);
-        this.log.warn(`upload: server found ${batch.length} records too large for one request; trying ${limit}`);
+        this.log.warn(
+          answer.kind === 'too-large'
+            ? `upload: server found ${batch.length} records too large for one request; trying ${limit}`
+            : `upload: server refused a batch of ${batch.length} (HTTP ${answer.status}: ${answer.message}); sending ${limit} at a time to find the record it refuses`,
+        );
         continue;
       }
       limit = MAX_BATCH;
