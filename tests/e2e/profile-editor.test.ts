@@ -1,5 +1,5 @@
 // An administrator teaches Benchwire a new text printout from the browser: writes the profile, checks it on a
-// pasted capture in the live preview, saves it, and puts an instrument on it.
+// pasted capture in the live preview, saves it, and puts an instrument on it. Also: sorting the patient list.
 import { describe, expect, it } from 'vitest';
 import { signInAs, appForThisFile } from './support';
 
@@ -58,4 +58,17 @@ describe('onboarding a text printout', () => {
     const row = admin.locator('tr', { hasText: 'gas-analyzer' });
     await expect.poll(() => row.textContent(), { timeout: 30_000 }).toContain('Printout profile');
   }, 240_000);
+
+  it('sorts the patient list by a column heading, both ways', async () => {
+    const admin = await signInAs(running.browser, running.app.baseUrl, 'admin@fernhollow.example');
+    await admin.goto('/patients');
+    const firstName = () => admin.locator('[data-testid=patient-list] tbody tr').first().locator('td').nth(1).textContent();
+    // The demo clinic's twelve patients: alphabetically Biscuit comes first and Willow last.
+    await expect.poll(firstName, { timeout: 30_000 }).toBe('Biscuit');
+    await admin.click('[data-testid=patient-list] th button:has-text("Name")');
+    await expect.poll(firstName).toBe('Biscuit');
+    await admin.click('[data-testid=patient-list] th button:has-text("Name")');
+    await expect.poll(firstName).toBe('Willow');
+    expect(await admin.getAttribute('[data-testid=patient-list] th:has(button:has-text("Name"))', 'aria-sort')).toBe('descending');
+  }, 120_000);
 });

@@ -2,10 +2,34 @@
 import Link from 'next/link';
 import { useDeferredValue, useState } from 'react';
 import useSWR from 'swr';
+import { createColumnHelper } from '@tanstack/react-table';
+import { DataTable } from '@/app/components/data-table';
 import { Notice, inputClass } from '@/app/components/ui';
 import { fetcher } from '@/lib/client/fetcher';
 import { formatAge, sexLabel, speciesLabel } from '@/lib/format';
 import type { PatientView } from '@/lib/patients';
+
+const column = createColumnHelper<PatientView>();
+const columns = [
+  column.accessor('recordNumber', { header: 'Record', cell: (c) => <span className="font-mono">{c.getValue()}</span> }),
+  column.accessor('name', {
+    header: 'Name',
+    cell: (c) => (
+      <Link href={`/patients/${c.row.original.id}`} className="font-semibold text-ink-800 underline-offset-2 hover:underline">
+        {c.getValue()}
+      </Link>
+    ),
+  }),
+  column.accessor((p) => `${speciesLabel[p.species]}${p.breed ? `, ${p.breed}` : ''}`, { id: 'species', header: 'Species, breed' }),
+  column.accessor('dateOfBirth', {
+    header: 'Sex, age',
+    // Oldest first when sorted ascending: by date of birth, not by the printed age.
+    sortingFn: (a, b) => (a.original.dateOfBirth ?? '9999').localeCompare(b.original.dateOfBirth ?? '9999'),
+    cell: (c) => `${sexLabel[c.row.original.sex]}, ${formatAge(c.getValue())}`,
+  }),
+  column.accessor((p) => p.ownerName ?? '—', { id: 'owner', header: 'Owner' }),
+  column.accessor((p) => p.attendingVetName ?? '—', { id: 'attending', header: 'Attending' }),
+];
 
 export function PatientSearch() {
   const [query, setQuery] = useState('');
@@ -22,48 +46,7 @@ export function PatientSearch() {
         <input id="patients-q" type="search" className={inputClass} value={query} onChange={(e) => setQuery(e.target.value)} />
       </div>
       {error && <Notice tone="error">Could not load patients: {error.message}</Notice>}
-      <div className="overflow-x-auto rounded-lg border border-ink-100 bg-white shadow-sm">
-        <table className="min-w-full divide-y divide-ink-100 text-sm">
-          <thead className="bg-paper-deep/60 text-left text-xs uppercase tracking-wide text-ink-700">
-            <tr>
-              <th scope="col" className="px-4 py-2">Record</th>
-              <th scope="col" className="px-4 py-2">Name</th>
-              <th scope="col" className="px-4 py-2">Species, breed</th>
-              <th scope="col" className="px-4 py-2">Sex, age</th>
-              <th scope="col" className="px-4 py-2">Owner</th>
-              <th scope="col" className="px-4 py-2">Attending</th>
-            </tr>
-          </thead>
-          <tbody className="divide-y divide-ink-100">
-            {data?.patients.map((p) => (
-              <tr key={p.id} className="hover:bg-paper">
-                <td className="px-4 py-2 font-mono">{p.recordNumber}</td>
-                <td className="px-4 py-2">
-                  <Link href={`/patients/${p.id}`} className="font-semibold text-ink-800 underline-offset-2 hover:underline">
-                    {p.name}
-                  </Link>
-                </td>
-                <td className="px-4 py-2">
-                  {speciesLabel[p.species]}
-                  {p.breed && <span className="text-ink-700">, {p.breed}</span>}
-                </td>
-                <td className="px-4 py-2">
-                  {sexLabel[p.sex]}, {formatAge(p.dateOfBirth)}
-                </td>
-                <td className="px-4 py-2">{p.ownerName ?? '—'}</td>
-                <td className="px-4 py-2">{p.attendingVetName ?? '—'}</td>
-              </tr>
-            ))}
-            {data?.patients.length === 0 && (
-              <tr>
-                <td colSpan={6} className="px-4 py-6 text-center text-ink-500">
-                  No patient matches.
-                </td>
-              </tr>
-            )}
-          </tbody>
-        </table>
-      </div>
+      <DataTable columns={columns} rows={data?.patients ?? []} rowKey={(p) => p.id} empty={data ? 'No patient matches.' : 'Loading…'} testId="patient-list" />
     </div>
   );
 }
