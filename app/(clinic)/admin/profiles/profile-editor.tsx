@@ -251,7 +251,7 @@ function Preview({ preview }: { preview: { items: PreviewItem[] } | { problem: s
                   <dd className="font-mono">{value}</dd>
                 </div>
               ))}
-              {item.reading.sampleId && (<><dt className="text-ink-500">sample</dt><dd className="font-mono">{item.reading.sampleId}</dd></>)}
+              {item.reading.sampleId && !item.fields.sampleId && (<><dt className="text-ink-500">sampleId</dt><dd className="font-mono">{item.reading.sampleId}</dd></>)}
               {item.reading.measuredAt && (<><dt className="text-ink-500">measured</dt><dd className="font-mono">{item.reading.measuredAt}</dd></>)}
             </dl>
             <details className="mt-1">
