@@ -164,6 +164,13 @@ function timingReason(reading: MatchReading, order: MatchOrder, clock: Clock): R
   return { code: 'on-time', points, text: `Arrived ${when} (${clock(order.dueAt)}; ${tolerance}).` };
 }
 
+/** Orders this reading could be the result of: open, same test, a known patient, started before it arrived. */
+function openOrdersFor(reading: MatchReading, orders: MatchOrder[], patients: Map<string, MatchPatient>): MatchOrder[] {
+  return orders.filter(
+    (o) => o.status === 'open' && o.analyte === reading.analyte && patients.has(o.patientId) && o.startedAt.getTime() <= reading.arrivedAt.getTime(),
+  );
+}
+
 /**
  * Ranks candidate orders (and patients named by an ID on the reading) for one reading, best first:
  * candidates named by an exact ID first, then by score; equal scores are reported as ties.
@@ -175,13 +182,7 @@ export function rankCandidates(input: MatchInput): Candidate[] {
   const patients = new Map(input.patients.map((p) => [p.id, p]));
   const instruments = new Map(input.instruments.map((i) => [i.id, i]));
   const analyte = input.analytes.find((a) => a.code === reading.analyte);
-  const eligible = input.orders.filter(
-    (o) =>
-      o.status === 'open' &&
-      o.analyte === reading.analyte &&
-      patients.has(o.patientId) &&
-      o.startedAt.getTime() <= reading.arrivedAt.getTime(),
-  );
+  const eligible = openOrdersFor(reading, input.orders, patients);
 
   const candidates: Omit<Candidate, 'tiedWith' | 'strength'>[] = [];
   const speciesReason = (patient: MatchPatient): Reason | null => {
@@ -389,14 +390,7 @@ export function autoAssignTarget(input: MatchInput): AutoAssignTarget | null {
   if (!reading.sampleId && !reading.patientRef) return null;
   const patients = new Map(input.patients.map((p) => [p.id, p]));
   const analyte = input.analytes.find((a) => a.code === reading.analyte);
-  const open = input.orders.filter(
-    (o) =>
-      o.status === 'open' &&
-      o.analyte === reading.analyte &&
-      (!o.instrumentId || o.instrumentId === reading.instrumentId) &&
-      o.startedAt.getTime() <= reading.arrivedAt.getTime() &&
-      patients.has(o.patientId),
-  );
+  const open = openOrdersFor(reading, input.orders, patients).filter((o) => !o.instrumentId || o.instrumentId === reading.instrumentId);
   const bySample = open.filter((o) => sameId(reading.sampleId, o.sampleId));
   const byRecord = open.filter((o) => {
     const p = patients.get(o.patientId)!;

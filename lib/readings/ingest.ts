@@ -1,6 +1,6 @@
 import 'server-only';
 import { and, eq, inArray } from 'drizzle-orm';
-import { db } from '@/db/client';
+import { db, type Tx } from '@/db/client';
 import { bridges, instruments, readings, unparsedCaptures, type Bridge } from '@/db/schema';
 import { recordAudit } from '@/lib/audit';
 import { publish } from '@/lib/live/bus';
@@ -15,6 +15,15 @@ export function storable<T>(value: T): T {
     return Object.fromEntries(Object.entries(value).map(([k, v]) => [k, storable(v)])) as T;
   }
   return value;
+}
+
+/** The id a resent record was stored under the first time (same bridge, same key). */
+async function storedId(tx: Tx, table: typeof readings | typeof unparsedCaptures, bridgeId: string, key: string): Promise<string> {
+  const [existing] = await tx
+    .select({ id: table.id })
+    .from(table)
+    .where(and(eq(table.bridgeId, bridgeId), eq(table.idempotencyKey, key)));
+  return existing.id;
 }
 
 /**
@@ -51,11 +60,7 @@ export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promis
           .onConflictDoNothing({ target: [unparsedCaptures.bridgeId, unparsedCaptures.idempotencyKey] })
           .returning({ id: unparsedCaptures.id });
         if (!row) {
-          const [existing] = await tx
-            .select({ id: unparsedCaptures.id })
-            .from(unparsedCaptures)
-            .where(and(eq(unparsedCaptures.bridgeId, bridge.id), eq(unparsedCaptures.idempotencyKey, record.key)));
-          results.push({ key: record.key, status: 'duplicate', id: existing.id });
+          results.push({ key: record.key, status: 'duplicate', id: await storedId(tx, unparsedCaptures, bridge.id, record.key) });
           continue;
         }
         await recordAudit(tx, {
@@ -90,11 +95,7 @@ export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promis
         .onConflictDoNothing({ target: [readings.bridgeId, readings.idempotencyKey] })
         .returning();
       if (!row) {
-        const [existing] = await tx
-          .select({ id: readings.id })
-          .from(readings)
-          .where(and(eq(readings.bridgeId, bridge.id), eq(readings.idempotencyKey, record.key)));
-        results.push({ key: record.key, status: 'duplicate', id: existing.id });
+        results.push({ key: record.key, status: 'duplicate', id: await storedId(tx, readings, bridge.id, record.key) });
         continue;
       }
       await recordAudit(tx, {
