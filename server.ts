@@ -16,6 +16,7 @@ async function main() {
   const { getDatabase } = await import('@/db/client');
   const { isEmpty, seedDemoClinic } = await import('@/db/seed');
   const { dataDir } = await import('@/lib/config');
+  process.umask(0o077);
   const database = await getDatabase();
   if (seedDemo && (await isEmpty(database.db))) {
     const { bridgeToken } = await seedDemoClinic(database.db);

@@ -215,6 +215,8 @@ async function runCommand(args: string[]): Promise<number> {
   });
   const options = await runOptions(values, process.env);
   checkBridgeOptions(options);
+  // Spool, capture log and saved config hold patient data: owner-only (0700 directories, 0600 files).
+  process.umask(0o077);
   const log = streamLog(process.stdout);
   const { startBridge } = await import('./pipeline');
   log.info(`bridge: spool ${options.spoolDir}, server ${options.server}${options.configFromServer ? ', instruments from the server' : ''}`);

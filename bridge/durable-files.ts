@@ -18,7 +18,7 @@ export async function syncDirectory(dir: string): Promise<void> {
 /** Replace a file in one step: write a temp file, fsync it, rename it over the old one, fsync the directory. */
 export async function writeFileAtomically(path: string, data: string | Buffer): Promise<void> {
   const temp = `${path}.tmp`;
-  const handle = await open(temp, 'w');
+  const handle = await open(temp, 'w', 0o600);
   try {
     await handle.writeFile(data);
     await handle.sync();
@@ -35,7 +35,7 @@ export async function appendDurably(path: string, data: string | Buffer): Promis
     () => true,
     () => false,
   );
-  const handle = await open(path, 'a');
+  const handle = await open(path, 'a', 0o600);
   try {
     await handle.appendFile(data);
     await handle.sync();

@@ -7,6 +7,7 @@ import { bridgeRecordSchema, type BridgeRecord, type ParserOutput } from '../lib
 import { appendDurably, syncDirectory, writeFileAtomically } from './durable-files';
 import { isoWithOffset } from './local-time';
 import { errorMessage, silentLog, type Log } from './log';
+import { lockStore, tightenPermissions } from '../lib/store-lock';
 
 export const SPOOL_FILE = 'spool.jsonl';
 export const ACK_FILE = 'ack.json';
@@ -44,24 +45,36 @@ export class Spool extends EventEmitter<SpoolEvents> {
     /** Records after the ack pointer, in spool order. */
     private entries: BridgeRecord[],
     private readonly log: Log,
+    private readonly unlock: () => void,
   ) {
     super();
   }
 
+  /**
+   * Opens (or creates, owner-only) the spool in dir. One process per spool: a second bridge on the same
+   * directory gets a StoreLockedError naming the first one's pid.
+   */
   static async open(dir: string, options: { log?: Log } = {}): Promise<Spool> {
     const log = options.log ?? silentLog;
-    await mkdir(dir, { recursive: true });
-    const path = join(dir, SPOOL_FILE);
-    const { records, goodBytes, keptAll, existed } = await readSpoolFile(dir, log);
-    const file = await open(path, 'a');
-    if (!existed) await syncDirectory(dir);
-    if (!keptAll) {
-      await file.truncate(goodBytes);
-      await file.sync();
+    await mkdir(dir, { recursive: true, mode: 0o700 });
+    const unlock = lockStore(dir, 'a Benchwire bridge');
+    try {
+      tightenPermissions(dir);
+      const path = join(dir, SPOOL_FILE);
+      const { records, goodBytes, keptAll, existed } = await readSpoolFile(dir, log);
+      const file = await open(path, 'a', 0o600);
+      if (!existed) await syncDirectory(dir);
+      if (!keptAll) {
+        await file.truncate(goodBytes);
+        await file.sync();
+      }
+      const confirmedThrough = await readAckPointer(dir, log);
+      const at = confirmedThrough === null ? -1 : records.findIndex((record) => record.key === confirmedThrough);
+      return new Spool(dir, file, goodBytes, records.slice(at + 1), log, unlock);
+    } catch (error) {
+      unlock();
+      throw error;
     }
-    const confirmedThrough = await readAckPointer(dir, log);
-    const at = confirmedThrough === null ? -1 : records.findIndex((record) => record.key === confirmedThrough);
-    return new Spool(dir, file, goodBytes, records.slice(at + 1), log);
   }
 
   /** Spool one parser output; resolves once it is on disk. */
@@ -119,7 +132,11 @@ export class Spool extends EventEmitter<SpoolEvents> {
     await this.serially(async () => {
       if (this.closed) return;
       this.closed = true;
-      await this.file.close();
+      try {
+        await this.file.close();
+      } finally {
+        this.unlock();
+      }
     });
   }
 

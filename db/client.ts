@@ -6,6 +6,7 @@ import { drizzle, type PgliteDatabase } from 'drizzle-orm/pglite';
 import { migrate } from 'drizzle-orm/pglite/migrator';
 import * as schema from './schema';
 import { dataDir } from '@/lib/config';
+import { lockStore, tightenPermissions } from '@/lib/store-lock';
 
 export type Db = PgliteDatabase<typeof schema>;
 export type Tx = Parameters<Parameters<Db['transaction']>[0]>[0];
@@ -26,7 +27,7 @@ const MIGRATIONS = path.join(/*turbopackIgnore: true*/ process.cwd(), 'db', 'mig
  * the committed migrations. PGlite allows one process per data directory.
  */
 export async function openDatabase(dir?: string): Promise<Database> {
-  if (dir) fs.mkdirSync(dir, { recursive: true });
+  if (dir) fs.mkdirSync(dir, { recursive: true, mode: 0o700 });
   const pg = await PGlite.create(dir);
   const db = drizzle({ client: pg, schema, casing: 'snake_case' });
   await migrate(db, { migrationsFolder: MIGRATIONS });
@@ -37,6 +38,45 @@ export async function openDatabase(dir?: string): Promise<Database> {
   };
 }
 
+/**
+ * The server's store: DATA_DIR locked for this process first (a second server on the same directory
+ * refuses to start, naming the holder), made owner-only, then the database in it opened.
+ */
+export async function openDataDir(dir: string = dataDir()): Promise<Database> {
+  // Everything this process creates from here on is owner-only (0700 directories, 0600 files).
+  process.umask(0o077);
+  const release = lockStore(dir, 'the Benchwire server');
+  try {
+    tightenPermissions(dir);
+    const database = await openDatabase(path.join(dir, 'pgdata'));
+    // PGlite's file layer creates files 0666 whatever the umask. DATA_DIR itself is 0700, so nobody else
+    // can reach them; the files are still brought back to 0600 after opening and every minute after.
+    tightenPermissions(dir);
+    const tighten = setInterval(() => {
+      try {
+        tightenPermissions(dir);
+      } catch {
+        // a file removed while walking (WAL recycling): the next pass gets the rest
+      }
+    }, 60_000);
+    tighten.unref();
+    return {
+      ...database,
+      close: async () => {
+        clearInterval(tighten);
+        try {
+          await database.close();
+        } finally {
+          release();
+        }
+      },
+    };
+  } catch (error) {
+    release();
+    throw error;
+  }
+}
+
 // One database per process, shared by server.ts and Next's route bundles (which load their own
 // copies of this module): a process-wide symbol holds it.
 const KEY = Symbol.for('benchwire.database');
@@ -44,7 +84,7 @@ type Holder = { [KEY]?: Promise<Database> };
 const holder = globalThis as Holder;
 
 export function getDatabase(): Promise<Database> {
-  holder[KEY] ??= openDatabase(path.join(dataDir(), 'pgdata'));
+  holder[KEY] ??= openDataDir();
   return holder[KEY];
 }
 
