@@ -1,6 +1,8 @@
 import 'server-only';
 import { NextResponse } from 'next/server';
 import { ZodError, type z } from 'zod';
+import { crossSiteReason } from '@/lib/origin';
+import { findTextProblem } from '@/lib/validation/text';
 
 /** A caller's mistake, answered as `{"error":{"code","message","issues"}}` with a 4xx status. */
 export class ApiError extends Error {
@@ -46,41 +48,128 @@ export function errorResponse(error: unknown): Response {
   });
 }
 
+const SAFE_METHODS = new Set(['GET', 'HEAD', 'OPTIONS']);
+
+/** The one media type the API accepts (RFC 8259 §11); a charset parameter is allowed only as UTF-8. */
+function isExactlyJson(type: string): boolean {
+  const [essence, ...parameters] = type.split(';').map((part) => part.trim().toLowerCase());
+  if (essence !== 'application/json') return false;
+  return parameters.every((p) => p === '' || p === 'charset=utf-8' || p === 'charset="utf-8"');
+}
+
+/**
+ * Refuses what a browser on another site could make someone's session do: a state-changing request from
+ * another origin (403), or with a body that is not exactly application/json (415; a form or text/plain
+ * post needs no preflight, JSON does).
+ */
+export function checkStateChangingRequest(request: Request): void {
+  if (SAFE_METHODS.has(request.method.toUpperCase())) return;
+  const reason = crossSiteReason(request.headers, request.url);
+  if (reason) throw new ApiError(403, 'cross_site_request', `Refused: ${reason}. Use Benchwire from its own address.`);
+  // Without a Content-Type there is nothing a route will read (readJson requires the type too).
+  const type = request.headers.get('content-type');
+  if (type !== null && !isExactlyJson(type)) {
+    throw new ApiError(415, 'unsupported_media_type', 'Send the body as JSON (Content-Type: application/json).');
+  }
+}
+
 /** Wraps a route handler so every failure becomes a JSON error with the right status. */
 export function apiRoute<Ctx = unknown>(handler: (request: Request, context: Ctx) => Promise<Response>) {
   return async (request: Request, context: Ctx): Promise<Response> => {
+    let response: Response;
     try {
-      return await handler(request, context);
+      checkStateChangingRequest(request);
+      response = await handler(request, context);
     } catch (error) {
-      return errorResponse(error);
+      response = errorResponse(error);
     }
+    // API answers hold patient data: never kept by a browser or a proxy (RFC 9111 §5.2.2.5).
+    if (!response.headers.has('cache-control')) response.headers.set('cache-control', 'no-store');
+    return response;
   };
 }
 
-const MAX_BODY_BYTES = 2 * 1024 * 1024;
+/** Body limits per kind of route: small where no one is signed in yet, the batch size for bridges. */
+export const BODY_LIMITS = {
+  /** Sign-in, set-up: a few short fields. */
+  small: 16 * 1024,
+  /** Most forms and API calls. */
+  standard: 256 * 1024,
+  /** A printout profile preview carries a pasted printout of up to 256 KB. */
+  large: 1024 * 1024,
+  /** A bridge batch (the bridge sends at most 1 MB; one record may hold 64 KB of escaped raw text). */
+  bridge: 2 * 1024 * 1024,
+} as const;
+
+const tooLarge = (limit: number) =>
+  new ApiError(413, 'payload_too_large', `The body is larger than ${limit} bytes.`, [], { limit });
+
+/** Reads the body while it streams in; stops and answers 413 as soon as it passes the limit (never buffers more). */
+export async function readBodyText(request: Request, limit: number): Promise<string> {
+  const length = request.headers.get('content-length');
+  if (length !== null && Number(length) > limit) {
+    await request.body?.cancel().catch(() => {});
+    throw tooLarge(limit);
+  }
+  if (!request.body) return '';
+  const reader = request.body.getReader();
+  const chunks: Uint8Array[] = [];
+  let total = 0;
+  for (;;) {
+    const { done, value } = await reader.read();
+    if (done) break;
+    total += value.byteLength;
+    if (total > limit) {
+      await reader.cancel().catch(() => {});
+      throw tooLarge(limit);
+    }
+    chunks.push(value);
+  }
+  try {
+    return new TextDecoder('utf-8', { fatal: true }).decode(Buffer.concat(chunks));
+  } catch {
+    throw new ApiError(400, 'invalid_json', 'The body is not valid UTF-8.');
+  }
+}
+
+export interface ReadJsonOptions {
+  /** Bytes accepted (default BODY_LIMITS.standard). */
+  limit?: number;
+  /**
+   * 'strict' (default): any string holding NUL, a lone surrogate or a control character is a 400 naming
+   * its field. 'instrument': bytes from an analyzer or a pasted printout, kept as they are (the route
+   * makes them storable).
+   */
+  text?: 'strict' | 'instrument';
+}
+
+function rejectBadText(value: unknown, where: 'body' | 'query'): void {
+  const problem = findTextProblem(value);
+  if (!problem) return;
+  const field = problem.path || where;
+  throw new ApiError(400, 'invalid_text', `Invalid request: ${field}: ${problem.message}`, [{ path: problem.path, message: problem.message }]);
+}
 
 /** Reads a JSON body and validates it; malformed JSON, wrong type or size are 4xx, never 500. */
-export async function readJson<S extends z.ZodType>(request: Request, schema: S): Promise<z.infer<S>> {
-  const type = request.headers.get('content-type') ?? '';
-  if (!type.toLowerCase().includes('application/json')) {
+export async function readJson<S extends z.ZodType>(request: Request, schema: S, options: ReadJsonOptions = {}): Promise<z.infer<S>> {
+  if (!isExactlyJson(request.headers.get('content-type') ?? '')) {
     throw new ApiError(415, 'unsupported_media_type', 'Send the body as JSON (Content-Type: application/json).');
   }
-  const text = await request.text();
-  if (Buffer.byteLength(text) > MAX_BODY_BYTES) {
-    throw new ApiError(413, 'payload_too_large', `The body is larger than ${MAX_BODY_BYTES} bytes.`);
-  }
+  const text = await readBodyText(request, options.limit ?? BODY_LIMITS.standard);
   let body: unknown;
   try {
     body = JSON.parse(text);
   } catch {
     throw new ApiError(400, 'invalid_json', 'The body is not valid JSON.');
   }
+  if (options.text !== 'instrument') rejectBadText(body, 'body');
   return schema.parse(body);
 }
 
 /** Validates query parameters with a zod object schema. */
 export function readQuery<S extends z.ZodType>(request: Request, schema: S): z.infer<S> {
   const params = Object.fromEntries(new URL(request.url).searchParams);
+  rejectBadText(params, 'query');
   return schema.parse(params);
 }
 

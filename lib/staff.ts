@@ -6,6 +6,7 @@ import type { Actor } from '@/lib/auth/guards';
 import { decoyHash, hashPassword, verifyPassword } from '@/lib/auth/password';
 import { recordAudit } from '@/lib/audit';
 import { ApiError, notFound } from '@/lib/http';
+import { publishSessionEnded } from '@/lib/live/bus';
 import type { NewStaffInput, SetupInput } from '@/lib/validation/api';
 
 const isUniqueViolation = (error: unknown) =>
@@ -137,6 +138,7 @@ export async function updateStaff(actor: Actor, userId: string, change: { role?:
       entityId: userId,
       details: change,
     });
+    if (change.active === false) await publishSessionEnded(tx, { userId });
     return user;
   });
 }

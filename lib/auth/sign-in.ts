@@ -2,6 +2,7 @@ import 'server-only';
 import { eq } from 'drizzle-orm';
 import { db } from '@/db/client';
 import { staffSessions } from '@/db/schema';
+import { publishSessionEnded } from '@/lib/live/bus';
 import { SESSION_TTL_SECONDS, sealSession, sessionCookie, unsealSession } from './session';
 
 /** Opens a server-side session for a staff member and returns the cookie that names it. */
@@ -20,5 +21,9 @@ export async function endSession(seal: string | null) {
   const session = await unsealSession(seal);
   if (!session?.sessionId) return;
   const database = await db();
-  await database.update(staffSessions).set({ endedAt: new Date() }).where(eq(staffSessions.id, session.sessionId));
+  await database.transaction(async (tx) => {
+    await tx.update(staffSessions).set({ endedAt: new Date() }).where(eq(staffSessions.id, session.sessionId!));
+    // Its live feed closes too, on whichever instance holds it.
+    await publishSessionEnded(tx, { userId: session.userId, sessionId: session.sessionId });
+  });
 }

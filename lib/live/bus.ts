@@ -31,3 +31,27 @@ export async function subscribe(onEvent: (event: LiveEvent) => void): Promise<()
     if (event) onEvent(event);
   });
 }
+
+/** Sessions ended (sign-out) or people deactivated: the live feed closes their open sockets, on every instance. */
+export const SESSION_CHANNEL = 'benchwire_sessions';
+export interface SessionEnded {
+  userId: string;
+  /** One session (sign-out); absent: every session of the person (deactivated). */
+  sessionId?: string;
+}
+
+export async function publishSessionEnded(tx: Executor, ended: SessionEnded): Promise<void> {
+  await tx.execute(sql`select pg_notify(${SESSION_CHANNEL}, ${JSON.stringify(ended)})`);
+}
+
+export async function subscribeSessionEnded(onEnded: (ended: SessionEnded) => void): Promise<() => Promise<void>> {
+  const database = await getDatabase();
+  return database.listen(SESSION_CHANNEL, (payload) => {
+    try {
+      const ended = JSON.parse(payload) as SessionEnded;
+      if (typeof ended.userId === 'string') onEnded(ended);
+    } catch {
+      // not ours
+    }
+  });
+}

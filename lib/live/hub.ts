@@ -3,8 +3,9 @@ import type { IncomingMessage } from 'node:http';
 import type { Duplex } from 'node:stream';
 import { WebSocketServer, type WebSocket } from 'ws';
 import { actorFromSeal } from '@/lib/auth/guards';
-import { SESSION_COOKIE, cookieValue } from '@/lib/auth/session';
-import { subscribe } from './bus';
+import { SESSION_COOKIE, cookieValue, unsealSession } from '@/lib/auth/session';
+import { crossSiteReason } from '@/lib/origin';
+import { subscribe, subscribeSessionEnded } from './bus';
 import type { LiveEvent } from './events';
 
 export const LIVE_PATH = '/api/live';
@@ -13,6 +14,7 @@ const PING_MS = 25_000;
 interface Member {
   socket: WebSocket;
   userId: string;
+  sessionId?: string;
   alive: boolean;
 }
 
@@ -29,6 +31,17 @@ export async function createLiveHub() {
     if (!room) return;
     const message = JSON.stringify(event);
     for (const member of room) member.socket.send(message);
+  });
+
+  // Sign-out ends that session's feed; deactivation ends all of the person's.
+  const unsubscribeSessions = await subscribeSessionEnded((ended) => {
+    for (const room of rooms.values()) {
+      for (const member of room) {
+        if (member.userId === ended.userId && (!ended.sessionId || member.sessionId === ended.sessionId)) {
+          member.socket.close(4401, 'session ended');
+        }
+      }
+    }
   });
 
   const pinger = setInterval(() => {
@@ -51,16 +64,23 @@ export async function createLiveHub() {
 
   async function handleUpgrade(request: IncomingMessage, socket: Duplex, head: Buffer) {
     socket.on('error', () => socket.destroy());
+    // Browsers always send Origin on a WebSocket handshake (RFC 6455 §4.1): only our own pages may open the feed.
+    const headers = { get: (name: string) => { const v = request.headers[name]; return v === undefined ? null : String(v); } };
+    if (crossSiteReason(headers)) return refuse(socket, 403, 'Forbidden');
+    const seal = cookieValue(request.headers.cookie, SESSION_COOKIE);
     let actor: Awaited<ReturnType<typeof actorFromSeal>> = null;
     try {
-      actor = await actorFromSeal(cookieValue(request.headers.cookie, SESSION_COOKIE));
+      actor = await actorFromSeal(seal);
     } catch (error) {
       // One bad upgrade must never take the server down.
       console.error('[benchwire] live feed: could not check a session', error);
     }
     if (!actor) return refuse(socket, 401, 'Unauthorized');
+    const sessionId = (await unsealSession(seal))?.sessionId;
     wss.handleUpgrade(request, socket, head, (ws) => {
-      const member: Member = { socket: ws, userId: actor.userId, alive: true };
+      const member: Member = { socket: ws, userId: actor.userId, sessionId, alive: true };
+      // A frame over maxPayload (or any protocol error) closes this socket; it must not become an uncaught error.
+      ws.on('error', () => ws.terminate());
       const room = rooms.get(actor.clinicId) ?? new Set<Member>();
       rooms.set(actor.clinicId, room);
       room.add(member);
@@ -77,6 +97,7 @@ export async function createLiveHub() {
   async function close() {
     clearInterval(pinger);
     await unsubscribe();
+    await unsubscribeSessions();
     for (const room of rooms.values()) for (const m of room) m.socket.terminate();
     rooms.clear();
     await new Promise<void>((resolve) => wss.close(() => resolve()));

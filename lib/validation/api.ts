@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { text, isoDateTime } from './text';
 import { ROLES } from '@/lib/auth/roles';
 import { profileDefinitionSchema } from './profile';
 
@@ -19,16 +20,16 @@ const password = z
   .max(200, 'Use at most 200 characters.');
 
 export const setupSchema = z.object({
-  clinicName: z.string().trim().min(2, 'Enter the clinic name.').max(120),
-  timeZone: z.string().trim().min(1).max(64).default('UTC'),
-  displayName: z.string().trim().min(2, 'Enter your name.').max(120),
+  clinicName: text(120, { min: 2, minMessage: 'Enter the clinic name.' }),
+  timeZone: text(64, { min: 1 }).default('UTC'),
+  displayName: text(120, { min: 2, minMessage: 'Enter your name.' }),
   email: emailAddress,
   password,
 });
 export type SetupInput = z.infer<typeof setupSchema>;
 
 export const newStaffSchema = z.object({
-  displayName: z.string().trim().min(2, 'Enter the name.').max(120),
+  displayName: text(120, { min: 2, minMessage: 'Enter the name.' }),
   email: emailAddress,
   role: z.enum(ROLES),
   password,
@@ -41,7 +42,7 @@ export const updateStaffSchema = z.object({
 });
 
 export const newBridgeSchema = z.object({
-  name: z.string().trim().min(2, 'Name the bridge (e.g. the lab PC it runs on).').max(80),
+  name: text(80, { min: 2, minMessage: 'Name the bridge (e.g. the lab PC it runs on).' }),
 });
 export type NewBridgeInput = z.infer<typeof newBridgeSchema>;
 
@@ -54,13 +55,13 @@ export const instrumentCodeSchema = z
 
 export const newInstrumentSchema = z.object({
   code: instrumentCodeSchema,
-  name: z.string().trim().min(2, 'Name the instrument.').max(120),
+  name: text(120, { min: 2, minMessage: 'Name the instrument.' }),
   analytes: z
-    .array(z.string().trim().min(1).max(64))
+    .array(text(64, { min: 1 }))
     .min(1, 'List at least one analyte.')
     .max(100),
-  dialect: z.string().trim().min(1).max(64),
-  serialNumber: z.string().trim().max(64).optional(),
+  dialect: text(64, { min: 1 }),
+  serialNumber: text(64).optional(),
   bridgeId: z.uuid().optional(),
   /** For dialect 'profile': the printout profile to read with (its latest version). */
   profileId: z.uuid().optional(),
@@ -68,7 +69,7 @@ export const newInstrumentSchema = z.object({
     .discriminatedUnion('kind', [
       z.object({
         kind: z.literal('serial'),
-        path: z.string().trim().min(1).max(200),
+        path: text(200, { min: 1 }),
         baudRate: z.coerce.number().int().min(110).max(921600),
         dataBits: z.union([z.literal(5), z.literal(6), z.literal(7), z.literal(8)]),
         parity: z.enum(['none', 'even', 'odd', 'mark', 'space']),
@@ -77,7 +78,7 @@ export const newInstrumentSchema = z.object({
       }),
       z.object({
         kind: z.literal('tcp'),
-        host: z.string().trim().min(1).max(200),
+        host: text(200, { min: 1 }),
         port: z.coerce.number().int().min(1).max(65535),
         mode: z.enum(['connect', 'listen']).default('connect'),
       }),
@@ -104,13 +105,13 @@ export const assignSchema = z.object({
 });
 
 export const voidSchema = z.object({
-  reason: z.string().trim().min(3, 'Give a reason for voiding this reading.').max(500),
+  reason: text(500, { min: 3, minMessage: 'Give a reason for voiding this reading.', multiline: true }),
   /** Required to void a result that is already on a patient's record (it comes off, history kept). */
   onRecord: z.literal(true).optional(),
 });
 
 export const patientSearchQuery = z.object({
-  q: z.string().trim().max(100).default(''),
+  q: text(100).default(''),
   limit: z.coerce.number().int().min(1).max(200).default(50),
 });
 
@@ -125,23 +126,23 @@ export const DIALECT_LABELS: Record<string, string> = {
 };
 
 export const dismissCaptureSchema = z.object({
-  reason: z.string().trim().min(3, 'Say why this capture can be dismissed.').max(500),
+  reason: text(500, { min: 3, minMessage: 'Say why this capture can be dismissed.', multiline: true }),
 });
 
 /** A result typed by a person from an unparsed capture (read against the instrument's display or slip). */
 export const transcribeCaptureSchema = z.object({
-  analyte: z.string().trim().min(1, 'Enter the test.').max(64),
+  analyte: text(64, { min: 1, minMessage: 'Enter the test.' }),
   value: z.coerce.number({ message: 'Enter the number as printed.' }).finite(),
   comparator: z.enum(['<', '>']).nullable().default(null),
-  unit: z.string().trim().max(32).nullable().default(null),
-  measuredAt: z.iso.datetime({ offset: true, message: 'Enter when it was measured.' }).nullable().default(null),
-  sampleId: z.string().trim().max(64).nullable().default(null),
-  note: z.string().trim().max(500).optional(),
+  unit: text(32).nullable().default(null),
+  measuredAt: isoDateTime('Enter when it was measured.').nullable().default(null),
+  sampleId: text(64).nullable().default(null),
+  note: text(500, { multiline: true }).optional(),
 });
 export type TranscribeCaptureInput = z.infer<typeof transcribeCaptureSchema>;
 
 export const saveProfileSchema = z.object({
-  name: z.string().trim().min(2, 'Name the profile.').max(120),
+  name: text(120, { min: 2, minMessage: 'Name the profile.' }),
   definition: profileDefinitionSchema,
 });
 

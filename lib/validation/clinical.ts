@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { text, isoDateTime } from './text';
 import { sampleType, species } from '@/db/schema';
 
 // Request shapes for orders, matching, review, alerts and the clinic's clinical settings.
@@ -11,30 +12,27 @@ export const SAMPLE_TYPE_LABELS: Record<(typeof sampleType.enumValues)[number], 
   other: 'Other',
 };
 
-const optionalText = (max: number) =>
-  z
-    .string()
-    .trim()
-    .max(max)
+const optionalText = (max: number, multiline = false) =>
+  text(max, { multiline })
     .optional()
     .transform((v) => (v ? v : undefined));
 
 export const newOrderSchema = z.object({
   patientId: z.uuid('Choose a patient.'),
-  analyte: z.string().trim().min(1, 'Choose the test.').max(64),
+  analyte: text(64, { min: 1, minMessage: 'Choose the test.' }),
   instrumentId: z.uuid().optional(),
   sampleType: z.enum(sampleType.enumValues, 'Choose the sample type.'),
   sampleId: optionalText(64),
   kitLot: optionalText(64),
   orderedBy: z.uuid('Choose who ordered the test.'),
   /** When the run started; the past is allowed (started before it was entered), the future is not. */
-  startedAt: z.iso.datetime({ offset: true }).optional(),
-  note: optionalText(500),
+  startedAt: isoDateTime().optional(),
+  note: optionalText(500, true),
 });
 export type NewOrderInput = z.infer<typeof newOrderSchema>;
 
 export const closeOrderSchema = z.object({
-  reason: z.string().trim().min(3, 'Give a reason.').max(500),
+  reason: text(500, { min: 3, minMessage: 'Give a reason.', multiline: true }),
 });
 
 export const ordersQuery = z.object({
@@ -45,17 +43,17 @@ export const ordersQuery = z.object({
 export const reassignSchema = z.object({
   patientId: z.uuid('Choose a patient.'),
   orderId: z.uuid().optional(),
-  reason: z.string().trim().min(3, 'Give a reason for moving this result.').max(500),
+  reason: text(500, { min: 3, minMessage: 'Give a reason for moving this result.', multiline: true }),
 });
 
 export const reviewSchema = z
   .object({
-    comment: optionalText(2000),
+    comment: optionalText(2000, true),
     reviewed: z.boolean().default(false),
   })
   .refine((v) => v.reviewed || v.comment, { message: 'Write a comment or sign the result off as reviewed.', path: ['comment'] });
 
-export const acknowledgeSchema = z.object({ note: optionalText(500) });
+export const acknowledgeSchema = z.object({ note: optionalText(500, true) });
 
 export const alertsQuery = z.object({
   status: z.enum(['open', 'all']).default('open'),
@@ -78,19 +76,19 @@ const limit = z.number().finite().nullable();
 
 export const intervalSchema = z
   .object({
-    analyte: z.string().trim().min(1).max(64),
+    analyte: text(64, { min: 1 }),
     species: z.enum(species.enumValues),
     instrumentId: z.uuid().nullable().default(null),
-    unit: z.string().trim().min(1).max(32),
+    unit: text(32, { min: 1 }),
     low: limit,
     high: limit,
     criticalLow: limit,
     criticalHigh: limit,
     bands: z
-      .array(z.object({ label: z.string().trim().min(1).max(60), from: limit, to: limit }))
+      .array(z.object({ label: text(60, { min: 1 }), from: limit, to: limit }))
       .max(10)
       .default([]),
-    source: z.string().trim().min(3, 'Say where the interval comes from (paper, instrument insert, in-house study).').max(1000),
+    source: text(1000, { min: 3, minMessage: 'Say where the interval comes from (paper, instrument insert, in-house study).' }),
   })
   .refine((v) => v.low === null || v.high === null || v.low <= v.high, { message: 'The low limit must not be above the high limit.', path: ['low'] })
   .refine((v) => v.criticalLow === null || v.low === null || v.criticalLow <= v.low, {
@@ -104,7 +102,7 @@ export const intervalSchema = z
 export type IntervalInput = z.infer<typeof intervalSchema>;
 
 export const analyteSettingsSchema = z.object({
-  displayUnit: z.string().trim().min(1).max(32),
+  displayUnit: text(32, { min: 1 }),
   decimals: z.number().int().min(0).max(6),
   validatedSpecies: z.array(z.enum(species.enumValues)).max(10),
   deltaAbsolute: z.number().positive().nullable(),
@@ -114,12 +112,12 @@ export const analyteSettingsSchema = z.object({
 export type AnalyteSettingsInput = z.infer<typeof analyteSettingsSchema>;
 
 export const protocolSchema = z.object({
-  name: z.string().trim().min(2).max(120),
+  name: text(120, { min: 2 }),
   stages: z
     .array(
       z.object({
-        key: z.string().trim().min(1).max(32).regex(/^[a-z0-9-]+$/, 'Use lower-case letters, digits and dashes.'),
-        label: z.string().trim().min(1).max(80),
+        key: text(32, { min: 1 }).regex(/^[a-z0-9-]+$/, 'Use lower-case letters, digits and dashes.'),
+        label: text(80, { min: 1 }),
         seconds: z.number().int().min(0).max(24 * 3600),
         maxSeconds: z.number().int().min(0).max(24 * 3600).nullable().optional(),
         handsOn: z.boolean().optional(),
@@ -131,6 +129,6 @@ export const protocolSchema = z.object({
     .refine((stages) => stages.some((s) => s.seconds > 0), 'The stages must take some time.'),
   earlySeconds: z.number().int().min(0).max(3600),
   lateSeconds: z.number().int().min(0).max(24 * 3600),
-  source: z.string().trim().min(3, 'Say where the timings come from.').max(1000),
+  source: text(1000, { min: 3, minMessage: 'Say where the timings come from.' }),
 });
 export type ProtocolInput = z.infer<typeof protocolSchema>;

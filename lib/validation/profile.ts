@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { text } from './text';
 
 // A printout profile: how to read one text-printing analyzer, as data an admin edits in the browser.
 // Shared by the server (validate, store, preview) and the bridge (run). Plain zod, no server imports.
@@ -45,7 +46,7 @@ const pattern = z
 export const profileFieldSchema = z
   .object({
     /** What this line is, in the clinic's words (shown in the preview). */
-    label: z.string().trim().min(1, 'Name the line.').max(60),
+    label: text(60, { min: 1, minMessage: 'Name the line.' }),
     pattern,
     /** A record without a matching line is unparsed. */
     required: z.boolean().default(false),
@@ -69,7 +70,7 @@ export const profileFieldSchema = z
 export const profileDefinitionSchema = z
   .object({
     /** Which analyzer prints this (free text for people). */
-    analyzer: z.string().trim().min(1, 'Say which analyzer prints this.').max(120),
+    analyzer: text(120, { min: 1, minMessage: 'Say which analyzer prints this.' }),
     encoding: z.enum(['utf8', 'latin1']).default('utf8'),
     record: z
       .object({
@@ -86,9 +87,9 @@ export const profileDefinitionSchema = z
       }),
     fields: z.array(profileFieldSchema).min(1, 'Add at least one line to read.').max(40),
     /** The test, when the printout does not name it (single-test readers). */
-    analyte: z.string().trim().min(1).max(64).optional(),
+    analyte: text(64, { min: 1 }).optional(),
     /** The unit, when the printout does not print it. */
-    unit: z.string().trim().min(1).max(32).optional(),
+    unit: text(32, { min: 1 }).optional(),
     decimalComma: z.boolean().default(false),
     dateFormat: z.enum(DATE_FORMATS).default('YYYY-MM-DD'),
     timeFormat: z.enum(TIME_FORMATS).default('HH:mm'),

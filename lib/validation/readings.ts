@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { isoDateTime } from './text';
 
 // The reading contract shared by the bridge (what it parses and uploads) and the server (what it accepts).
 // Plain zod, no server imports: the bridge bundles nothing from the web app but this.
@@ -15,7 +16,7 @@ export const parsedReadingSchema = z.object({
   flags: z.array(z.string().trim().min(1).max(32)).max(16).default([]),
   sampleId: z.string().trim().max(64).nullable().default(null),
   patientRef: z.string().trim().max(64).nullable().default(null),
-  measuredAt: z.iso.datetime({ offset: true }).nullable().default(null),
+  measuredAt: isoDateTime().nullable().default(null),
   instrumentSerial: z.string().trim().max(64).nullable().default(null),
   /** The reference range as the instrument sent it (ASTM R.6, HL7 OBX-7), for people to compare with ours. */
   referenceRange: z.string().trim().max(64).nullable().default(null),
@@ -44,7 +45,7 @@ export const bridgeRecordSchema = z.object({
     .max(128)
     .regex(/^[A-Za-z0-9._:-]+$/, 'key may hold letters, digits and . _ : - only'),
   instrument: z.string().trim().min(1).max(64),
-  receivedAt: z.iso.datetime({ offset: true }),
+  receivedAt: isoDateTime(),
   payload: parserOutputSchema,
 });
 export type BridgeRecord = z.infer<typeof bridgeRecordSchema>;
@@ -80,7 +81,7 @@ export const bridgeHeartbeatSchema = z.object({
         /** Link-health warnings for people, e.g. a stream that looks like the wrong baud rate or parity. */
         warnings: z.array(z.string().max(200)).max(10).optional(),
         bytesReceived: z.number().int().min(0).optional(),
-        lastByteAt: z.iso.datetime({ offset: true }).optional(),
+        lastByteAt: isoDateTime().optional(),
       }),
     )
     .max(64)

@@ -1,5 +1,5 @@
 import { startSession } from '@/lib/auth/sign-in';
-import { apiRoute, json, readJson } from '@/lib/http';
+import { BODY_LIMITS, apiRoute, json, readJson } from '@/lib/http';
 import { clinicCount, createFirstClinic } from '@/lib/staff';
 import { setupSchema } from '@/lib/validation/api';
 
@@ -9,7 +9,7 @@ export const GET = apiRoute(async () => json({ needsSetup: (await clinicCount())
 
 /** First run only: creates the clinic and its first administrator, then signs them in. */
 export const POST = apiRoute(async (request) => {
-  const input = await readJson(request, setupSchema);
+  const input = await readJson(request, setupSchema, { limit: BODY_LIMITS.small });
   const { clinic, admin } = await createFirstClinic(input);
   const response = json({ clinic: { id: clinic.id, name: clinic.name } }, { status: 201 });
   response.cookies.set(await startSession(admin));

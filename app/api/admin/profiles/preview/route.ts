@@ -1,6 +1,6 @@
 import { previewProfile } from '@/bridge/dialects/profile';
 import { requireActor } from '@/lib/auth/guards';
-import { apiRoute, json, readJson } from '@/lib/http';
+import { BODY_LIMITS, apiRoute, json, readJson } from '@/lib/http';
 import { previewProfileSchema } from '@/lib/validation/api';
 
 /**
@@ -9,7 +9,7 @@ import { previewProfileSchema } from '@/lib/validation/api';
  */
 export const POST = apiRoute(async (request) => {
   await requireActor(request, 'manageClinic');
-  const { definition, sample } = await readJson(request, previewProfileSchema);
+  const { definition, sample } = await readJson(request, previewProfileSchema, { limit: BODY_LIMITS.large, text: 'instrument' });
   const preview = previewProfile(definition, sample);
   const fieldsOf = new Map(preview.records.flatMap((record) => record.outputs.map((output) => [output, record.fields] as const)));
   const items = preview.outputs.map((output) =>
