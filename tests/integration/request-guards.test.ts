@@ -61,7 +61,7 @@ describe('state-changing requests from other origins (CSRF)', () => {
   });
 
   it('Sec-Fetch-Site: same-site without Origin is refused; an opaque origin ("null") is refused', async () => {
-    for (const headers of [{ 'sec-fetch-site': 'same-site' }, { 'sec-fetch-site': 'cross-site' }, { origin: 'null' }]) {
+    for (const headers of [{ 'sec-fetch-site': 'same-site' }, { 'sec-fetch-site': 'cross-site' }, { origin: 'null' }] as Record<string, string>[]) {
       const response = await newStaffRoute(request('/api/admin/staff', { cookie: adminCookie, body: newStaff('csrf3@fernhollow.example'), headers }), undefined);
       expect(response.status).toBe(403);
     }
