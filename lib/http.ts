@@ -2,7 +2,7 @@ import 'server-only';
 import { NextResponse } from 'next/server';
 import { ZodError, type z } from 'zod';
 import { crossSiteReason } from '@/lib/origin';
-import { findTextProblem } from '@/lib/validation/text';
+import { findTextProblem, withWellFormedText } from '@/lib/validation/text';
 
 /** A caller's mistake, answered as `{"error":{"code","message","issues"}}` with a 4xx status. */
 export class ApiError extends Error {
@@ -162,7 +162,8 @@ export async function readJson<S extends z.ZodType>(request: Request, schema: S,
   } catch {
     throw new ApiError(400, 'invalid_json', 'The body is not valid JSON.');
   }
-  if (options.text !== 'instrument') rejectBadText(body, 'body');
+  if (options.text === 'instrument') body = withWellFormedText(body);
+  else rejectBadText(body, 'body');
   return schema.parse(body);
 }
 

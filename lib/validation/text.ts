@@ -11,6 +11,19 @@ const CONTROL = /[\u0000-\u0008\u000b\u000c\u000e-\u001f\u007f]/;
 const LINE_BREAK_OR_TAB = /[\t\n\r]/;
 const LONE_SURROGATE = /[\ud800-\udbff](?![\udc00-\udfff])|(?<![\ud800-\udbff])[\udc00-\udfff]/;
 
+/**
+ * Bytes from an instrument are kept, not refused: lone surrogates become U+FFFD (the replacement character,
+ * Unicode §3.9 "U+FFFD substitution"), everywhere in a parsed body. NUL is left to the ingest step.
+ */
+export function withWellFormedText<T>(value: T): T {
+  if (typeof value === 'string') return value.replace(new RegExp(LONE_SURROGATE.source, 'g'), '\ufffd') as T;
+  if (Array.isArray(value)) return value.map(withWellFormedText) as T;
+  if (value && typeof value === 'object') {
+    return Object.fromEntries(Object.entries(value).map(([k, v]) => [withWellFormedText(k), withWellFormedText(v)])) as T;
+  }
+  return value;
+}
+
 /** Why a string breaks the text rule (null when it does not); multiline allows tab, LF and CR. */
 export function textProblem(value: string, multiline = true): string | null {
   if (value.includes('\u0000')) return 'must not contain NUL characters';
@@ -60,16 +73,14 @@ function realCalendarDate(value: string): boolean {
 
 /** An ISO 8601 date-time with offset that names a real calendar day between 1900 and 2200. */
 export function isoDateTime(message = 'Enter a date and time (ISO 8601 with offset).') {
-  return z.iso
-    .datetime({ offset: true, message })
-    .refine(realCalendarDate, { message: 'That date does not exist.' })
-    .refine(
-      (value) => {
-        const at = Date.parse(value);
-        return at >= EARLIEST_DATE && at < LATEST_DATE;
-      },
-      { message: 'Use a date between 1900 and 2200.' },
-    );
+  // pipe: the calendar and range checks run only on a well-formed value, so each bad value has one issue.
+  return z.iso.datetime({ offset: true, message }).pipe(
+    z.string().superRefine((value, ctx) => {
+      if (!realCalendarDate(value)) return ctx.addIssue({ code: 'custom', message: 'That date does not exist.' });
+      const at = Date.parse(value);
+      if (!(at >= EARLIEST_DATE && at < LATEST_DATE)) ctx.addIssue({ code: 'custom', message: 'Use a date between 1900 and 2200.' });
+    }),
+  );
 }
 
 /** JSON path of the first string (value or key) in a parsed body that breaks the text rule, with the problem. */
