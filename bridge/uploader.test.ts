@@ -41,6 +41,7 @@ afterEach(async () => {
 async function serve(handle: (body: BridgeBatch, path: string) => Reply | Promise<Reply>, port?: number) {
   const server = await startTestServer((request) => {
     if (request.path === '/api/bridge/heartbeat') return { status: 200, body: { ok: true } };
+    if (request.path === '/api/health') return { status: 200, body: { ok: true } };
     return handle(bridgeBatchSchema.parse(request.body), request.path);
   }, port);
   servers.push(server);
@@ -207,6 +208,68 @@ describe('Uploader', () => {
     const kept = (await readFile(join(dir, REJECTED_FILE), 'utf8')).trim().split('\n').map((line) => JSON.parse(line));
     expect(kept.map((k: { record: { key: string } }) => k.record.key)).toEqual([bad.key]);
     expect(spool.depth()).toBe(0);
+  });
+
+  it('quarantines a record the server keeps answering 500 to (after bounded retries), loudly; the records behind it flow', async () => {
+    const records = await spoolReadings(6);
+    const poison = records[2];
+    const store = keyStore();
+    const server = await serve((batch) =>
+      batch.records.some((r) => r.key === poison.key)
+        ? { status: 500, body: { error: { code: 'internal', message: 'Something went wrong on the server.' } } }
+        : { status: 200, body: store.answer(batch) },
+    );
+    const uploader = upload(server.url, { maxRefusals: 3, probeMs: 5, sources: () => [{ instrument: 'crp-reader', state: 'open' }] });
+    const [quarantined] = await Promise.all([when(uploader, 'quarantined'), uploader.start()]);
+    expect(quarantined[0]).toMatchObject({ key: poison.key, instrument: 'crp-reader', status: 500 });
+    await drained(uploader);
+    expect([...store.ids.keys()].sort()).toEqual(records.filter((r) => r !== poison).map((r) => r.key).sort());
+    const kept = (await readFile(join(dir, REJECTED_FILE), 'utf8')).trim().split('\n').map((line) => JSON.parse(line));
+    expect(kept.map((k: { record: { key: string } }) => k.record.key)).toEqual([poison.key]);
+    expect(kept[0].error.code).toBe('quarantined');
+    expect(lines.some((line) => line.startsWith('error upload: QUARANTINED record ' + poison.key))).toBe(true);
+    // Refused alone at least maxRefusals times before it was set aside.
+    const alone = server.requests.filter((r) => r.path === '/api/bridge/readings' && (r.body as BridgeBatch).records.length === 1 && (r.body as BridgeBatch).records[0].key === poison.key);
+    expect(alone.length).toBeGreaterThanOrEqual(3);
+    // Admins see it: the heartbeat after the quarantine carries a warning on that instrument.
+    const beats = server.requests.filter((r) => r.path === '/api/bridge/heartbeat').map((r) => bridgeHeartbeatSchema.parse(r.body));
+    expect(beats.at(-1)!.sources[0].warnings?.[0]).toMatch(/^1 record\(s\) quarantined/);
+  });
+
+  it('quarantines nothing while the whole server is failing (its health check fails too)', async () => {
+    const records = await spoolReadings(2);
+    const server = await startTestServer(() => ({ status: 503, body: { error: { message: 'starting' } } }));
+    servers.push(server);
+    const uploader = upload(server.url, { maxRefusals: 2, probeMs: 5 });
+    let quarantined = 0;
+    uploader.on('quarantined', () => quarantined++);
+    let retries = 0;
+    const many = when(uploader, 'retrying', () => ++retries >= 3);
+    uploader.start();
+    await many;
+    // By now the lone first record has been refused more than maxRefusals times.
+    const soloTries = () => server.requests.filter((r) => r.path === '/api/bridge/readings' && (r.body as BridgeBatch).records.length === 1).length;
+    await new Promise<void>((resolve) => {
+      const check = () => (soloTries() >= 4 ? resolve() : setTimeout(check, 5));
+      check();
+    });
+    await uploader.stop();
+    expect(quarantined).toBe(0);
+    expect(spool.pending()).toEqual(records);
+  });
+
+  it('resumes as soon as the server answers its health check again, not after the full backoff', async () => {
+    await spoolReadings(2);
+    const port = await freePort();
+    // A 60 s backoff: the test (30 s limit) can only pass if the health probe cuts it short.
+    const uploader = upload(`http://127.0.0.1:${port}`, { retry: { initialMs: 60_000, maxMs: 60_000 }, probeMs: 20, random: () => 1 });
+    const [retry] = await Promise.all([when<[RetryEvent]>(uploader, 'retrying'), uploader.start()]);
+    expect(retry[0].delayMs).toBe(60_000);
+    const store = keyStore();
+    const done = drained(uploader);
+    await serve((batch) => ({ status: 200, body: store.answer(batch) }), port);
+    await done;
+    expect(store.ids.size).toBe(2);
   });
 
   it('says clearly when the token is refused and keeps trying', async () => {

@@ -29,6 +29,21 @@ export interface UploaderOptions {
   maxBatchBytes?: number;
   fetch?: typeof fetch;
   random?: () => number;
+  /**
+   * A record the server keeps answering with an error (any status but 2xx, 401/403) is quarantined after
+   * this many refusals of it alone, once the server's health check answers: moved to rejected.jsonl so
+   * the records behind it flow. Default 5.
+   */
+  maxRefusals?: number;
+  /** While waiting to retry, GET /api/health this often and go again as soon as it answers. Default 2 s. */
+  probeMs?: number;
+}
+
+export interface QuarantinedEvent {
+  key: string;
+  instrument: string;
+  status: number;
+  message: string;
 }
 
 export interface UploadedEvent {
@@ -55,6 +70,7 @@ interface UploaderEvents {
   retrying: [RetryEvent];
   unauthorized: [RetryEvent];
   heartbeat: [{ ok: boolean; status?: number }];
+  quarantined: [QuarantinedEvent];
   /** Nothing left to send. */
   idle: [];
 }
@@ -67,7 +83,10 @@ type Answer =
   | { kind: 'retry'; status?: number; message: string }
   | { kind: 'stopped' };
 
-const DEFAULT_RETRY: RetryPolicy = { initialMs: 1_000, maxMs: 60_000 };
+// Capped at 15 s: with the health probe a bridge resumes within a few seconds of the server answering again.
+const DEFAULT_RETRY: RetryPolicy = { initialMs: 1_000, maxMs: 15_000 };
+/** Answered refusals of one batch head before the uploader starts halving to find the record at fault. */
+const REFUSALS_BEFORE_SPLIT = 2;
 
 /**
  * Sends spooled records in batches and acks in the spool only the keys the server confirmed.
@@ -88,6 +107,9 @@ export class Uploader extends EventEmitter<UploaderEvents> {
   private readonly requests = new Set<AbortController>();
   private wake: (() => void) | undefined;
   private wakeOnNewRecord = false;
+  /** Consecutive answered refusals of batches starting with this key. */
+  private refused = { key: '', count: 0, alone: 0 };
+  private readonly quarantined = new Map<string, number>();
 
   constructor(private readonly options: UploaderOptions) {
     super();
@@ -135,6 +157,39 @@ export class Uploader extends EventEmitter<UploaderEvents> {
       }
       const answer = await this.send(batch);
       if (answer.kind === 'stopped') break;
+      if (answer.kind === 'retry' && answer.status !== undefined) {
+        // The server answered, with an error, again: after a few tries look for one record at fault.
+        const same = this.refused.key === batch[0].key;
+        this.refused = {
+          key: batch[0].key,
+          count: (same ? this.refused.count : 0) + 1,
+          alone: (same ? this.refused.alone : 0) + (batch.length === 1 ? 1 : 0),
+        };
+        if (batch.length === 1 && this.refused.alone >= (this.options.maxRefusals ?? 5) && (await this.serverHealthy())) {
+          await this.quarantine(batch[0], answer).catch((error) => this.log.error(`upload: could not quarantine ${batch[0].key}: ${errorMessage(error)}`));
+          this.refused = { key: '', count: 0, alone: 0 };
+          limit = MAX_BATCH;
+          continue;
+        }
+        if (this.refused.count >= REFUSALS_BEFORE_SPLIT && batch.length > 1) {
+          const delayMs = this.backoff(failures++);
+          limit = Math.ceil(batch.length / 2);
+          this.log.warn(`upload: server keeps refusing a batch of ${batch.length} (HTTP ${answer.status}: ${answer.message}); trying ${limit} at a time in ${seconds(delayMs)}`);
+          this.emit('retrying', { reason: answer.message, status: answer.status, delayMs });
+          await this.pauseWithProbe(delayMs);
+          continue;
+        }
+        if (this.refused.count >= REFUSALS_BEFORE_SPLIT) {
+          // Alone and still refused: keep the small limit while retrying it.
+          const delayMs = this.backoff(failures++);
+          this.log.warn(`upload: server refused record ${batch[0].key} ${this.refused.alone} time(s) on its own (HTTP ${answer.status}: ${answer.message}); trying again in ${seconds(delayMs)}`);
+          this.emit('retrying', { reason: answer.message, status: answer.status, delayMs });
+          await this.pauseWithProbe(delayMs);
+          continue;
+        }
+      } else if (answer.kind === 'confirmed') {
+        this.refused = { key: '', count: 0, alone: 0 };
+      }
       // Too large, or refused as malformed: send halves, so one bad record cannot hold back good ones
       // and only the records the server really refuses end up in rejected.jsonl.
       if ((answer.kind === 'too-large' || answer.kind === 'rejected') && batch.length > 1) {
@@ -196,7 +251,7 @@ export class Uploader extends EventEmitter<UploaderEvents> {
         const delayMs = this.backoff(failures);
         this.log.warn(`upload: ${answer.message}; ${this.spool.depth()} pending, trying again in ${seconds(delayMs)}`);
         this.emit('retrying', { reason: answer.message, status: answer.status, delayMs });
-        await this.pause(delayMs);
+        await this.pauseWithProbe(delayMs);
         return failures + 1;
       }
     }
@@ -250,7 +305,14 @@ export class Uploader extends EventEmitter<UploaderEvents> {
         instrument: source.instrument.slice(0, 64),
         state: source.state,
         ...(source.detail ? { detail: source.detail.slice(0, 200) } : {}),
-        ...(source.warnings?.length ? { warnings: source.warnings.slice(0, 10).map((w) => w.slice(0, 200)) } : {}),
+        ...(() => {
+          const quarantined = this.quarantined.get(source.instrument);
+          const warnings = [
+            ...(quarantined ? [`${quarantined} record(s) quarantined: the server kept refusing them; see rejected.jsonl on the bridge PC`] : []),
+            ...(source.warnings ?? []),
+          ];
+          return warnings.length ? { warnings: warnings.slice(0, 10).map((w) => w.slice(0, 200)) } : {};
+        })(),
         ...(source.bytesReceived !== undefined ? { bytesReceived: source.bytesReceived } : {}),
         ...(source.lastByteAt ? { lastByteAt: source.lastByteAt } : {}),
       })),
@@ -299,6 +361,40 @@ export class Uploader extends EventEmitter<UploaderEvents> {
       return { failure: errorMessage(error) };
     } finally {
       this.requests.delete(controller);
+    }
+  }
+
+  /** Moves a record the server keeps refusing to rejected.jsonl, loudly, and warns admins in the heartbeat. */
+  private async quarantine(record: BridgeRecord, answer: { status?: number; message: string }): Promise<void> {
+    await this.spool.reject([record], { status: answer.status ?? 0, error: { code: 'quarantined', message: answer.message } });
+    this.quarantined.set(record.instrument, (this.quarantined.get(record.instrument) ?? 0) + 1);
+    this.log.error(
+      `upload: QUARANTINED record ${record.key} from ${record.instrument}: the server refused it ${this.refused.alone} times on its own ` +
+        `(HTTP ${answer.status}: ${answer.message}) while answering its health check; kept in ${this.spool.dir}/${'rejected.jsonl'} for a person, the records behind it go on`,
+    );
+    this.emit('quarantined', { key: record.key, instrument: record.instrument, status: answer.status ?? 0, message: answer.message });
+    this.beat();
+  }
+
+  /** The server's health check answers 2xx. */
+  private async serverHealthy(): Promise<boolean> {
+    try {
+      const response = await this.fetch(`${this.options.server.replace(/\/+$/, '')}/api/health`, { signal: AbortSignal.timeout(5_000) });
+      await response.arrayBuffer();
+      return response.ok;
+    } catch {
+      return false;
+    }
+  }
+
+  /** Wait for a retry, but go as soon as the server's health check answers again (probing every probeMs). */
+  private async pauseWithProbe(ms: number): Promise<void> {
+    const probeMs = this.options.probeMs ?? 2_000;
+    const until = Date.now() + ms;
+    while (!this.stopping && Date.now() < until) {
+      await this.pause(Math.min(probeMs, until - Date.now()));
+      if (this.stopping || Date.now() >= until) return;
+      if (await this.serverHealthy()) return;
     }
   }
 
