@@ -378,6 +378,8 @@ export const analyteSettings = pgTable(
     deltaPercent: doublePrecision(),
     deltaWindowHours: doublePrecision(),
     deltaSource: text(),
+    /** Qualitative results: the codes that mean abnormal (e.g. POS), when the analyzer does not flag them itself. */
+    abnormalCodes: text().array().notNull().default(sql`'{}'::text[]`),
     updatedBy: uuid().references(() => staffUsers.id, { onDelete: 'set null' }),
     updatedAt: createdAt(),
   },

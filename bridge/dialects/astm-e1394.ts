@@ -193,7 +193,8 @@ function readResult(
     patientRef: patientRef || null,
     measuredAt,
     instrumentSerial: record.firstComponent(14) || context.serial,
-    referenceRange: record.component(6) || null,
+    // R.6 lower^upper (LIS2-A2, from memory), written "lower to upper"; a range sent as text stays as sent.
+    referenceRange: (record.repeats(6)[0] ?? []).map((c) => c.trim()).filter(Boolean).join(' to ') || null,
     resultStatus: RESULT_STATUS[status] ?? null,
     raw: context.raw,
   });

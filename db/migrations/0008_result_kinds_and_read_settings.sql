@@ -1,3 +1,4 @@
+ALTER TABLE "analyte_settings" ADD COLUMN "abnormal_codes" text[] DEFAULT '{}'::text[] NOT NULL;--> statement-breakpoint
 ALTER TABLE "instruments" ADD COLUMN "read_settings" jsonb DEFAULT '{}'::jsonb NOT NULL;--> statement-breakpoint
 ALTER TABLE "readings" ADD COLUMN "value_code" jsonb;--> statement-breakpoint
 ALTER TABLE "readings" ADD COLUMN "value_text" text;--> statement-breakpoint
