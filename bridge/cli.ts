@@ -1,3 +1,4 @@
+import { DECIMAL_MARKS, type DecimalMark } from '../lib/validation/numbers';
 import { randomInt } from 'node:crypto';
 import { createReadStream, realpathSync } from 'node:fs';
 import { readFile } from 'node:fs/promises';
@@ -71,13 +72,14 @@ Every record is on disk before it is sent and stays there until the server confi
 byte received is also kept as sent in SPOOL/capture/CODE/capture.log (rotated, 5 × 10 MB).
 Stop with Ctrl+C (SIGINT) or SIGTERM.
 `,
-  parse: `Usage: npm run bridge -- parse [--dialect NAME | --profile FILE] [--encoding E] [FILE|-]
+  parse: `Usage: npm run bridge -- parse [--dialect NAME | --profile FILE] [--encoding E] [--decimal-mark M] [FILE|-]
 
 Reads FILE (or stdin) and prints one JSON object per line: readings, and
 {"kind":"unparsed",...} for text that is not one. Nothing is sent, spooled or answered.
   --dialect NAME         ${dialectNames().join(', ')} (default ${DEFAULT_DIALECT})
   --profile FILE         a printout profile (JSON: the definition, or {"definition": …})
   --encoding E           ${LINE_ENCODINGS.join('|')} (default utf8; latin1 for ASTM)
+  --decimal-mark M       point|comma: the instrument's number format (default point)
 `,
   simulate: `Usage: npm run bridge -- simulate [--kind KIND] [options]
 
@@ -280,7 +282,9 @@ export async function runOptions(values: Values, env: Record<string, string | un
 }
 
 async function parseCommand(args: string[]): Promise<number> {
-  const { values, positionals } = parseFlags(args, { dialect: { type: 'string' }, profile: { type: 'string' }, encoding: { type: 'string' } }, true);
+  const { values, positionals } = parseFlags(args, { dialect: { type: 'string' }, profile: { type: 'string' }, encoding: { type: 'string' }, 'decimal-mark': { type: 'string' } }, true);
+  const decimalMark = values['decimal-mark'];
+  if (decimalMark !== undefined && !DECIMAL_MARKS.includes(decimalMark as DecimalMark)) throw new UsageError('--decimal-mark must be point or comma');
   if (positionals.length > 1) throw new UsageError('give one file (or - for stdin)');
   if (values.dialect !== undefined && values.profile !== undefined) throw new UsageError('--dialect and --profile do not go together');
   const file = positionals[0] ?? '-';
@@ -300,7 +304,7 @@ async function parseCommand(args: string[]): Promise<number> {
       process.stdout.write(`${JSON.stringify(output)}\n`, callback);
     },
   });
-  await pipeline([input, ...createParsingStages(dialect, { encoding: encodingOf(values), idle: false }), printer]);
+  await pipeline([input, ...createParsingStages(dialect, { encoding: encodingOf(values), decimalMark: decimalMark as DecimalMark | undefined, idle: false }), printer]);
   return 0;
 }
 

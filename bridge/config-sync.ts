@@ -2,6 +2,7 @@ import { readFile } from 'node:fs/promises';
 import { EventEmitter } from 'node:events';
 import { join } from 'node:path';
 import { z } from 'zod';
+import { DECIMAL_MARKS } from '../lib/validation/numbers';
 import { PROFILE_DIALECT, findDialect } from './dialects';
 import { loadProfile } from './dialects/profile';
 import { writeFileAtomically } from './durable-files';
@@ -35,6 +36,16 @@ export const serverConfigSchema = z.object({
       // Checked per instrument below, so one bad entry does not stop the others.
       connection: z.unknown().nullable().optional(),
       profile: z.object({ key: z.string(), version: z.number(), definition: z.unknown() }).nullable().optional(),
+      /** Number format and the name the bridge answers as; an older server sends none. */
+      read: z
+        .object({
+          decimalMark: z.enum(DECIMAL_MARKS).optional(),
+          receivingApplication: z.string().max(64).optional(),
+          receivingFacility: z.string().max(64).optional(),
+        })
+        .partial()
+        .optional()
+        .catch(undefined),
     }),
   ),
 });
@@ -64,6 +75,9 @@ export function instrumentsOf(config: ServerConfig): { instruments: InstrumentCo
             serial: { baudRate: c.baudRate, dataBits: c.dataBits, parity: c.parity, stopBits: c.stopBits, rtscts: c.flowControl === 'rtscts', xon: c.flowControl === 'xonxoff', xoff: c.flowControl === 'xonxoff' },
           }
         : { code: entry.code, dialect: entry.dialect, source: { kind: c.mode === 'listen' ? 'tcp-listen' : 'tcp', host: c.host, port: c.port } };
+    if (entry.read?.decimalMark) instrument.decimalMark = entry.read.decimalMark;
+    if (entry.read?.receivingApplication) instrument.application = entry.read.receivingApplication;
+    if (entry.read?.receivingFacility) instrument.facility = entry.read.receivingFacility;
     if (entry.dialect === PROFILE_DIALECT) {
       if (!entry.profile) {
         problems.push(`${entry.code}: reads by a printout profile, but none is set; not read`);

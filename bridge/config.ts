@@ -1,6 +1,7 @@
 import { readFile } from 'node:fs/promises';
 import { dirname, resolve } from 'node:path';
 import { z } from 'zod';
+import { DECIMAL_MARKS } from '../lib/validation/numbers';
 import { DEFAULT_DIALECT, PROFILE_DIALECT, dialectNames, findDialect } from './dialects';
 import { LINE_ENCODINGS, type LineEncoding } from './framing/lines';
 import type { BridgeOptions, InstrumentConfig } from './pipeline';
@@ -22,6 +23,9 @@ const instrumentSchema = z
     source: z.string(),
     serial: serialSettingsSchema.partial().optional(),
     encoding: z.enum(LINE_ENCODINGS as [LineEncoding, ...LineEncoding[]]).optional(),
+    decimalMark: z.enum(DECIMAL_MARKS).optional(),
+    application: z.string().max(64).optional(),
+    facility: z.string().max(64).optional(),
   })
   .strict();
 

@@ -48,31 +48,41 @@ export function compactStamp(moment: Date): string {
   return `${pad(moment.getFullYear(), 4)}${pad(moment.getMonth() + 1)}${pad(moment.getDate())}${pad(moment.getHours())}${pad(moment.getMinutes())}${pad(moment.getSeconds())}`;
 }
 
-const COMPACT = /^(\d{4})(\d{2})(\d{2})(?:(\d{2})(\d{2})(\d{2})?)?(?:\.\d{1,4})?([+-]\d{4})?$/;
+const COMPACT = /^(\d{4})(\d{2})(\d{2})(?:(\d{2})(\d{2})(\d{2})?)?(?:\.(\d{1,4}))?([+-]\d{4})?$/;
 
 export type CompactTimestamp = { ok: true; iso: string | null } | { ok: false; problem: string };
 
+/** The ±ZZZZ offset at the end of a compact timestamp (HL7 MSH-7), or null when it has none. */
+export function compactOffset(text: string): string | null {
+  return COMPACT.exec(text.trim())?.[8] ?? null;
+}
+
 /**
- * YYYYMMDD[HHMM[SS]][.S…][±ZZZZ] as ASTM E1394 and HL7 v2 (DTM/TS) write it. Without an offset it is
- * the lab PC's local time; a date without a time is no moment (null), not midnight.
+ * YYYYMMDD[HHMM[SS]][.S…][±ZZZZ] as ASTM E1394 and HL7 v2 (DTM/TS) write it. Fractional seconds are
+ * kept. Without an offset it takes `defaultOffset` when given (HL7 v2 chapter 2, DTM: a time without an
+ * offset is in the sending system's offset, which MSH-7 states; from memory), else the lab PC's local
+ * time; a date without a time is no moment (null), not midnight.
  */
-export function compactTimestamp(text: string): CompactTimestamp {
+export function compactTimestamp(text: string, defaultOffset: string | null = null): CompactTimestamp {
   const match = COMPACT.exec(text.trim());
   if (!match) return { ok: false, problem: 'is not YYYYMMDDHHMMSS' };
-  const [, year, month, day, hour, minute, second, offset] = match;
+  const [, year, month, day, hour, minute, second, fraction, ownOffset] = match;
   if (hour === undefined) {
     const check = localIsoDateTime({ year: +year, month: +month, day: +day, hour: 12, minute: 0, second: 0 });
     return check.ok ? { ok: true, iso: null } : { ok: false, problem: 'is not a real date' };
   }
+  if (fraction !== undefined && second === undefined) return { ok: false, problem: 'has a fraction of a second but no seconds' };
   const clock = { year: +year, month: +month, day: +day, hour: +hour, minute: +minute, second: +(second ?? 0) };
   const local = localIsoDateTime(clock);
   if (!local.ok) return { ok: false, problem: local.problem === 'date' ? 'is not a real date' : 'is not a real time' };
-  if (!offset) return { ok: true, iso: local.iso };
+  const frac = fraction !== undefined ? `.${fraction}` : '';
+  const offset = ownOffset ?? defaultOffset ?? undefined;
+  if (!offset) return { ok: true, iso: frac ? local.iso.replace(/([+-]\d{2}:\d{2}|Z)$/, `${frac}$1`) : local.iso };
   const hours = Number(offset.slice(1, 3));
   const minutes = Number(offset.slice(3, 5));
   if (hours > 14 || minutes > 59) return { ok: false, problem: 'has an impossible UTC offset' };
   return {
     ok: true,
-    iso: `${year}-${month}-${day}T${hour}:${minute}:${second ?? '00'}${offset.slice(0, 3)}:${offset.slice(3, 5)}`,
+    iso: `${year}-${month}-${day}T${hour}:${minute}:${second ?? '00'}${frac}${offset.slice(0, 3)}:${offset.slice(3, 5)}`,
   };
 }

@@ -25,7 +25,7 @@ describe('parseFrame', () => {
   });
 
   it('turns output that breaks the contract into a fragment', () => {
-    const bad = dialect((frame) => ({ kind: 'reading', analyte: '', value: 1, comparator: null, unit: null, flags: [], sampleId: null, patientRef: null, measuredAt: null, instrumentSerial: null, referenceRange: null, resultStatus: null, raw: frame.raw }));
+    const bad = dialect((frame) => ({ kind: 'reading', analyte: '', value: 1, code: null, text: null, notes: [], comparator: null, unit: null, flags: [], sampleId: null, patientRef: null, measuredAt: null, instrumentSerial: null, referenceRange: null, resultStatus: null, raw: frame.raw }));
     expect(parseFrame(bad, record('X\n'))).toEqual([{ kind: 'unparsed', raw: 'X\n', reason: 'does not fit the contract: analyte analyte is required' }]);
   });
 

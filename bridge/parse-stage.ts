@@ -1,6 +1,6 @@
 import { Transform, type Duplex, type TransformCallback } from 'node:stream';
 import { parserOutputSchema, type ParserOutput } from '../lib/validation/readings';
-import type { Dialect, Reply, StageOptions } from './dialects/dialect';
+import type { Dialect, ParseOptions, Reply, StageOptions } from './dialects/dialect';
 import { LineSplitter } from './framing/lines';
 import { RecordFramer, type FramerOutput } from './framing/records';
 import { fragments } from './fragments';
@@ -11,6 +11,8 @@ export interface ParseStageOptions {
   reply?: Reply;
   log?: Log;
   now?: () => Date;
+  /** The instrument's settings the parser reads with (number format). */
+  parse?: ParseOptions;
 }
 
 /** Frames → readings or unparsed fragments. Whatever goes wrong, the text comes out as a fragment. */
@@ -25,11 +27,16 @@ export class ParseStage extends Transform {
   }
 
   override _transform(frame: FramerOutput, _encoding: BufferEncoding, callback: TransformCallback): void {
-    const outputs = parseFrame(this.dialect, frame);
+    const outputs = parseFrame(this.dialect, frame, this.options.parse);
     for (const output of outputs) this.push(output);
     if (frame.kind === 'record' && this.dialect.answer && this.options.reply) {
       try {
-        const answer = this.dialect.answer(frame, outputs, { now: (this.options.now ?? (() => new Date()))(), sequence: ++this.answers });
+        const answer = this.dialect.answer(frame, outputs, {
+          now: (this.options.now ?? (() => new Date()))(),
+          sequence: ++this.answers,
+          application: this.options.parse?.application,
+          facility: this.options.parse?.facility,
+        });
         if (answer) this.options.reply(answer);
       } catch (error) {
         // The message is kept either way; without an answer the sender will send it again.
@@ -41,10 +48,10 @@ export class ParseStage extends Transform {
 }
 
 /** One frame through the dialect, every output checked against the contract before it moves on. */
-export function parseFrame(dialect: Pick<Dialect, 'name' | 'parse'>, frame: FramerOutput): ParserOutput[] {
+export function parseFrame(dialect: Pick<Dialect, 'name' | 'parse'>, frame: FramerOutput, options?: ParseOptions): ParserOutput[] {
   let outputs: ParserOutput[];
   try {
-    const parsed = frame.kind === 'record' ? dialect.parse(frame) : frame;
+    const parsed = frame.kind === 'record' ? dialect.parse(frame, options) : frame;
     outputs = Array.isArray(parsed) ? parsed : [parsed];
   } catch (error) {
     return fragments(frame.raw, `${dialect.name} parser failed: ${error instanceof Error ? error.message : String(error)}`);
@@ -64,8 +71,10 @@ export type ParsingOptions = StageOptions;
 export function createParsingStages(dialect: Dialect, options: ParsingOptions = {}): Duplex[] {
   const live = options.idle !== false;
   const encoding = options.encoding ?? dialect.defaultEncoding;
-  const parse = new ParseStage(dialect, { reply: options.reply, log: options.log });
-  if (dialect.framer) return [...dialect.framer({ ...options, encoding }), parse];
+  // Whether a person chose the character set (then it overrides what a message says of itself, e.g. HL7 MSH-18).
+  const encodingChosen = options.encoding !== undefined;
+  const parse = new ParseStage(dialect, { reply: options.reply, log: options.log, parse: { decimalMark: options.decimalMark, application: options.application, facility: options.facility } });
+  if (dialect.framer) return [...dialect.framer({ ...options, encoding, encodingChosen }), parse];
   if (!dialect.framing) throw new Error(`dialect ${dialect.name} has neither a record framing nor a framer`);
   const framing = { ...dialect.framing, idleMs: live ? dialect.framing.idleMs : undefined, gapMs: live ? dialect.framing.gapMs : undefined };
   return [

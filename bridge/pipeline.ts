@@ -2,6 +2,7 @@ import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { Transform, Writable, type TransformCallback } from 'node:stream';
 import { pipeline } from 'node:stream/promises';
+import type { DecimalMark } from '../lib/validation/numbers';
 import type { ParserOutput } from '../lib/validation/readings';
 import { backoffDelay, formatSeconds } from './backoff';
 import { CaptureLog } from './capture-log';
@@ -89,6 +90,9 @@ export interface InstrumentOptions {
   source: ByteSource;
   spool: Spool;
   encoding?: LineEncoding;
+  decimalMark?: DecimalMark;
+  application?: string;
+  facility?: string;
   log?: Log;
   /** Where the raw capture log of every received byte goes; none, no capture log. */
   captureDir?: string;
@@ -134,7 +138,17 @@ export function startInstrument(options: InstrumentOptions): InstrumentPipeline 
         if (!source.write?.(bytes)) log.warn(`${options.code}: could not answer the instrument (not connected)`);
       }
     : undefined;
-  const stages = createParsingStages(options.dialect, { encoding, reply, log, name: options.code, onProblem: (message) => health.note(message) });
+  // The instrument's own encoding setting (not the dialect default) goes on, so a message's own charset (MSH-18) can apply.
+  const stages = createParsingStages(options.dialect, {
+    encoding: options.encoding,
+    decimalMark: options.decimalMark,
+    application: options.application,
+    facility: options.facility,
+    reply,
+    log,
+    name: options.code,
+    onProblem: (message) => health.note(message),
+  });
   const done = pipeline([source.stream, new CaptureTap(capture, health), ...stages, writer]).then(
     () => log.info(`${options.code}: input ended`),
     (error) => log.error(`${options.code}: pipeline stopped: ${errorMessage(error)}`),
@@ -171,6 +185,11 @@ export interface InstrumentConfig {
   source: string | SourceSpec;
   serial?: Partial<SerialSettings>;
   encoding?: LineEncoding;
+  /** Decimal point (default) or comma in the numbers it sends. */
+  decimalMark?: DecimalMark;
+  /** The receiving application and facility the bridge answers as (HL7 ACK MSH-3/4). */
+  application?: string;
+  facility?: string;
   /** For dialect 'profile': the printout profile that reads it. */
   profile?: { key: string; version: number; definition: ProfileDefinition };
 }
@@ -227,7 +246,18 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
     const dialect = dialectFor(instrument);
     log.info(`${instrument.code}: ${describeSource(spec)} as ${dialect.name}`);
     const source = openSource(spec, { instrument: instrument.code, serial: instrument.serial, binding: options.binding, log });
-    return startInstrument({ code: instrument.code, dialect, source, spool, encoding: instrument.encoding, log, captureDir: captureDirOf(options.spoolDir, instrument.code) });
+    return startInstrument({
+      code: instrument.code,
+      dialect,
+      source,
+      spool,
+      encoding: instrument.encoding,
+      decimalMark: instrument.decimalMark,
+      application: instrument.application,
+      facility: instrument.facility,
+      log,
+      captureDir: captureDirOf(options.spoolDir, instrument.code),
+    });
   };
 
   let applying: Promise<void> = Promise.resolve();

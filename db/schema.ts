@@ -159,6 +159,12 @@ export type InstrumentConnection =
   /** 'connect' (default): the bridge dials a serial-to-network adapter; 'listen': the analyzer dials the bridge. */
   | { kind: 'tcp'; host: string; port: number; mode?: 'connect' | 'listen' };
 
+export interface InstrumentReadSettings {
+  decimalMark?: 'point' | 'comma';
+  receivingApplication?: string;
+  receivingFacility?: string;
+}
+
 export const instruments = pgTable(
   'instruments',
   {
@@ -178,6 +184,8 @@ export const instruments = pgTable(
     health: jsonb().$type<Record<string, unknown>>(),
     /** How many runs it holds at once; a single-channel reader finishes its runs in the order they started. */
     channels: integer().notNull().default(1),
+    /** How the bridge reads it: number format (decimal point or comma) and the name it answers as (HL7 ACK MSH-3/4). */
+    readSettings: jsonb().$type<InstrumentReadSettings>().notNull().default(sql`'{}'::jsonb`),
     active: boolean().notNull().default(true),
     createdAt: createdAt(),
   },
@@ -226,6 +234,14 @@ export const readings = pgTable(
     resultStatus: text().$type<'final' | 'preliminary' | 'corrected'>(),
     analyte: text().notNull(),
     value: doublePrecision(),
+    /** A coded result (HL7 CE/CWE, an ASTM word such as POS): { system, code, display }. At most one of value, valueCode, valueText. */
+    valueCode: jsonb().$type<{ system: string | null; code: string; display: string | null }>(),
+    /** A text result (HL7 ST/TX/FT). */
+    valueText: text(),
+    /** Comments the instrument sent with the result (HL7 NTE, ASTM C records). */
+    notes: text().array().notNull().default(sql`'{}'::text[]`),
+    /** Typed in by a person from an unparsed capture: who. Null for everything an instrument sent. */
+    enteredBy: uuid().references(() => staffUsers.id, { onDelete: 'restrict' }),
     comparator: text().$type<'<' | '>'>(),
     unit: text(),
     flags: text().array().notNull().default(sql`'{}'::text[]`),
@@ -244,6 +260,10 @@ export const readings = pgTable(
     index('readings_clinic_status_idx').on(t.clinicId, t.status, t.receivedAt),
     index('readings_patient_idx').on(t.patientId, t.measuredAt),
     check('readings_comparator_valid', sql`${t.comparator} is null or ${t.comparator} in ('<', '>')`),
+    check(
+      'readings_one_kind_of_value',
+      sql`(${t.value} is not null)::int + (${t.valueCode} is not null)::int + (${t.valueText} is not null)::int <= 1`,
+    ),
     check(
       'readings_assigned_has_patient',
       sql`(${t.status} = 'assigned') = (${t.patientId} is not null)`,
@@ -358,6 +378,8 @@ export const analyteSettings = pgTable(
     deltaPercent: doublePrecision(),
     deltaWindowHours: doublePrecision(),
     deltaSource: text(),
+    /** Qualitative results: the codes that mean abnormal (e.g. POS), when the analyzer does not flag them itself. */
+    abnormalCodes: text().array().notNull().default(sql`'{}'::text[]`),
     updatedBy: uuid().references(() => staffUsers.id, { onDelete: 'set null' }),
     updatedAt: createdAt(),
   },

@@ -37,6 +37,7 @@ export async function bridgeConfig(bridge: Bridge) {
         dialect: r.dialect,
         analytes: r.analytes,
         connection: r.connection,
+        read: r.readSettings,
         profile: profile ? { key: profile.profileKey, version: profile.version, definition: profile.definition } : null,
       };
     }),

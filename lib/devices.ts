@@ -99,6 +99,7 @@ export async function listInstruments(actor: Actor) {
       bridgeId: instruments.bridgeId,
       bridgeName: bridges.name,
       profileId: instruments.profileId,
+      readSettings: instruments.readSettings,
       health: instruments.health,
     })
     .from(instruments)

@@ -50,6 +50,9 @@ describe('ASTM E1394 dialect', () => {
         measuredAt: '2026-12-01T14:03:22+01:00',
         instrumentSerial: 'SIM-0002',
         // R.6 as sent; R.9 "F" is a final result (LIS2-A2, from memory).
+        code: null,
+        text: null,
+        notes: [],
         referenceRange: '3.9 to 6.1',
         resultStatus: 'final',
         raw: `${H}\r${P}\r${O}\r${R(1, 'GLU', '5.2', 'mmol/L', 'N')}\r${L}\r`,
@@ -73,7 +76,8 @@ describe('ASTM E1394 dialect', () => {
     const out = await parse([testSession([H, O, R(1, 'GLU', '5.2', 'mmol/L', '', 'P'), R(2, 'ALB', '', 'g/L', '', 'X'), R(3, 'TP', 'high', 'g/L'), L])]);
     expect(out[0]).toMatchObject({ analyte: 'GLU', flags: ['preliminary'] });
     expect(out[1]).toMatchObject({ kind: 'unparsed', reason: 'R 2: ALB: the instrument could not do the test (R.9 status X)' });
-    expect(out[2]).toMatchObject({ kind: 'unparsed', reason: 'R 3: TP: R.4 "high" is not a number' });
+    // A word in R.4 is a qualitative result, kept as the instrument's own code, never as a number.
+    expect(out[2]).toMatchObject({ kind: 'reading', analyte: 'TP', value: null, code: { system: null, code: 'high', display: null } });
   });
 
   it('keeps a message cut short by EOT as one fragment with its records', async () => {
@@ -113,7 +117,8 @@ describe('ASTM E1394 dialect', () => {
       testSession([H, O, R(1, 'ALP', '>1500', 'U/L', 'HH'), L]),
     ]);
     const whole = await parse([stream]);
-    expect(whole.map((o) => o.kind)).toEqual(['reading', 'reading', 'unparsed', 'reading']);
+    // "7,1" from an instrument set to a decimal point is kept unparsed (a comma is never guessed).
+    expect(whole.map((o) => o.kind)).toEqual(['reading', 'unparsed', 'unparsed', 'reading']);
     await fc.assert(
       fc.asyncProperty(fc.array(fc.nat({ max: stream.length }), { maxLength: 12 }), async (cuts) => {
         expect(await parse(splitAt(stream, cuts))).toEqual(whole);
@@ -132,5 +137,29 @@ describe('ASTM E1394 dialect', () => {
       }),
       { numRuns: 150 },
     );
+  });
+
+  // R.4 "data or measurement value" (E1394 §10.1.4 / LIS2-A2, from memory): the instrument's number as
+  // it prints it. Whether it uses a decimal point or comma is the instrument's setting, not guessed.
+  it('reads numbers in the instrument\'s own decimal mark and never a comma as a smaller number', async () => {
+    const message = testSession([H, O, R(1, 'WBC', '12,500', '10*9/L'), R(2, 'GLU', '1.2E1', 'mmol/L'), R(3, 'ALT', '4.5e+2', 'U/L'), L]);
+    const out = await parse([message]);
+    expect(out[0]).toMatchObject({ kind: 'unparsed' });
+    expect(out[0].kind === 'unparsed' && out[0].reason).toMatch(/^R 1: WBC: R\.4 "12,500" has a comma, but this instrument is set to a decimal point/);
+    expect(out[1]).toMatchObject({ kind: 'reading', analyte: 'GLU', value: 12 });
+    expect(out[2]).toMatchObject({ kind: 'reading', analyte: 'ALT', value: 450 });
+    const comma = await runThrough<ParserOutput>([testSession([H, O, R(1, 'GLU', '5,2', 'mmol/L'), R(2, 'WBC', '12.500', '10*9/L'), L])], createParsingStages(astmE1394, { idle: false, decimalMark: 'comma' }));
+    expect(comma[0]).toMatchObject({ kind: 'reading', value: 5.2 });
+    expect(comma[1].kind === 'unparsed' && comma[1].reason).toMatch(/has a point, but this instrument is set to a decimal comma/);
+  });
+
+  // Qualitative results in R.4 (POS, NEG: common practice for in-clinic antigen tests, no source) are
+  // kept as the instrument's own code with its flag (R.7, e.g. A abnormal), never as a number; the C
+  // record that follows an R record comments on it (C.4 comment text, from memory).
+  it('keeps a word result as a code and a comment record as the result\'s note', async () => {
+    const C1 = record(['C', '1', 'I', 'Weak line^read again', 'G']);
+    const out = await parse([testSession([H, O, R(1, 'FELV', 'POS', '', 'A'), C1, R(2, 'FIV', 'NEG', ''), L])]);
+    expect(out[0]).toMatchObject({ kind: 'reading', analyte: 'FELV', value: null, code: { system: null, code: 'POS', display: null }, flags: ['A'], notes: ['Weak line read again'] });
+    expect(out[1]).toMatchObject({ kind: 'reading', analyte: 'FIV', value: null, code: { code: 'NEG' }, notes: [] });
   });
 });

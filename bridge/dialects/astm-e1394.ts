@@ -1,11 +1,12 @@
 import { Transform, type TransformCallback } from 'node:stream';
-import { parsedReadingSchema, type ParserOutput } from '../../lib/validation/readings';
+import { looksNumeric, readNumber, type DecimalMark } from '../../lib/validation/numbers';
+import { parsedReadingSchema, type CodedValue, type ParserOutput } from '../../lib/validation/readings';
 import { ASTM_CONTROL_BYTES, AstmLinkStage, type AstmLinkOutput } from '../framing/astm-e1381';
 import type { Line } from '../framing/lines';
 import { rawOf, type FramerOutput, type RecordFrame } from '../framing/records';
 import { fragment, fragments } from '../fragments';
 import { compactStamp, compactTimestamp } from '../local-time';
-import type { Dialect } from './dialect';
+import type { Dialect, ParseOptions } from './dialect';
 
 // ASTM E1394 / CLSI LIS2-A2 record layer, from our reading of the standard (field numbers from memory).
 // A message is H … L; each record is one line ending in CR; field 1 is the record type, so field n
@@ -15,6 +16,7 @@ import type { Dialect } from './dialect';
 //   O.3 specimen ID (O.4 instrument specimen ID as fallback)
 //   R.3 universal test ID ^^^local code, R.4 value, R.5 units, R.6 reference range, R.7 abnormal
 //   flags, R.9 result status, R.13 date/time test completed, R.14 instrument identification
+//   C.3 comment source, C.4 comment text (components joined), C.5 comment type → the result's notes
 //   H.5 sender name or ID (name^version^serial by common practice)
 //   L.3 termination code (I: no information available from the last query)
 
@@ -103,7 +105,7 @@ export function recordsOf(frame: RecordFrame): AstmRecord[] | string {
 }
 
 /** A message (H … L) → one reading per R record, or fragments saying why not. */
-export function parseMessage(frame: RecordFrame): ParserOutput[] {
+export function parseMessage(frame: RecordFrame, options: ParseOptions = {}): ParserOutput[] {
   const records = recordsOf(frame);
   if (typeof records === 'string') return [fragment(frame.raw, records)];
   const header = records[0];
@@ -127,21 +129,23 @@ export function parseMessage(frame: RecordFrame): ParserOutput[] {
       while (records[i + 1]?.type === 'C') comments.push(records[++i]);
       // A reading's raw: the records it was read from, in the order sent (header through terminator).
       const own = [header, patient, order, record, ...comments, terminator].filter((r, at, all): r is AstmRecord => !!r && all.indexOf(r) === at);
-      outputs.push(readResult(record, { patient, order, serial, raw: rawOf(own.map((r) => r.line)) }));
+      const notes = comments.map((c) => (c.repeats(4)[0] ?? []).map((part) => part.trim()).filter(Boolean).join(' ')).filter(Boolean);
+      outputs.push(readResult(record, { patient, order, serial, notes, decimalMark: options.decimalMark ?? 'point', raw: rawOf(own.map((r) => r.line)) }));
     }
   }
   if (outputs.length === 0) return [fragment(frame.raw, 'message holds no results (no R record)')];
   return outputs;
 }
 
-const NUMBER = /^([<>])?\s*([+-]?(?:\d+(?:[.,]\d*)?|[.,]\d+))$/;
+/** A word result (POS, NEG, 1+, TRACE): letters, digits and + - / only, at most 32 characters, and not a number. */
+const WORD = /^(?=.*[A-Za-z+])[A-Za-z0-9 +\-/]{1,32}$/;
 const STATUS_FLAGS: Record<string, string> = { P: 'preliminary', I: 'preliminary', S: 'preliminary', C: 'corrected', W: 'questionable' };
 // R.9 result status (LIS2-A2, from memory): F final, C correction, P/I/S not yet final.
 const RESULT_STATUS: Record<string, 'final' | 'preliminary' | 'corrected'> = { F: 'final', C: 'corrected', P: 'preliminary', I: 'preliminary', S: 'preliminary' };
 
 function readResult(
   record: AstmRecord,
-  context: { patient?: AstmRecord; order?: AstmRecord; serial: string | null; raw: string },
+  context: { patient?: AstmRecord; order?: AstmRecord; serial: string | null; notes: string[]; decimalMark: DecimalMark; raw: string },
 ): ParserOutput {
   const seq = record.rawField(2) || '?';
   const fail = (reason: string) => fragment(context.raw, `R ${seq}: ${reason}`);
@@ -151,8 +155,20 @@ function readResult(
   if (status === 'X') return fail(`${analyte}: the instrument could not do the test (R.9 status X)`);
   const valueText = record.firstComponent(4);
   if (valueText === '') return fail(`${analyte}: R.4 holds no value`);
-  const number = NUMBER.exec(valueText);
-  if (!number) return fail(`${analyte}: R.4 "${valueText}" is not a number`);
+  // A number in the instrument's own decimal mark (never guessed), else a word result such as POS or NEG.
+  let value: number | null = null;
+  let comparator: '<' | '>' | null = null;
+  let code: CodedValue | null = null;
+  if (looksNumeric(valueText)) {
+    const number = readNumber(valueText, context.decimalMark);
+    if (!number.ok) return fail(`${analyte}: R.4 ${number.reason}`);
+    value = number.value;
+    comparator = number.comparator;
+  } else if (WORD.test(valueText)) {
+    code = { system: null, code: valueText, display: null };
+  } else {
+    return fail(`${analyte}: R.4 "${valueText}" is neither a number nor a word result`);
+  }
   const completed = record.component(13);
   let measuredAt: string | null = null;
   if (completed) {
@@ -167,15 +183,18 @@ function readResult(
   const reading = parsedReadingSchema.safeParse({
     kind: 'reading',
     analyte,
-    value: Number(number[2].replace(',', '.')),
-    comparator: number[1] ?? null,
+    value,
+    comparator,
+    code,
+    notes: context.notes,
     unit: record.component(5) || null,
     flags,
     sampleId: sampleId || null,
     patientRef: patientRef || null,
     measuredAt,
     instrumentSerial: record.firstComponent(14) || context.serial,
-    referenceRange: record.component(6) || null,
+    // R.6 lower^upper (LIS2-A2, from memory), written "lower to upper"; a range sent as text stays as sent.
+    referenceRange: (record.repeats(6)[0] ?? []).map((c) => c.trim()).filter(Boolean).join(' to ') || null,
     resultStatus: RESULT_STATUS[status] ?? null,
     raw: context.raw,
   });

@@ -64,6 +64,9 @@ describe('plain-printout dialect', () => {
       measuredAt: '2026-12-01T14:03:22+01:00',
       instrumentSerial: 'SIM-0001',
       // A printout slip carries neither a range nor a result status.
+      code: null,
+      text: null,
+      notes: [],
       referenceRange: null,
       resultStatus: null,
       raw: example,

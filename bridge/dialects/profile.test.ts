@@ -41,7 +41,7 @@ pinTimeZone('Europe/Berlin');
 describe('previewProfile', () => {
   it('reads one reading per repeating result line, with the record\'s own fields', () => {
     const preview = previewProfile(definition, `PAPER OUT\r\n${printout}`);
-    const common = { sampleId: 'S-5001', patientRef: 'PT-12', measuredAt: '2026-12-01T14:03:00+01:00', instrumentSerial: null, referenceRange: null, resultStatus: null, raw: printout };
+    const common = { sampleId: 'S-5001', patientRef: 'PT-12', measuredAt: '2026-12-01T14:03:00+01:00', instrumentSerial: null, referenceRange: null, resultStatus: null, code: null, text: null, notes: [], raw: printout };
     expect(preview.outputs).toEqual([
       { kind: 'unparsed', raw: 'PAPER OUT\r\n', reason: 'text outside any record' },
       { kind: 'reading', analyte: 'GLU', value: 5.2, comparator: null, unit: 'mmol/L', flags: [], ...common },

@@ -44,7 +44,11 @@ export class MllpCutter {
   private stray: number[] = [];
   private out: FramerOutput[] = [];
 
-  constructor(private readonly encoding: LineEncoding = 'utf8') {}
+  /** `followCharset`: decode each message as its MSH-18 says (else `encoding`); off when a person chose the encoding. */
+  constructor(
+    private readonly encoding: LineEncoding = 'utf8',
+    private readonly followCharset = false,
+  ) {}
 
   push(chunk: Buffer): FramerOutput[] {
     let from = 0;
@@ -100,7 +104,8 @@ export class MllpCutter {
   }
 
   private takeMessage(): string {
-    const text = Buffer.concat(this.message).toString(this.encoding);
+    const bytes = Buffer.concat(this.message);
+    const text = bytes.toString((this.followCharset && charsetOf(bytes)) || this.encoding);
     this.message = [];
     this.size = 0;
     return text;
@@ -133,13 +138,32 @@ export class MllpCutter {
   }
 }
 
+// MSH-18 character set (HL7 table 0211, from memory): empty or ASCII is 7-bit ASCII, 8859/1 is
+// ISO 8859-1, UNICODE UTF-8 is UTF-8. Others (8859/2…, ISO IR87, UNICODE UTF-16…) are not decoded here:
+// the instrument's default stands, and a wrong byte shows as U+FFFD rather than as another letter.
+const CHARSETS: Record<string, LineEncoding> = { ASCII: 'latin1', '8859/1': 'latin1', 'UNICODE UTF-8': 'utf8', 'UTF-8': 'utf8' };
+
+/** The encoding a message's MSH-18 names (the first repetition), or null when it names none we decode. */
+export function charsetOf(message: Buffer): LineEncoding | null {
+  // MSH and its separators are ASCII in every character set HL7 allows here, so latin1 reads them.
+  const head = message.subarray(0, 2048).toString('latin1');
+  // In a batch (FHS, BHS …) the first MSH says it for the batch's messages.
+  const msh = head.split(/[\r\n]+/).find((line) => line.startsWith('MSH')) ?? '';
+  if (msh.length < 8) return null;
+  const field = msh[3];
+  const repetition = msh[5];
+  const value = (msh.split(field)[17] ?? '').split(repetition)[0].trim().toUpperCase();
+  if (value === '') return null;
+  return CHARSETS[value] ?? null;
+}
+
 /** Stream stage around MllpCutter. */
 export class MllpFramer extends Transform {
   private readonly cutter: MllpCutter;
 
-  constructor(options: { encoding?: LineEncoding } = {}) {
+  constructor(options: { encoding?: LineEncoding; followCharset?: boolean } = {}) {
     super({ readableObjectMode: true });
-    this.cutter = new MllpCutter(options.encoding);
+    this.cutter = new MllpCutter(options.encoding, options.followCharset);
   }
 
   override _transform(chunk: Buffer, _encoding: BufferEncoding, callback: TransformCallback): void {

@@ -1,7 +1,7 @@
 // One result in context: converted to the clinic's units through UCUM, flagged against the interval
 // for the patient's species, placed in its interpretation band. Pure: the caller brings the settings.
 import type { InterpretationBand } from '@/db/schema';
-import { bandFor, flagResult, type Comparator, type FlagResult, type Limits } from './flags';
+import { bandFor, bandsFromLimits, flagResult, intervalCentre, type Comparator, type Flag, type FlagResult, type Limits } from './flags';
 import { speciesWarning } from './matching';
 import { checkUnit, convert } from './units';
 
@@ -17,6 +17,8 @@ export interface AnalyteContext {
   deltaPercent: number | null;
   deltaWindowHours: number | null;
   deltaSource: string | null;
+  /** Qualitative results: codes that mean abnormal when the analyzer does not flag them. */
+  abnormalCodes?: string[];
 }
 
 export interface IntervalContext extends Limits {
@@ -52,26 +54,129 @@ function convertLimits(limits: Limits, from: string, to: string): Limits | null 
   return out;
 }
 
+export const ANALYZER_INTERVAL_SOURCE = 'Interval from the analyzer';
+
+/**
+ * A reference range as analyzers send it: HL7 OBX-7 "3.5-5.0", ">10", "<5" (HL7 v2 chapter 7, from
+ * memory); ASTM R.6 "lower^upper" (read as "lower to upper"). Decimal point only; null when not readable.
+ */
+export function parseAnalyzerRange(text: string | null | undefined): Pick<Limits, 'low' | 'high'> | null {
+  if (!text) return null;
+  const n = String.raw`[+-]?(?:\d+(?:\.\d+)?|\.\d+)`;
+  const t = text.trim();
+  const both = new RegExp(`^(${n})\\s*(?:-|–|to|\\^)\\s*(${n})$`, 'i').exec(t);
+  if (both) {
+    const low = Number(both[1]);
+    const high = Number(both[2]);
+    return low <= high ? { low, high } : null;
+  }
+  const one = new RegExp(`^([<>])=?\\s*(${n})$`).exec(t);
+  if (one) return one[1] === '<' ? { low: null, high: Number(one[2]) } : { low: Number(one[2]), high: null };
+  return null;
+}
+
+// HL7 v2 table 0078 abnormal flags (from memory): L/H below/above, LL/HH below/above the panic limit,
+// < / > below/above the measuring range, A/AA abnormal/very abnormal, N normal. ASTM R.7 uses the same letters.
+const ANALYZER_FLAG_MEANING: Record<string, { text: string; flag: Flag | 'abnormal' }> = {
+  L: { text: 'low', flag: 'low' },
+  H: { text: 'high', flag: 'high' },
+  LL: { text: 'critically low', flag: 'critical-low' },
+  HH: { text: 'critically high', flag: 'critical-high' },
+  '<': { text: 'below the measuring range', flag: 'low' },
+  '>': { text: 'above the measuring range', flag: 'high' },
+  A: { text: 'abnormal', flag: 'abnormal' },
+  AA: { text: 'very abnormal', flag: 'abnormal' },
+  POS: { text: 'positive', flag: 'abnormal' },
+  N: { text: 'normal', flag: 'normal' },
+};
+
+export interface AnalyzerFlag {
+  codes: string[];
+  text: string;
+  abnormal: boolean;
+}
+
+/** The analyzer's own abnormal flags among a reading's flags (status words such as "preliminary" left out). */
+export function analyzerFlagOf(flags: readonly string[] | undefined): AnalyzerFlag | null {
+  const known = (flags ?? []).filter((f) => ANALYZER_FLAG_MEANING[f.toUpperCase()]);
+  if (known.length === 0) return null;
+  const meanings = known.map((f) => ANALYZER_FLAG_MEANING[f.toUpperCase()]);
+  return {
+    codes: known,
+    text: `Analyzer flag: ${known.map((f, i) => `${f} (${meanings[i].text})`).join(', ')}`,
+    abnormal: meanings.some((m) => m.flag !== 'normal'),
+  };
+}
+
+export interface Qualitative {
+  /** What was sent: the display text, else the code; or the text result. */
+  label: string;
+  code: { system: string | null; code: string; display: string | null } | null;
+  text: string | null;
+  /** null: nothing says whether it is abnormal. */
+  abnormal: boolean | null;
+  /** What the interpretation rests on. */
+  basis: string;
+}
+
 export interface Evaluation {
   /** The result in the clinic's display unit, comparator kept. */
   display: { value: number | null; comparator: Comparator; unit: string | null };
-  /** The interval in the display unit, when one applies and the units convert. */
-  interval: (Limits & { unit: string; source: string; id: string }) | null;
+  /** The interval in the display unit, when one applies and the units convert; `origin` says whose it is. */
+  interval: (Limits & { unit: string; source: string; id: string; origin: 'clinic' | 'analyzer' }) | null;
   flag: FlagResult | null;
   band: { label: string; certain: boolean } | null;
+  /** The analyzer's own flags, shown whatever our interval says. */
+  analyzerFlag: AnalyzerFlag | null;
+  /** A coded or text result, with its interpretation. */
+  qualitative: Qualitative | null;
+  /** How the printed unit was read, when not as printed (MG/L read as mg/L); the printed unit stays on the reading. */
+  unitNote: string | null;
   /** Why the result could not be flagged or converted, in plain words. */
   problems: string[];
   speciesWarning: string | null;
 }
 
+export interface EvaluatedReading {
+  analyte: string;
+  value: number | null;
+  comparator: Comparator;
+  unit: string | null;
+  instrumentId: string | null;
+  /** The range the analyzer sent (ASTM R.6, HL7 OBX-7). */
+  instrumentRange?: string | null;
+  flags?: string[];
+  valueCode?: { system: string | null; code: string; display: string | null } | null;
+  valueText?: string | null;
+}
+
+function qualitativeOf(reading: EvaluatedReading, analyte: AnalyteContext | undefined, analyzerFlag: AnalyzerFlag | null): Qualitative | null {
+  const code = reading.valueCode ?? null;
+  const text = reading.valueText ?? null;
+  if (!code && text === null) return null;
+  const label = code ? code.display || code.code : (text as string);
+  if (analyzerFlag) return { label, code, text, abnormal: analyzerFlag.abnormal, basis: analyzerFlag.text };
+  const rule = (analyte?.abnormalCodes ?? []).map((c) => c.toUpperCase());
+  if (code && rule.length) {
+    const abnormal = rule.includes(code.code.toUpperCase()) || (!!code.display && rule.includes(code.display.toUpperCase()));
+    return { label, code, text, abnormal, basis: `Clinic rule for ${reading.analyte}: abnormal when ${rule.join(', ')}` };
+  }
+  return { label, code, text, abnormal: null, basis: 'Not interpreted: the analyzer sent no flag and the clinic has no rule for this test' };
+}
+
 export function evaluateResult(
-  reading: { analyte: string; value: number | null; comparator: Comparator; unit: string | null; instrumentId: string | null },
+  reading: EvaluatedReading,
   patient: { name: string; species: string },
   analyte: AnalyteContext | undefined,
   intervals: readonly IntervalContext[],
 ): Evaluation {
   const problems: string[] = [];
   const warning = analyte ? speciesWarning({ code: analyte.code, validatedSpecies: analyte.validatedSpecies }, patient) : null;
+  const analyzerFlag = analyzerFlagOf(reading.flags);
+  const qualitative = qualitativeOf(reading, analyte, analyzerFlag);
+  if (qualitative) {
+    return { display: { value: null, comparator: null, unit: reading.unit }, interval: null, flag: null, band: null, analyzerFlag, qualitative, unitNote: null, problems, speciesWarning: warning };
+  }
   let display = { value: reading.value, comparator: reading.comparator, unit: reading.unit };
   const unitCheck = checkUnit(reading.unit);
   if (!unitCheck.ok) problems.push(`Unit: ${unitCheck.message}`);
@@ -84,24 +189,43 @@ export function evaluateResult(
     display = { ...display, unit: displayUnit ?? unitCheck.ucum };
   }
 
+  // The clinic's interval (analyte, species, instrument) when there is one, else the analyzer's own range.
   const chosen = pickInterval(intervals, reading.analyte, patient.species, reading.instrumentId);
+  const fromAnalyzer = chosen ? null : parseAnalyzerRange(reading.instrumentRange);
   let interval: Evaluation['interval'] = null;
-  if (!chosen) {
-    problems.push(`No reference interval for ${reading.analyte} in this species.`);
-  } else if (display.unit) {
-    const limits = convertLimits(chosen, chosen.unit, display.unit);
-    if (limits) interval = { ...limits, unit: display.unit, source: chosen.source, id: chosen.id };
-    else problems.push(`The interval's unit ${chosen.unit} does not convert to ${display.unit}.`);
+  let bandSource: { bands: readonly { label: string; from: number | null; to: number | null }[]; unit: string; limits: Pick<Limits, 'low' | 'high'> } | null = null;
+  if (chosen) {
+    if (display.unit) {
+      const limits = convertLimits(chosen, chosen.unit, display.unit);
+      if (limits) interval = { ...limits, unit: display.unit, source: chosen.source, id: chosen.id, origin: 'clinic' };
+      else problems.push(`The interval's unit ${chosen.unit} does not convert to ${display.unit}.`);
+    }
+    // Bands are kept in the interval's unit: compare the result there.
+    bandSource = { bands: chosen.bands.length ? chosen.bands : bandsFromLimits(chosen), unit: chosen.unit, limits: chosen };
+  } else if (fromAnalyzer && unitCheck.ok) {
+    const limits = convertLimits({ ...fromAnalyzer, criticalLow: null, criticalHigh: null }, unitCheck.ucum, display.unit ?? unitCheck.ucum);
+    if (limits) {
+      interval = { ...limits, unit: display.unit ?? unitCheck.ucum, source: `${ANALYZER_INTERVAL_SOURCE} (${reading.instrumentRange})`, id: 'analyzer', origin: 'analyzer' };
+      bandSource = { bands: bandsFromLimits(fromAnalyzer), unit: unitCheck.ucum, limits: fromAnalyzer };
+    }
+  } else {
+    problems.push(
+      reading.instrumentRange
+        ? `No reference interval for ${reading.analyte} in this species, and the analyzer's range "${reading.instrumentRange}" could not be read.`
+        : `No reference interval for ${reading.analyte} in this species.`,
+    );
   }
   const canFlag = interval !== null && display.unit === interval.unit && unitCheck.ok;
   const flag = canFlag ? flagResult(display, interval!, display.unit ?? '') : null;
   let band: Evaluation['band'] = null;
-  if (canFlag && chosen && chosen.bands.length) {
-    // Bands are kept in the interval's unit: compare the result there.
-    const inIntervalUnit = reading.value === null ? null : convert(reading.value, unitCheck.ok ? unitCheck.ucum : '', chosen.unit);
-    if (inIntervalUnit?.ok) band = bandFor({ value: inIntervalUnit.value, comparator: reading.comparator }, chosen.bands);
+  if (canFlag && bandSource) {
+    const inBandUnit = reading.value === null ? null : convert(reading.value, unitCheck.ok ? unitCheck.ucum : '', bandSource.unit);
+    if (inBandUnit?.ok) band = bandFor({ value: inBandUnit.value, comparator: reading.comparator }, bandSource.bands, intervalCentre(bandSource.limits));
   }
-  return { display, interval, flag, band, problems, speciesWarning: warning };
+  if (analyzerFlag?.abnormal && flag && flag.certain && flag.flag === 'normal') {
+    problems.push(`${analyzerFlag.text}, although ${interval?.origin === 'clinic' ? 'the clinic’s interval' : 'its range'} has the value within: check the analyzer’s settings and the interval.`);
+  }
+  return { display, interval, flag, band, analyzerFlag, qualitative: null, unitNote: unitCheck.ok ? (unitCheck.note ?? null) : null, problems, speciesWarning: warning };
 }
 
 /** Rounds for display with the analyte's decimals, keeping the comparator: "<5.0 mg/L". */

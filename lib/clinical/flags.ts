@@ -143,9 +143,26 @@ export interface DeltaCheck {
   text: string;
 }
 
+/** |ln(ratio)| bounds for a ratio range [lo, hi] (null: unbounded); a ratio ≤ 0 has no logarithm: unbounded. */
+function logRatioBounds(lo: number | null, hi: number | null): { smallest: number; largest: number } {
+  if (lo === null || hi === null || lo <= 0) {
+    const known = lo !== null && lo > 1 ? Math.log(lo) : hi !== null && hi > 0 && hi < 1 ? -Math.log(hi) : 0;
+    return { smallest: known, largest: Infinity };
+  }
+  const a = Math.log(lo);
+  const b = Math.log(hi);
+  return { smallest: a <= 0 && b >= 0 ? 0 : Math.min(Math.abs(a), Math.abs(b)), largest: Math.max(Math.abs(a), Math.abs(b)) };
+}
+
 /**
- * The delta check: a result that moved more than the rule allows since the same patient's previous one
- * is flagged "check patient identity". Both limits that are set must be exceeded.
+ * The delta check: a result that moved more than the rule allows since the same patient's previous one.
+ * Both limits that are set must be exceeded. The percent limit is taken as a ratio on a log scale, so a
+ * fall counts as much as the matching rise: a limit of +270 % (×3.7) is also crossed by a fall to less
+ * than 1/3.7 of the previous value (152 → 3 mg/L). A percent change cannot fall below −100 %, which is
+ * why a plain percent never catches a fall.
+ * A delta check cannot tell why a result moved: a real change in the patient (surgery, treatment, the
+ * course of disease) and a sample from another patient both set it off (common practice, no source), so
+ * it says "large change since the last result" and asks for a clinical explanation before an identity check.
  */
 export function deltaCheck(
   previous: Measured & { at: Date },
@@ -158,27 +175,33 @@ export function deltaCheck(
   if (rule.windowHours !== null && Math.abs(hours) > rule.windowHours) return none;
   const change = changeBetween(previous, current);
   if (!change) return none;
+  const p = valueRange(previous)!;
+  const c = valueRange(current)!;
   // Smallest and largest |change| the ranges allow.
   const smallest = (min: number | null, max: number | null) =>
     min !== null && min > 0 ? min : max !== null && max < 0 ? -max : 0;
   const largest = (min: number | null, max: number | null) =>
     min === null || max === null ? Infinity : Math.max(Math.abs(min), Math.abs(max));
-  const exceeds = (limit: number | null, min: number | null, max: number | null, test: 'smallest' | 'largest') =>
-    limit === null || (test === 'smallest' ? smallest(min, max) : largest(min, max)) > limit;
-  const certainly =
-    exceeds(rule.absolute, change.minDelta, change.maxDelta, 'smallest') &&
-    exceeds(rule.percent, change.minPercent, change.maxPercent, 'smallest');
-  const maybe =
-    exceeds(rule.absolute, change.minDelta, change.maxDelta, 'largest') &&
-    exceeds(rule.percent, change.minPercent, change.maxPercent, 'largest');
+  const absoluteOver = (test: 'smallest' | 'largest') =>
+    rule.absolute === null || (test === 'smallest' ? smallest(change.minDelta, change.maxDelta) : largest(change.minDelta, change.maxDelta)) > rule.absolute;
+  const ratio = logRatioBounds(
+    c.min === null || p.max === null ? null : p.max === 0 ? null : c.min / p.max,
+    c.max === null || p.min === null || p.min === 0 ? null : c.max / p.min,
+  );
+  const ratioLimit = rule.percent === null ? null : Math.log(1 + rule.percent / 100);
+  const ratioOver = (test: 'smallest' | 'largest') => ratioLimit === null || (test === 'smallest' ? ratio.smallest : ratio.largest) > ratioLimit;
+  const certainly = absoluteOver('smallest') && ratioOver('smallest');
+  const maybe = absoluteOver('largest') && ratioOver('largest');
   if (!maybe) return none;
   const window = rule.windowHours !== null ? ` within ${rule.windowHours} h` : '';
-  const limits = [rule.absolute !== null ? `${rule.absolute}` : null, rule.percent !== null ? `${rule.percent}%` : null]
+  const factor = rule.percent !== null ? 1 + rule.percent / 100 : null;
+  const limits = [rule.absolute !== null ? `${rule.absolute}` : null, factor !== null ? `×${Number(factor.toPrecision(3))} up or ÷${Number(factor.toPrecision(3))} down` : null]
     .filter(Boolean)
     .join(' and ');
+  const advice = 'If treatment or the course of disease does not explain it, check that the sample is this patient’s.';
   return certainly
-    ? { flagged: true, possible: false, text: `Check patient identity: changed ${change.text} since the previous result (${hoursText(hours)} earlier), more than ${limits}${window}.` }
-    : { flagged: true, possible: true, text: `Check patient identity: the change since the previous result may exceed ${limits}${window}; a value is beyond the reportable range.` };
+    ? { flagged: true, possible: false, text: `Large change since the last result: ${change.text} (${hoursText(hours)} earlier), more than ${limits}${window}. ${advice}` }
+    : { flagged: true, possible: true, text: `Possibly a large change since the last result: it may exceed ${limits}${window}; a value is beyond the reportable range. ${advice}` };
 }
 
 const hoursText = (h: number) => (Math.abs(h) < 48 ? `${Math.abs(h).toFixed(1)} h` : `${(Math.abs(h) / 24).toFixed(1)} days`);
@@ -211,19 +234,53 @@ export function summarise(series: Measured[]): SeriesSummary {
   };
 }
 
-/** The interpretation band a result falls in; null when the range straddles bands or none fits. */
+/**
+ * Values exactly at a limit: a reference interval includes both of its limits (CLSI EP28-A3c defines
+ * it as the interval between and including the lower and upper reference limits; from memory, verify),
+ * and every other boundary (a critical limit, a band edge) is taken the same way: a value exactly on it
+ * belongs to the side nearer the interval. `flagResult` and `bandFor` both follow it, so 10.0 mg/L with
+ * an upper limit of 10 is "Within interval" in both.
+ */
+export const LIMIT_CONVENTION =
+  'A value exactly at a limit counts as the side nearer the reference interval: the interval includes both its limits (CLSI EP28-A3c, from memory, verify).';
+
+/**
+ * The interpretation band a result falls in; null when the range straddles bands or none fits.
+ * `centre`: where the interval is (its middle, or its one limit); a value exactly on a band edge belongs
+ * to the band on the centre's side (LIMIT_CONVENTION). Without a centre, an edge belongs to the upper band.
+ */
 export function bandFor(
   m: Measured,
   bands: readonly { label: string; from: number | null; to: number | null }[],
+  centre: number | null = null,
 ): { label: string; certain: boolean } | null {
   const range = valueRange(m);
   if (!range) return null;
-  const fits = (x: number, side: -1 | 0 | 1) =>
-    bands.find(
-      (b) => (b.from === null || x > b.from || (x === b.from && side >= 0)) && (b.to === null || x < b.to || (x === b.to && side === -1)),
+  const fits = (x: number, side: -1 | 0 | 1) => {
+    // Exactly on an edge: which way it leans (towards the interval's centre), unless a comparator says.
+    const lean = side !== 0 ? side : centre !== null && x >= centre ? -1 : centre !== null ? 1 : 1;
+    return bands.find(
+      (b) =>
+        (b.from === null || x > b.from || (x === b.from && lean > 0)) && (b.to === null || x < b.to || (x === b.to && lean < 0)),
     );
+  };
   const low = range.min === null ? bands.find((b) => b.from === null) : fits(range.min, range.minOpen ? 1 : 0);
   const high = range.max === null ? bands.find((b) => b.to === null) : fits(range.max, range.maxOpen ? -1 : 0);
   if (!low || !high) return null;
   return { label: low === high ? low.label : `${low.label} to ${high.label.toLowerCase()}`, certain: low === high };
+}
+
+/** Where an interval is, for LIMIT_CONVENTION: the middle of its limits, or its one limit. */
+export function intervalCentre(l: Pick<Limits, 'low' | 'high'>): number | null {
+  if (l.low !== null && l.high !== null) return (l.low + l.high) / 2;
+  return l.high ?? l.low;
+}
+
+/** Bands from the limits alone, when the clinic set none: below, within, above. */
+export function bandsFromLimits(l: Pick<Limits, 'low' | 'high'>): { label: string; from: number | null; to: number | null }[] {
+  const bands: { label: string; from: number | null; to: number | null }[] = [];
+  if (l.low !== null) bands.push({ label: 'Below interval', from: null, to: l.low });
+  bands.push({ label: 'Within interval', from: l.low, to: l.high });
+  if (l.high !== null) bands.push({ label: 'Above interval', from: l.high, to: null });
+  return bands;
 }

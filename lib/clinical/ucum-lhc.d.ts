@@ -15,6 +15,25 @@ declare module '@lhncbc/ucum-lhc' {
     validateUnitString(unit: string, suggest?: boolean): ValidationResult;
     convertUnitTo(fromUnit: string, value: number, toUnit: string): ConversionResult;
   }
-  const ucum: { UcumLhcUtils: { getInstance(): UcumLhcUtils } };
+  interface UcumUnit {
+    csCode_: string;
+    ciCode_: string;
+    isMetric_: boolean;
+    isBase_: boolean;
+  }
+  interface UnitTables {
+    getAllUnitCodes(): string[];
+    getUnitByCode(code: string): UcumUnit | undefined;
+  }
+  const ucum: { UcumLhcUtils: { getInstance(): UcumLhcUtils }; UnitTables: { getInstance(): UnitTables } };
   export default ucum;
+}
+
+declare module '@lhncbc/ucum-lhc/source-cjs/prefixTables.js' {
+  interface UcumPrefix {
+    code_: string;
+    ciCode_: string;
+  }
+  const prefixTables: { PrefixTables: { getInstance(): { allPrefixesByCode(): UcumPrefix[] } } };
+  export default prefixTables;
 }

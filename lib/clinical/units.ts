@@ -1,10 +1,11 @@
 // Units through UCUM (@lhncbc/ucum-lhc): instrument unit strings are validated, and values are moved
 // into the clinic's units by UCUM's own definitions, never by factors typed in here.
 import ucum from '@lhncbc/ucum-lhc';
+import { fromCaseInsensitive } from './ucum-ci';
 
 const utils = ucum.UcumLhcUtils.getInstance();
 
-export type UnitCheck = { ok: true; ucum: string; name: string } | { ok: false; message: string };
+export type UnitCheck = { ok: true; ucum: string; name: string; note?: string } | { ok: false; message: string };
 
 /**
  * Instruments print units loosely. The only rewrites are unambiguous spellings of UCUM symbols:
@@ -17,6 +18,16 @@ export function tidyUnit(printed: string): string {
 export function checkUnit(printed: string | null | undefined): UnitCheck {
   if (!printed || !printed.trim()) return { ok: false, message: 'No unit was printed.' };
   const tidy = tidyUnit(printed);
+  // Capitals only: the instrument writes UCUM's case-insensitive form (MG/L is mg/L, not megagauss per litre).
+  if (/[A-Z]/.test(tidy) && !/[a-z]/.test(tidy)) {
+    const ci = fromCaseInsensitive(tidy);
+    const valid = ci.ok ? utils.validateUnitString(ci.cs) : null;
+    if (!ci.ok || valid?.status !== 'valid' || !valid.ucumCode) {
+      return { ok: false, message: `"${printed}" is written in capitals, but is no UCUM unit in UCUM's case-insensitive form${ci.ok ? '' : ` (${ci.message})`}.` };
+    }
+    const note = valid.ucumCode !== tidy ? `"${printed}" read as ${valid.ucumCode} (UCUM's case-insensitive form).` : undefined;
+    return { ok: true, ucum: valid.ucumCode, name: valid.unit?.name ?? valid.ucumCode, ...(note ? { note } : {}) };
+  }
   const result = utils.validateUnitString(tidy);
   if (result.status !== 'valid' || !result.ucumCode) {
     return { ok: false, message: `"${printed}" is not a UCUM unit${result.msg[0] ? ` (${result.msg[0]})` : ''}.` };

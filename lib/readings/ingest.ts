@@ -85,6 +85,10 @@ export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promis
           resultStatus: payload.resultStatus,
           analyte: payload.analyte,
           value: payload.value,
+          // A result is a number, a code or text (lib/validation/readings.ts), with the notes sent beside it.
+          valueCode: payload.code,
+          valueText: payload.text,
+          notes: payload.notes,
           comparator: payload.comparator,
           unit: payload.unit,
           flags: payload.flags,

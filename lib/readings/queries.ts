@@ -10,6 +10,12 @@ const readingColumns = {
   status: readings.status,
   analyte: readings.analyte,
   value: readings.value,
+  valueCode: readings.valueCode,
+  valueText: readings.valueText,
+  notes: readings.notes,
+  enteredBy: readings.enteredBy,
+  /** Who typed the result in from an unparsed capture (null for an instrument's own). */
+  enteredByName: sql<string | null>`(select ${staffUsers.displayName} from ${staffUsers} where ${staffUsers.id} = ${readings.enteredBy})`,
   comparator: readings.comparator,
   unit: readings.unit,
   flags: readings.flags,

@@ -1,5 +1,6 @@
 import { z } from 'zod';
 import { text, isoDateTime } from './text';
+import { DECIMAL_MARKS } from './numbers';
 import { ROLES } from '@/lib/auth/roles';
 import { profileDefinitionSchema } from './profile';
 
@@ -65,6 +66,14 @@ export const newInstrumentSchema = z.object({
   bridgeId: z.uuid().optional(),
   /** For dialect 'profile': the printout profile to read with (its latest version). */
   profileId: z.uuid().optional(),
+  /** How the bridge reads its numbers, and the name it answers as (HL7 ACK MSH-3/4). */
+  readSettings: z
+    .object({
+      decimalMark: z.enum(DECIMAL_MARKS).default('point'),
+      receivingApplication: z.string().trim().max(64).optional(),
+      receivingFacility: z.string().trim().max(64).optional(),
+    })
+    .default({ decimalMark: 'point' }),
   connection: z
     .discriminatedUnion('kind', [
       z.object({

@@ -7,10 +7,28 @@ import { isoDateTime } from './text';
 export const COMPARATORS = ['<', '>'] as const;
 export const RESULT_STATUSES = ['final', 'preliminary', 'corrected'] as const;
 
+/** A coded result (HL7 CE/CWE OBX-5, an ASTM word such as POS): the sender's code, its text and code system. */
+export const codedValueSchema = z.object({
+  /** The coding system as sent (HL7 CE/CWE component 3); null for the instrument's own words. */
+  system: z.string().trim().max(64).nullable().default(null),
+  code: z.string().trim().min(1, 'a coded value needs its code').max(64),
+  display: z.string().trim().max(200).nullable().default(null),
+});
+export type CodedValue = z.infer<typeof codedValueSchema>;
+
+/**
+ * A result is exactly one of: a number (with its comparator), a code, or text; plus unit, the
+ * instrument's flags and range, status and notes. `value`, `code` and `text`: at most one is set.
+ */
 export const parsedReadingSchema = z.object({
   kind: z.literal('reading').default('reading'),
   analyte: z.string().trim().min(1, 'analyte is required').max(64),
   value: z.number().finite().nullable(),
+  code: codedValueSchema.nullable().default(null),
+  /** A text result (HL7 ST/TX/FT), as sent with escapes undone. */
+  text: z.string().max(4000).nullable().default(null),
+  /** Comments sent with this result (HL7 NTE-3, ASTM C.4), in order. */
+  notes: z.array(z.string().max(2000)).max(20).default([]),
   comparator: z.enum(COMPARATORS).nullable().default(null),
   unit: z.string().trim().max(32).nullable().default(null),
   flags: z.array(z.string().trim().min(1).max(32)).max(16).default([]),

@@ -63,3 +63,49 @@ describe('live updates reach every open list and chart', () => {
     expect(keys('alert.created')).toContain('/api/alerts');
   });
 });
+
+describe('the analyzer’s own range, flags and qualitative results', () => {
+  // The analyzer's range arrives as text (HL7 OBX-7 "22-40", ASTM R.6 "lower^upper"; from memory); when the
+  // clinic has no interval for this analyte, species and instrument, it flags and bands the result, labelled so.
+  const alb = { analyte: 'ALB', value: 10, comparator: null, unit: 'g/L', instrumentId: null, instrumentRange: '22-40', flags: ['L'] };
+
+  it('flags and bands from the analyzer’s range when the clinic has none, and says whose interval it is', () => {
+    const e = evaluateResult(alb, dog, undefined, []);
+    expect(e.interval).toMatchObject({ low: 22, high: 40, origin: 'analyzer', source: 'Interval from the analyzer (22-40)' });
+    expect(e.flag).toMatchObject({ flag: 'low', certain: true });
+    expect(e.band).toEqual({ label: 'Below interval', certain: true });
+    expect(e.analyzerFlag).toMatchObject({ codes: ['L'], abnormal: true });
+  });
+
+  it('uses the clinic’s interval first, and says so when the analyzer flagged what the clinic has within', () => {
+    const clinic: IntervalContext = { id: 'alb-dog', analyte: 'ALB', species: 'dog', instrumentId: null, unit: 'g/L', low: 5, high: 40, criticalLow: null, criticalHigh: null, bands: [], source: 'test interval' };
+    const e = evaluateResult(alb, dog, undefined, [clinic]);
+    expect(e.interval).toMatchObject({ origin: 'clinic', low: 5 });
+    expect(e.flag).toMatchObject({ flag: 'normal' });
+    expect(e.band).toEqual({ label: 'Within interval', certain: true });
+    expect(e.problems.join(' ')).toMatch(/Analyzer flag: L \(low\), although the clinic’s interval has the value within/);
+  });
+
+  it('reads ">10", "<5" and "3.9 to 6.1" ranges, and keeps a flag without any range', () => {
+    expect(evaluateResult({ ...alb, instrumentRange: '3.9 to 6.1', value: 7 }, dog, undefined, []).flag).toMatchObject({ flag: 'high' });
+    expect(evaluateResult({ ...alb, instrumentRange: '<5', value: 7 }, dog, undefined, []).interval).toMatchObject({ low: null, high: 5 });
+    const none = evaluateResult({ ...alb, instrumentRange: null }, dog, undefined, []);
+    expect(none.flag).toBeNull();
+    expect(none.analyzerFlag?.text).toBe('Analyzer flag: L (low)');
+  });
+
+  it('a coded result is interpreted by the analyzer’s flag, else by the analyte’s rule, never as a number', () => {
+    const felv = { analyte: 'FELV', value: null, comparator: null, unit: null, instrumentId: null, valueCode: { system: 'L', code: '1', display: 'Positive' } };
+    expect(evaluateResult({ ...felv, flags: ['A'] }, dog, undefined, []).qualitative).toMatchObject({ label: 'Positive', abnormal: true, basis: 'Analyzer flag: A (abnormal)' });
+    const rule = { ...crp, code: 'FELV', abnormalCodes: ['1'] };
+    expect(evaluateResult(felv, dog, rule, []).qualitative).toMatchObject({ abnormal: true, basis: 'Clinic rule for FELV: abnormal when 1' });
+    expect(evaluateResult(felv, dog, undefined, []).qualitative).toMatchObject({ abnormal: null });
+    expect(evaluateResult(felv, dog, undefined, []).flag).toBeNull();
+  });
+
+  it('an upper-case unit is read as UCUM’s case-insensitive form and the note says so', () => {
+    const e = evaluateResult(r(12, { unit: 'MG/L' }), dog, crp, [dogInterval]);
+    expect(e.flag).toMatchObject({ flag: 'high' });
+    expect(e.unitNote).toBe('"MG/L" read as mg/L (UCUM\'s case-insensitive form).');
+  });
+});

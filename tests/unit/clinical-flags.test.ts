@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { DEFAULT_ANALYTES, DEFAULT_INTERVALS } from '@/lib/clinical/defaults';
-import { bandFor, changeBetween, deltaCheck, FLAG_CODE, flagResult, summarise, valueRange, type Limits } from '@/lib/clinical/flags';
+import { bandFor, bandsFromLimits, changeBetween, intervalCentre, deltaCheck, FLAG_CODE, flagResult, summarise, valueRange, type Limits } from '@/lib/clinical/flags';
 
 // Canine CRP limits used below are the app's defaults: upper limit 10 mg/L (from memory, a limit in
 // common use; healthy dogs < 5 mg/L in Caspi et al., Am J Vet Res 1987;48:919–921) and a critical limit
@@ -59,6 +59,22 @@ describe('flags against an interval', () => {
     expect(bandFor(above(200), crp.bands)).toEqual({ label: 'Markedly raised', certain: true });
     expect(bandFor(above(50), crp.bands)).toEqual({ label: 'Raised to markedly raised', certain: false });
   });
+
+  // One convention for a value exactly at a limit, for flag and band alike: the interval includes its
+  // limits (CLSI EP28-A3c: the reference interval lies between and includes the two limits; from memory,
+  // verify), and a value on a critical limit or band edge belongs to the side nearer the interval.
+  it('a value exactly at a limit gets the same answer from flag and band', () => {
+    const centre = intervalCentre(crp);
+    expect(flagResult(exact(10), crp)).toMatchObject({ flag: 'normal', certain: true });
+    expect(bandFor(exact(10), crp.bands, centre)).toEqual({ label: 'Within interval', certain: true });
+    expect(flagResult(exact(100), crp)).toMatchObject({ flag: 'high', certain: true });
+    expect(bandFor(exact(100), crp.bands, centre)).toEqual({ label: 'Raised', certain: true });
+    const glu: Limits = { low: 3.9, high: 7.5, criticalLow: null, criticalHigh: null };
+    expect(flagResult(exact(3.9), glu)).toMatchObject({ flag: 'normal' });
+    expect(bandFor(exact(3.9), bandsFromLimits(glu), intervalCentre(glu))).toEqual({ label: 'Within interval', certain: true });
+    expect(bandFor(exact(3.8), bandsFromLimits(glu), intervalCentre(glu))).toEqual({ label: 'Below interval', certain: true });
+    expect(bandFor(exact(7.5), bandsFromLimits(glu), intervalCentre(glu))).toEqual({ label: 'Within interval', certain: true });
+  });
 });
 
 describe('change from the previous result', () => {
@@ -90,7 +106,7 @@ describe('change from the previous result', () => {
   });
 });
 
-describe('delta check (check patient identity)', () => {
+describe('delta check (large change since the last result)', () => {
   // The default rule: 270% (one-sided critical difference for serial canine CRP, 269.9%, J Vet Intern
   // Med 2011, doi:10.1111/j.1939-1676.2011.0729.x) and 20 mg/L within 72 h (clinic choice, no source).
   const a = DEFAULT_ANALYTES.find((x) => x.code === 'cCRP')!;
@@ -100,7 +116,21 @@ describe('delta check (check patient identity)', () => {
   it('flags 8.1 → 96.4 mg/L within 48 h (+88.3, +1090%)', () => {
     const d = deltaCheck({ ...exact(8.1), at: h(0) }, { ...exact(96.4), at: h(48) }, rule);
     expect(d).toMatchObject({ flagged: true, possible: false });
-    expect(d.text).toMatch(/^Check patient identity/);
+    expect(d.text).toMatch(/^Large change since the last result: \+88\.3/);
+    // A delta check cannot tell a real change from a mix-up (common practice, no source): it asks for both.
+    expect(d.text).toMatch(/If treatment or the course of disease does not explain it, check that the sample is this patient’s\./);
+  });
+
+  // Falls count as much as rises: with a log-normal reference change value the limits are symmetric on a
+  // log scale, a rise by ×(1 + x) matching a fall by ÷(1 + x) (log-normal RCV, Fokkema MR et al., Clin Chem
+  // 2006;52:1224–1231; from memory, verify). 152 → 3 mg/L is ÷50.7, beyond ÷3.7, and −149 mg/L beyond 20.
+  it('flags a fall as it flags a rise: 152 → 3 mg/L within 24 h', () => {
+    const d = deltaCheck({ ...exact(152), at: h(0) }, { ...exact(3), at: h(24) }, rule);
+    expect(d).toMatchObject({ flagged: true, possible: false });
+    expect(d.text).toMatch(/−149\.0/);
+    // ÷3.6 is under ÷3.7: not flagged, as +260 % would not be.
+    expect(deltaCheck({ ...exact(72), at: h(0) }, { ...exact(20), at: h(24) }, rule).flagged).toBe(false);
+    expect(deltaCheck({ ...exact(20), at: h(0) }, { ...exact(72), at: h(24) }, rule).flagged).toBe(false);
   });
 
   it('does not flag 61.0 → 24.8 (−59%: under the percent limit) nor a big change outside the window', () => {

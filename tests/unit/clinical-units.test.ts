@@ -61,3 +61,25 @@ describe('UCUM units', () => {
     );
   });
 });
+
+// UCUM §4 and its table columns "c/s" and "c/i" (from memory): every symbol has a case-insensitive form in
+// capitals (mg → MG, L → L, umol → UMOL, [iU] → [IU]); in the case-sensitive form MG/L would be megagauss per litre.
+describe('units in UCUM case-insensitive form', () => {
+  it('reads capitals as the case-insensitive form and keeps a note of it', () => {
+    expect(checkUnit('MG/L')).toMatchObject({ ok: true, ucum: 'mg/L', note: '"MG/L" read as mg/L (UCUM\'s case-insensitive form).' });
+    expect(checkUnit('G/L')).toMatchObject({ ok: true, ucum: 'g/L' });
+    expect(checkUnit('UMOL/L')).toMatchObject({ ok: true, ucum: 'umol/L' });
+    expect(checkUnit('MG/DL')).toMatchObject({ ok: true, ucum: 'mg/dL' });
+    expect(checkUnit('10*9/L')).toMatchObject({ ok: true, ucum: '10*9/L' });
+    expect(checkUnit('U/L')).toMatchObject({ ok: true, ucum: 'U/L' });
+    expect(checkUnit('[IU]/L')).toMatchObject({ ok: true, ucum: '[IU]/L' });
+    // 10 mg/L = 1 mg/dL (1 dL = 0.1 L, SI brochure): the read unit converts like the lower-case one.
+    expect(convert(10, checkUnit('MG/L').ok ? 'mg/L' : '', 'mg/dL')).toEqual({ ok: true, value: 1 });
+  });
+
+  it('refuses capitals that are no UCUM symbol, and leaves lower-case units case-sensitive', () => {
+    expect(checkUnit('K/UL')).toMatchObject({ ok: false });
+    expect(checkUnit('XYZ/L')).toMatchObject({ ok: false });
+    expect(checkUnit('mg/L')).toEqual({ ok: true, ucum: 'mg/L', name: expect.any(String) });
+  });
+});

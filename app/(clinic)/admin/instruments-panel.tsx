@@ -36,6 +36,8 @@ type FormValues = {
   serialNumber: string;
   bridgeId: string;
   profileId: string;
+  decimalMark: 'point' | 'comma';
+  receivingApplication: string;
   kind: 'none' | 'serial' | 'tcp' | 'tcp-listen';
   path: string;
   baudRate: string;
@@ -62,6 +64,7 @@ function toInput(v: FormValues) {
     serialNumber: v.serialNumber || undefined,
     bridgeId: v.bridgeId || undefined,
     profileId: v.dialect === 'profile' ? v.profileId || undefined : undefined,
+    readSettings: { decimalMark: v.decimalMark, receivingApplication: v.receivingApplication || undefined },
     connection:
       v.kind === 'serial'
         ? { kind: 'serial', path: v.path, baudRate: Number(v.baudRate), dataBits: Number(v.dataBits), parity: v.parity, stopBits: Number(v.stopBits) }
@@ -77,7 +80,7 @@ export function InstrumentsPanel() {
   const profiles = useSWR<{ profiles: { key: string; name: string; version: number }[] }>('/api/admin/profiles', fetcher);
   const [message, setMessage] = useState<{ tone: 'ok' | 'error'; text: string } | null>(null);
   const { register, handleSubmit, control, reset, setError, formState } = useForm<FormValues>({
-    defaultValues: { dialect: 'plain-printout', kind: 'serial', baudRate: '9600', dataBits: '8', parity: 'none', stopBits: '1', path: '/dev/ttyUSB0' },
+    defaultValues: { dialect: 'plain-printout', decimalMark: 'point', kind: 'serial', baudRate: '9600', dataBits: '8', parity: 'none', stopBits: '1', path: '/dev/ttyUSB0' },
   });
   const { errors, isSubmitting } = formState;
   const kind = useWatch({ control, name: 'kind' });
@@ -160,6 +163,13 @@ export function InstrumentsPanel() {
               </select>
             </Field>
           )}
+          <Field id="instrument-decimalMark" label="Numbers it sends" error={errors.decimalMark?.message}>
+            <select id="instrument-decimalMark" className={inputClass} {...register('decimalMark')}>
+              <option value="point">Decimal point (12.5)</option>
+              <option value="comma">Decimal comma (12,5)</option>
+            </select>
+          </Field>
+          {dialect === 'hl7v2' && text('receivingApplication', 'Name in acknowledgments (optional)', { placeholder: 'BENCHWIRE' })}
           {text('serialNumber', 'Serial number (optional)')}
           <Field id="instrument-bridgeId" label="Bridge" error={errors.bridgeId?.message}>
             <select id="instrument-bridgeId" className={inputClass} {...register('bridgeId')}>
