@@ -97,7 +97,7 @@ export function replayDay(day: ReplayDay, runSeconds: (analyte: string) => numbe
     if (!suggestion.confident) summary.askedToChoose += 1;
     lines.push({
       readingId: r.id,
-      candidates: suggestion.candidates.filter((c) => c.orderId).map((c) => ({ orderId: c.orderId!, probability: Math.round(c.probability * 1e4) / 1e4 })),
+      candidates: suggestion.candidates.filter((c) => c.orderId).map((c) => ({ orderId: c.orderId!, probability: Math.round(c.probability * 1e6) / 1e6 })),
       confident: suggestion.confident,
     });
     scored.push({ readingId: r.id, suggestion, kept });
