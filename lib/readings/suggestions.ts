@@ -11,8 +11,12 @@ import { RECENT } from '@/lib/clinical/replay';
 import { ApiError, notFound } from '@/lib/http';
 import { loadPatientForPlacement, placeReading } from './placement';
 
-/** A run's full duration: its protocol's stages, or the built-in protocol for the test when it has none. */
-const runSecondsOf = (analyte: string, stages: ProtocolStage[] | null) => {
+/**
+ * A run's full duration: the stages copied onto the order when it started, else its protocol's, else the
+ * built-in protocol for the test.
+ */
+const runSecondsOf = (analyte: string, ...candidates: (ProtocolStage[] | null | undefined)[]) => {
+  const stages = candidates.find((c) => c && c.length > 0);
   if (stages) return protocolSeconds(stages);
   const fallback = DEFAULT_PROTOCOLS.find((p) => p.analyte === analyte);
   return fallback ? protocolSeconds(fallback.stages) : 0;
@@ -54,7 +58,7 @@ async function matchContext(tx: Executor, clinicId: string, analytes: string[], 
         ),
       ),
     tx
-      .select({ analyte: labOrders.analyte, startedAt: labOrders.startedAt, arrivedAt: readings.receivedAt, stages: runProtocols.stages })
+      .select({ analyte: labOrders.analyte, startedAt: labOrders.startedAt, arrivedAt: readings.receivedAt, copied: labOrders.stages, stages: runProtocols.stages })
       .from(labOrders)
       .innerJoin(readings, eq(readings.id, labOrders.fulfilledReadingId))
       .leftJoin(runProtocols, eq(runProtocols.id, labOrders.protocolId))
@@ -76,7 +80,7 @@ async function matchContext(tx: Executor, clinicId: string, analytes: string[], 
       instrumentId: order.instrumentId,
       sampleId: order.sampleId,
       startedAt: order.startedAt,
-      runSeconds: runSecondsOf(order.analyte, stages),
+      runSeconds: runSecondsOf(order.analyte, order.stages, stages),
       status: order.status,
     })),
     // Patients with an open order, plus any whose record number is printed on a reading.
@@ -84,7 +88,7 @@ async function matchContext(tx: Executor, clinicId: string, analytes: string[], 
     instruments: instrumentRows,
     analytes: analyteRows,
     placed: placedRows.flatMap((p) => (p.instrumentId ? [{ instrumentId: p.instrumentId, arrivedAt: p.arrivedAt, startedAt: p.startedAt }] : [])),
-    timing: learnTiming(history.map((h) => (h.arrivedAt.getTime() - h.startedAt.getTime()) / 1000 - runSecondsOf(h.analyte, h.stages))),
+    timing: learnTiming(history.map((h) => (h.arrivedAt.getTime() - h.startedAt.getTime()) / 1000 - runSecondsOf(h.analyte, h.copied, h.stages))),
     now: new Date(),
     timeZone: clinic[0]?.timeZone ?? 'UTC',
   };

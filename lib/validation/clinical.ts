@@ -46,6 +46,8 @@ export const reassignSchema = z.object({
   patientId: z.uuid('Choose a patient.'),
   orderId: z.uuid().optional(),
   reason: z.string().trim().min(3, 'Give a reason for moving this result.').max(500),
+  /** The run the reading is taken off will still give a reading: reopen it (else it stays closed, test used). */
+  runWillGiveReading: z.boolean().optional(),
 });
 
 export const reviewSchema = z

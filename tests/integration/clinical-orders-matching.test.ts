@@ -5,6 +5,7 @@ import * as orders from '@/app/api/orders/route';
 import * as abort from '@/app/api/orders/[orderId]/abort/route';
 import * as cancel from '@/app/api/orders/[orderId]/cancel/route';
 import * as assign from '@/app/api/readings/[readingId]/assign/route';
+import * as reassign from '@/app/api/readings/[readingId]/reassign/route';
 import * as suggestions from '@/app/api/readings/[readingId]/suggestions/route';
 import * as allSuggestions from '@/app/api/readings/suggestions/route';
 import * as adminClinical from '@/app/api/admin/clinical/route';
@@ -241,5 +242,41 @@ describe('run protocols are data an administrator changes', () => {
     const [kept] = await database.db.select().from(labOrders).where(eq(labOrders.id, running.id));
     expect(kept.dueAt.getTime() - kept.startedAt.getTime()).toBe(725_000);
     await patch(cookies.admin, { ...valid, stages: protocol.stages, source: protocol.source });
+  });
+});
+
+describe('moving a reading off a finished run', () => {
+  // A run that printed its reading is over (common practice, no source: a single-test cartridge gives one
+  // reading). Moving that reading to another patient must not put the run back on the Bench as overdue.
+  const assignedReading = async () => {
+    await closeAll();
+    const order = (await body(await startOrder({ patientId: ids.juniper, instrumentId: ids.reader, startedAt: new Date(Date.now() - 725_000).toISOString() }))).order;
+    const readingId = await reading(new Date());
+    const placed = await assign.POST(request('/api/readings/x/assign', { cookie: cookies.tech, body: { patientId: ids.juniper, orderId: order.id, method: 'manual' } }), params({ readingId }));
+    expect(placed.status).toBe(200);
+    return { order, readingId };
+  };
+  const move = (readingId: string, extra: Record<string, unknown> = {}) =>
+    reassign.POST(request('/api/readings/x/reassign', { cookie: cookies.tech, body: { patientId: ids.pepper, reason: 'Tube was Pepper’s', ...extra } }), params({ readingId }));
+
+  it('closes the run as used with no reading, unless told otherwise; audited', async () => {
+    const { order, readingId } = await assignedReading();
+    expect((await move(readingId)).status).toBe(200);
+    const [after] = await database.db.select().from(labOrders).where(eq(labOrders.id, order.id));
+    expect(after).toMatchObject({ status: 'aborted', testConsumed: true, fulfilledReadingId: null });
+    expect(after.closeReason).toMatch(/moved off \(Tube was Pepper’s\)/);
+    const open = await body(await orders.GET(request('/api/orders?status=open', { cookie: cookies.tech }), undefined));
+    expect(open.orders.map((o: { id: string }) => o.id)).not.toContain(order.id);
+    const [event] = await database.db.select().from(auditEvents).where(and(eq(auditEvents.entityId, order.id), eq(auditEvents.action, 'order.closed')));
+    expect(event.details).toMatchObject({ readingId, outcome: 'aborted', testConsumed: true });
+  });
+
+  it('reopens the run when the technician says it will still give a reading', async () => {
+    const { order, readingId } = await assignedReading();
+    expect((await move(readingId, { runWillGiveReading: true })).status).toBe(200);
+    const [after] = await database.db.select().from(labOrders).where(eq(labOrders.id, order.id));
+    expect(after).toMatchObject({ status: 'open', testConsumed: false, fulfilledReadingId: null });
+    expect(await database.db.select().from(auditEvents).where(and(eq(auditEvents.entityId, order.id), eq(auditEvents.action, 'order.reopened')))).toHaveLength(1);
+    await closeAll();
   });
 });
