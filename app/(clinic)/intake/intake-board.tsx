@@ -109,8 +109,15 @@ export function IntakeBoard() {
                       {r.instrumentName ?? <span className="text-ink-500">{r.instrumentCode} (not configured)</span>}
                     </td>
                     <td className="px-4 py-3 font-medium">{r.analyte}</td>
-                    <td className="whitespace-nowrap px-4 py-3 font-mono text-base font-semibold" data-testid="reading-value">
-                      {formatValue(r)}
+                    <td className="px-4 py-3" data-critical={r.critical ? (r.critical.certain ? 'yes' : 'possible') : undefined}>
+                      <span className="whitespace-nowrap font-mono text-base font-semibold" data-testid="reading-value">
+                        {formatValue(r)}
+                      </span>
+                      {r.critical && (
+                        <p className="mt-1 max-w-56 rounded bg-alarm-100 px-1.5 py-0.5 text-xs font-semibold text-alarm-700" data-testid="critical-before-assignment" role="note">
+                          {r.critical.text}
+                        </p>
+                      )}
                     </td>
                     <td className="px-4 py-3">
                       {r.sampleId || r.patientRef ? (
