@@ -7,7 +7,7 @@ export interface ReplayDay {
   timeZone: string;
   instruments: { id: string; name: string; channels: number }[];
   patients: { id: string; species: string; name?: string; recordNumber?: string }[];
-  orders: { id: string; patientId: string; analyte: string; instrumentId: string | null; startedAt: Date; sampleId?: string | null }[];
+  orders: { id: string; patientId: string; analyte: string; instrumentId: string | null; startedAt: Date; sampleId?: string | null; runSeconds?: number; closedAt?: Date | null }[];
   readings: {
     id: string;
     instrumentId: string;
@@ -65,9 +65,11 @@ export function replayDay(day: ReplayDay, runSeconds: (analyte: string) => numbe
     instrumentId: o.instrumentId,
     sampleId: o.sampleId ?? null,
     startedAt: o.startedAt,
-    runSeconds: runSeconds(o.analyte),
+    runSeconds: o.runSeconds ?? runSeconds(o.analyte),
   }));
   const byId = new Map(orders.map((o) => [o.id, o]));
+  // Closed (aborted or cancelled) by a person at a known time: out of the open set from then on.
+  const closedAt = new Map(day.orders.filter((o) => o.closedAt).map((o) => [o.id, o.closedAt!.getTime()]));
   const patients = day.patients.map((p) => ({ id: p.id, species: p.species, name: p.name ?? p.id, recordNumber: p.recordNumber ?? p.id }));
   const closed = new Set<string>();
   const offsets: number[] = [];
@@ -78,7 +80,7 @@ export function replayDay(day: ReplayDay, runSeconds: (analyte: string) => numbe
 
   for (const r of readings) {
     const t = r.arrivedAt.getTime();
-    const open = orders.filter((o) => !closed.has(o.id) && o.startedAt.getTime() <= t);
+    const open = orders.filter((o) => !closed.has(o.id) && o.startedAt.getTime() <= t && !((closedAt.get(o.id) ?? Infinity) <= t));
     const suggestion = suggestMatch(r, {
       orders: open,
       patients,

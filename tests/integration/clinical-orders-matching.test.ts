@@ -6,6 +6,7 @@ import * as abort from '@/app/api/orders/[orderId]/abort/route';
 import * as cancel from '@/app/api/orders/[orderId]/cancel/route';
 import * as assign from '@/app/api/readings/[readingId]/assign/route';
 import * as reassign from '@/app/api/readings/[readingId]/reassign/route';
+import * as matchingReport from '@/app/api/admin/matching-report/route';
 import * as suggestions from '@/app/api/readings/[readingId]/suggestions/route';
 import * as allSuggestions from '@/app/api/readings/suggestions/route';
 import * as adminClinical from '@/app/api/admin/clinical/route';
@@ -277,6 +278,25 @@ describe('moving a reading off a finished run', () => {
     const [after] = await database.db.select().from(labOrders).where(eq(labOrders.id, order.id));
     expect(after).toMatchObject({ status: 'open', testConsumed: false, fulfilledReadingId: null });
     expect(await database.db.select().from(auditEvents).where(and(eq(auditEvents.entityId, order.id), eq(auditEvents.action, 'order.reopened')))).toHaveLength(1);
+    await closeAll();
+  });
+});
+
+describe('the matching report (Admin)', () => {
+  it('replays the last 30 days: lists a confident suggestion the technician did not keep; admins only', async () => {
+    await closeAll();
+    // Juniper's run is due now on the reader; the technician puts the reading on Pepper without a test.
+    await startOrder({ patientId: ids.juniper, instrumentId: ids.reader, startedAt: new Date(Date.now() - 725_000).toISOString() });
+    const readingId = await reading(new Date());
+    const placed = await assign.POST(request('/api/readings/x/assign', { cookie: cookies.tech, body: { patientId: ids.pepper, method: 'manual' } }), params({ readingId }));
+    expect(placed.status).toBe(200);
+    expect((await matchingReport.GET(request('/api/admin/matching-report', { cookie: cookies.tech }), undefined)).status).toBe(403);
+    const response = await matchingReport.GET(request('/api/admin/matching-report', { cookie: cookies.admin }), undefined);
+    expect(response.status).toBe(200);
+    const { report } = await body(response);
+    expect(report.days).toBe(30);
+    expect(report.confidentKept).toBeLessThan(report.confident);
+    expect(report.notKept).toContainEqual(expect.objectContaining({ readingId, suggested: expect.objectContaining({ patientName: 'Juniper' }), kept: null }));
     await closeAll();
   });
 });
