@@ -1,7 +1,7 @@
 import 'server-only';
 import { aliasedTable, and, asc, desc, eq, inArray } from 'drizzle-orm';
 import { db } from '@/db/client';
-import { instruments, labOrders, patients, runProtocols, staffUsers, type StaffRole } from '@/db/schema';
+import { analyteSettings, instruments, labOrders, patients, runProtocols, staffUsers, type StaffRole } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { allowed } from '@/lib/auth/roles';
 import { recordAudit } from '@/lib/audit';
@@ -176,7 +176,7 @@ export type OrderView = Awaited<ReturnType<typeof listOrders>>[number];
 /** What the start-a-test form offers: analytes with a protocol, instruments that run them, who may order. */
 export async function orderFormOptions(actor: Actor) {
   const database = await db();
-  const [protocols, instrumentRows, staff] = await Promise.all([
+  const [protocols, instrumentRows, staff, analyteRows] = await Promise.all([
     database.select().from(runProtocols).where(eq(runProtocols.clinicId, actor.clinicId)),
     database
       .select({ id: instruments.id, name: instruments.name, analytes: instruments.analytes, channels: instruments.channels })
@@ -186,11 +186,17 @@ export async function orderFormOptions(actor: Actor) {
       .select({ id: staffUsers.id, displayName: staffUsers.displayName, role: staffUsers.role })
       .from(staffUsers)
       .where(and(eq(staffUsers.clinicId, actor.clinicId), eq(staffUsers.active, true), inArray(staffUsers.role, ['veterinarian', 'technician']))),
+    database
+      .select({ code: analyteSettings.code, validatedSpecies: analyteSettings.validatedSpecies })
+      .from(analyteSettings)
+      .where(eq(analyteSettings.clinicId, actor.clinicId)),
   ]);
   const analytes = [...new Set(protocols.map((p) => p.analyte))].sort();
   return {
     analytes: analytes.map((code) => ({
       code,
+      // For the species warning shown as soon as patient and test are chosen.
+      validatedSpecies: analyteRows.find((a) => a.code === code)?.validatedSpecies ?? [],
       protocols: protocols.filter((p) => p.analyte === code).map((p) => ({ id: p.id, name: p.name, instrumentId: p.instrumentId, stages: p.stages })),
       instruments: instrumentRows.filter((i) => i.analytes.includes(code)),
     })),

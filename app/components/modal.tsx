@@ -2,12 +2,26 @@
 import { useEffect, useRef } from 'react';
 
 /** A native modal <dialog>: the browser traps focus, Escape closes it, and focus returns where it was. */
-export function Modal({ title, onClose, children }: { title: string; onClose: () => void; children: React.ReactNode }) {
+export function Modal({
+  title,
+  onClose,
+  children,
+  initialFocus,
+}: {
+  title: string;
+  onClose: () => void;
+  children: React.ReactNode;
+  /** The id of the element to focus once the dialog is open (else the browser's first focusable one). */
+  initialFocus?: string;
+}) {
   const ref = useRef<HTMLDialogElement>(null);
   useEffect(() => {
     const dialog = ref.current;
     if (dialog && !dialog.open) dialog.showModal();
+    if (initialFocus) dialog?.querySelector<HTMLElement>(`#${CSS.escape(initialFocus)}`)?.focus();
     return () => dialog?.close();
+    // Focus once, when the dialog opens.
+    // eslint-disable-next-line react-hooks/exhaustive-deps
   }, []);
   return (
     <dialog

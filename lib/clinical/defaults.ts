@@ -65,11 +65,12 @@ export const DEFAULT_PROTOCOLS: DefaultProtocol[] = [
       { key: 'mix', label: 'Mixing', seconds: 30, handsOn: true },
       { key: 'reinsert', label: 'Re-insert the cartridge', seconds: 10, maxSeconds: 10, handsOn: true },
       { key: 'incubate', label: 'Incubation', seconds: 660 },
+      { key: 'measure', label: 'Measurement', seconds: 25 },
     ],
     earlySeconds: 60,
     lateSeconds: 180,
     source:
-      'Common practice for a single-test point-of-care CRP reader, no published source: about 30 s mixing, re-insertion within 10 s (else the run aborts and the test is used up), 660 s incubation; the reading is due about 12 min after the start. Tolerances are clinic choice.',
+      'Common practice for a single-test point-of-care CRP reader, no published source: about 30 s mixing, re-insertion within 10 s (else the run aborts and the test is used up), 660 s incubation, then 20–35 s measuring before the result prints (25 s taken); the reading is due about 12 min after the start. Tolerances are clinic choice.',
   },
 ];
 

@@ -233,3 +233,29 @@ export function formatMeasured(m: { value: number | null; comparator: Comparator
   if (m.value === null) return '—';
   return `${m.comparator ?? ''}${m.value.toFixed(decimals)}${m.unit ? ` ${m.unit}` : ''}`;
 }
+
+/**
+ * Before a reading is on a patient: whether it is critical for a species the clinic has an interval for,
+ * so Intake can flag it at once. The test's validated species come first. Null when no interval makes it
+ * critical (or none applies).
+ */
+export function criticalBeforeAssignment(
+  reading: { analyte: string; value: number | null; comparator: Comparator; unit: string | null; instrumentId: string | null },
+  analyte: AnalyteContext | undefined,
+  intervals: readonly IntervalContext[],
+): { species: string; text: string; certain: boolean } | null {
+  const species = [...new Set(intervals.filter((i) => i.analyte === reading.analyte).map((i) => i.species))].sort(
+    (a, b) => Number(analyte?.validatedSpecies.includes(b) ?? 0) - Number(analyte?.validatedSpecies.includes(a) ?? 0) || a.localeCompare(b),
+  );
+  const a: Record<string, string> = { dog: 'a dog', cat: 'a cat', rabbit: 'a rabbit', ferret: 'a ferret', bird: 'a bird', reptile: 'a reptile' };
+  for (const s of species) {
+    const { flag, interval } = evaluateResult(reading, { name: '', species: s }, analyte, intervals);
+    if (!flag || flag.critical === 'no' || !interval) continue;
+    const high = flag.possible.includes('critical-high');
+    const limit = high ? interval.criticalHigh : interval.criticalLow;
+    const where = `${high ? 'above' : 'below'} the critical limit ${limit} ${interval.unit}`;
+    const text = `${flag.critical === 'yes' ? 'Critical' : 'Possibly critical'} for ${a[s] ?? s}: ${where}. Assign it first and tell the veterinarian.`;
+    return { species: s, text, certain: flag.critical === 'yes' };
+  }
+  return null;
+}

@@ -1,6 +1,23 @@
-// Ranked match suggestions for a reading that arrived without a patient. Pure: the caller loads the
-// reading, the open orders, their patients, instruments and analytes; this module only weighs evidence
-// and says why, in the clinic's words. It never decides on its own: see autoAssignTarget for the one rule that may.
+// Match suggestions for readings that arrived without a patient, as probabilities. Pure: the caller
+// loads the waiting readings, the open orders, their patients, the instruments and the analytes; this
+// module only weighs the evidence and says why, in the clinic's words. It never decides on its own: the
+// one rule that may put a reading on a patient without a person is autoAssignTarget (exact ID only).
+//
+// The model, in short. For the waiting readings R and the open orders O of one test, a hypothesis gives
+// each reading one order or "none of these" (a run the app was never told about), no order twice.
+//   weight(hypothesis) = Π over readings r of w(r, its order)        (w(r, none) = NONE_WEIGHT)
+//   w(r, o) = timing(r, o) · reader(r, o) · ids(r, o) · channel(r, o) / unseen(o)
+// timing   the density of the arrival minus (start + the protocol's full duration), from the clinic's
+//          spread of "started" clicks (learnTiming), with a thin wide tail for a reading taken late;
+// reader   a named reader must be the one that sent the reading; an unnamed order could be on any of
+//          the K readers that run the test (1/K);
+// ids      an exact sample or record ID is decisive; an ID that names someone else is strong evidence against;
+// channel  one run per channel: a run on a single-channel reader started after that reader's previous
+//          reading, and no other run on it started while this one ran;
+// unseen   the chance that an order shows no reading yet: aborted (ABORT_PRIOR), or still running. Dividing
+//          by it is what makes an overdue run expect its reading, and lets a run long overdue on a busy
+//          reader be read as aborted instead of blocking the reader (abortProbability).
+// Species is never evidence of identity: it is a warning beside the suggestion.
 import { formatDuration } from './protocols';
 
 export interface MatchReading {
@@ -9,7 +26,7 @@ export interface MatchReading {
   instrumentId: string | null;
   sampleId: string | null;
   patientRef: string | null;
-  /** When the reading reached the bridge: what the due time is compared with. */
+  /** When the reading reached the bridge. */
   arrivedAt: Date;
 }
 
@@ -17,14 +34,15 @@ export interface MatchOrder {
   id: string;
   patientId: string;
   analyte: string;
+  /** The reader named when the test was started; null when none was. */
   instrumentId: string | null;
   sampleId: string | null;
+  /** When "started" was clicked. */
   startedAt: Date;
-  dueAt: Date;
-  status: 'open' | 'fulfilled' | 'aborted' | 'cancelled';
-  /** Tolerance around the due time, from the run protocol. */
-  earlySeconds: number;
-  lateSeconds: number;
+  /** The run protocol's full duration, every stage including the measurement: due = startedAt + runSeconds. */
+  runSeconds: number;
+  /** Only open orders are candidates; absent means open. */
+  status?: 'open' | 'fulfilled' | 'aborted' | 'cancelled';
 }
 
 export interface MatchPatient {
@@ -38,6 +56,8 @@ export interface MatchInstrument {
   id: string;
   name: string;
   channels: number;
+  /** Tests this instrument runs; empty or absent means any. */
+  analytes?: string[];
 }
 
 export interface MatchAnalyte {
@@ -45,38 +65,49 @@ export interface MatchAnalyte {
   validatedSpecies: string[];
 }
 
-export interface MatchInput {
-  reading: MatchReading;
+/** How early or late readings arrive against the due time: a centre and a spread, in seconds. */
+export interface TimingModel {
+  offsetSeconds: number;
+  spreadSeconds: number;
+  /** How many confirmed matches the estimate rests on (0: the defaults). */
+  basedOn: number;
+}
+
+export interface MatchContext {
   orders: MatchOrder[];
   patients: MatchPatient[];
   instruments: MatchInstrument[];
   analytes: MatchAnalyte[];
+  /**
+   * Readings already placed today, per instrument: a single-channel reader was busy until each arrival,
+   * from the start of the run it was placed on (null when placed without a run).
+   */
+  placed?: { instrumentId: string; arrivedAt: Date; startedAt: Date | null }[];
+  timing?: TimingModel;
+  /** The moment the suggestions are for; the latest arrival when absent. */
+  now?: Date;
   /** The clinic's time zone, for the times written in reasons (IANA name); UTC when absent. */
   timeZone?: string;
 }
 
 export type ReasonCode =
   | 'sample-id-match'
-  | 'sample-id-differs'
-  | 'id-names-other'
   | 'record-id-match'
-  | 'analyte-match'
+  | 'id-names-other'
+  | 'sample-id-differs'
   | 'instrument-match'
   | 'instrument-differs'
   | 'instrument-unknown'
-  | 'on-time'
-  | 'too-early'
-  | 'late'
-  | 'first-in-line'
-  | 'not-first-in-line'
-  | 'species-validated'
-  | 'species-not-validated'
-  | 'no-order'
-  | 'another-reading-fits';
+  | 'timing'
+  | 'reader-busy'
+  | 'earlier-run-probably-aborted'
+  | 'another-reading-fits'
+  | 'no-order';
 
 export interface Reason {
   code: ReasonCode;
-  points: number;
+  /** Whether it speaks for this candidate, against it, or neither. */
+  effect: 'for' | 'against' | 'neutral';
   text: string;
 }
 
@@ -84,41 +115,64 @@ export interface Candidate {
   patientId: string;
   patientName: string;
   recordNumber: string;
+  /** The open order this reading would complete; null for a patient named by an ID without an open order. */
   orderId: string | null;
-  score: number;
+  probability: number;
   reasons: Reason[];
-  /** exact: an ID printed on the reading matches; the others by score. */
-  strength: 'exact' | 'strong' | 'possible' | 'weak';
-  /** How many other candidates have the same score: a tie is shown as one, never broken silently. */
-  tiedWith: number;
+  /** Shown beside the suggestion; never used as evidence. */
   speciesWarning: string | null;
 }
 
-/** Points per piece of evidence. Exact IDs outweigh everything; timing and instrument come next. */
-export const POINTS = {
-  sampleIdMatch: 100,
-  sampleIdDiffers: -60,
-  idNamesOther: -60,
-  recordIdMatch: 80,
-  analyteMatch: 20,
-  instrumentMatch: 15,
-  instrumentDiffers: -40,
-  onTimeBest: 40,
-  onTimeWorst: 20,
-  tooEarly: -50,
-  late: 0,
-  firstInLine: 10,
-  notFirstInLine: -30,
-  speciesValidated: 5,
-  speciesNotValidated: -25,
-  anotherReadingFits: -45,
+export interface Suggestion {
+  readingId: string;
+  /** Best first; only candidates with a probability worth showing. */
+  candidates: Candidate[];
+  /** The probability that the reading belongs to none of the open orders. */
+  noneProbability: number;
+  /** Only a confident suggestion may be preselected and confirmed in one click. */
+  confident: boolean;
+}
+
+/** The model's constants. Each is a judgement, stated here so it can be checked against the benchmark. */
+export const MODEL = {
+  /** Defaults while the clinic's history is thin: the due time is right on average, clicks ±1 min. */
+  defaultOffsetSeconds: 0,
+  defaultSpreadSeconds: 60,
+  /** Confirmed matches before the clinic's own estimate carries half the weight. */
+  priorStrength: 20,
+  minSpreadSeconds: 15,
+  /** A reading taken late (reader left closed, bridge offline): a thin wide tail. */
+  lateTailWeight: 0.003,
+  lateTailSeconds: 900,
+  /** How often a run is aborted and left open (2–5 % on a real bench, common practice, no source). */
+  abortPrior: 0.04,
+  /** An aborted run frees its reader at the re-insertion step, about 40 s after the start. */
+  abortSeconds: 40,
+  /** A reading from a run nobody started in the app, spread over a few hours. */
+  noneWeight: 0.01 / (3 * 3600),
+  /** A named reader that is not the one that sent the reading: a typo at most. */
+  wrongReader: 1e-4,
+  /** The floor of an impossible sequence on one channel (the recorded start may be wrong). */
+  channelFloor: 1e-4,
+  sampleIdMatch: 1e6,
+  recordIdMatch: 1e5,
+  idNamesOther: 1e-4,
+  sampleIdDiffers: 0.05,
+  /**
+   * Confident: at least this probability, and ahead of the next (or of "none") by at least `confidentMargin`.
+   * 0.999 rather than 0.97: on the clinic-day benchmark 0.97–0.998 still let through a confident wrong
+   * suggestion now and then (tests/bench/matching.bench.ts prints the table).
+   */
+  confidentAt: 0.999,
+  confidentMargin: 0.99,
+  /** Candidates below this are not shown. */
+  showAbove: 0.001,
 } as const;
 
 const sameId = (a: string | null | undefined, b: string | null | undefined) =>
   !!a && !!b && a.trim().toLowerCase() === b.trim().toLowerCase();
 
 type Clock = (d: Date) => string;
-// One formatter per time zone: building an Intl formatter per reason dominated the ranking's cost.
 const clocks = new Map<string, Clock>();
 const clockIn = (timeZone = 'UTC'): Clock => {
   let clock = clocks.get(timeZone);
@@ -140,237 +194,441 @@ export function speciesWarning(analyte: MatchAnalyte | undefined, patient: Pick<
   return `${analyte.code} is validated for ${validated}; ${patient.name} is ${aSpecies[patient.species] ?? patient.species}. Interpret with care.`;
 }
 
-function timingReason(reading: MatchReading, order: MatchOrder, clock: Clock): Reason {
-  const diff = (reading.arrivedAt.getTime() - order.dueAt.getTime()) / 1000;
-  const tolerance = `tolerance ${formatDuration(order.earlySeconds)} early to ${formatDuration(order.lateSeconds)} late`;
-  if (diff < -order.earlySeconds) {
-    return {
-      code: 'too-early',
-      points: POINTS.tooEarly,
-      text: `Arrived ${formatDuration(-diff)} before this run was due (${clock(order.dueAt)}): too early to be its reading.`,
-    };
-  }
-  if (diff > order.lateSeconds) {
-    return {
-      code: 'late',
-      points: POINTS.late,
-      text: `Arrived ${formatDuration(diff)} after this run was due (${tolerance}); possible only if the reading was taken late.`,
-    };
-  }
-  const side = diff < 0 ? order.earlySeconds : order.lateSeconds;
-  const closeness = side === 0 ? 1 : 1 - Math.abs(diff) / side;
-  const points = Math.round(POINTS.onTimeWorst + (POINTS.onTimeBest - POINTS.onTimeWorst) * closeness);
-  const when = Math.abs(diff) < 1 ? 'right at the due time' : `${formatDuration(diff)} ${diff < 0 ? 'before' : 'after'} the due time`;
-  return { code: 'on-time', points, text: `Arrived ${when} (${clock(order.dueAt)}; ${tolerance}).` };
+// ---- distributions -------------------------------------------------------------------------------
+
+/** Standard normal CDF (Abramowitz & Stegun 7.1.26 for erf, |error| < 1.5e-7). */
+export function normalCdf(z: number): number {
+  const x = Math.abs(z) / Math.SQRT2;
+  const t = 1 / (1 + 0.3275911 * x);
+  const y = 1 - ((((1.061405429 * t - 1.453152027) * t + 1.421413741) * t - 0.284496736) * t + 0.254829592) * t * Math.exp(-x * x);
+  return z >= 0 ? 0.5 * (1 + y) : 0.5 * (1 - y);
 }
 
-/** Orders this reading could be the result of: open, same test, a known patient, started before it arrived. */
-function openOrdersFor(reading: MatchReading, orders: MatchOrder[], patients: Map<string, MatchPatient>): MatchOrder[] {
-  return orders.filter(
-    (o) => o.status === 'open' && o.analyte === reading.analyte && patients.has(o.patientId) && o.startedAt.getTime() <= reading.arrivedAt.getTime(),
-  );
+const normalPdf = (x: number, sd: number) => Math.exp(-0.5 * (x / sd) ** 2) / (sd * Math.sqrt(2 * Math.PI));
+
+/**
+ * Density of a reading arriving `offset` seconds after the due time: the click spread, plus a thin tail
+ * on the late side only (a reading taken late); a run cannot finish much before its stages allow.
+ */
+export function timingDensity(offset: number, timing: TimingModel): number {
+  const x = offset - timing.offsetSeconds;
+  const tail = x > 0 ? 2 * normalPdf(x, MODEL.lateTailSeconds) : 0;
+  return (1 - MODEL.lateTailWeight) * normalPdf(x, timing.spreadSeconds) + MODEL.lateTailWeight * tail;
+}
+
+/** The chance that a run's reading has not arrived `offset` seconds after its due time. */
+export function stillToCome(offset: number, timing: TimingModel): number {
+  const x = offset - timing.offsetSeconds;
+  const tail = x > 0 ? 2 * (1 - normalCdf(x / MODEL.lateTailSeconds)) : 1;
+  return (1 - MODEL.lateTailWeight) * (1 - normalCdf(x / timing.spreadSeconds)) + MODEL.lateTailWeight * tail;
 }
 
 /**
- * Ranks candidate orders (and patients named by an ID on the reading) for one reading, best first:
- * candidates named by an exact ID first, then by score; equal scores are reported as ties.
- * Orders for another analyte, closed orders and runs started after the reading arrived are left out.
+ * The probability that an open run with no reading yet was aborted, `overdueSeconds` after its due
+ * time: grows from the prior towards 1 as the run gets overdue.
  */
-export function rankCandidates(input: MatchInput): Candidate[] {
-  const { reading } = input;
-  const clock = clockIn(input.timeZone);
-  const patients = new Map(input.patients.map((p) => [p.id, p]));
-  const instruments = new Map(input.instruments.map((i) => [i.id, i]));
-  const analyte = input.analytes.find((a) => a.code === reading.analyte);
-  const eligible = openOrdersFor(reading, input.orders, patients);
-
-  const candidates: Omit<Candidate, 'tiedWith' | 'strength'>[] = [];
-  const speciesReason = (patient: MatchPatient): Reason | null => {
-    const warning = speciesWarning(analyte, patient);
-    if (warning) return { code: 'species-not-validated', points: POINTS.speciesNotValidated, text: warning };
-    if (analyte && analyte.validatedSpecies.length > 0) {
-      return { code: 'species-validated', points: POINTS.speciesValidated, text: `${analyte.code} is validated for ${speciesName[patient.species] ?? patient.species}.` };
-    }
-    return null;
-  };
-  const recordIdReason = (patient: MatchPatient): Reason | null => {
-    const printed = [reading.patientRef, reading.sampleId].find((id) => sameId(id, patient.recordNumber));
-    return printed
-      ? { code: 'record-id-match', points: POINTS.recordIdMatch, text: `The reading names record ${printed.trim()}, this patient's record number.` }
-      : null;
-  };
-
-  // IDs printed on the reading that name a test or a patient: evidence against every other candidate.
-  const namedOrders = eligible.filter((o) => sameId(reading.sampleId, o.sampleId));
-  const namedPatients = input.patients.filter((p) => sameId(reading.patientRef, p.recordNumber) || sameId(reading.sampleId, p.recordNumber));
-  const namedElsewhere = (order: MatchOrder, patient: MatchPatient): Reason | null => {
-    if (namedOrders.some((o) => o.id === order.id) || namedPatients.some((p) => p.id === patient.id)) return null;
-    const other = namedOrders[0] ? patients.get(namedOrders[0].patientId) : namedPatients[0];
-    if (!other) return null;
-    return { code: 'id-names-other', points: POINTS.idNamesOther, text: `The ID printed on the reading names ${other.name} (${other.recordNumber}), not this patient.` };
-  };
-
-  for (const order of eligible) {
-    const patient = patients.get(order.patientId)!;
-    const reasons: Reason[] = [];
-    const elsewhere = namedElsewhere(order, patient);
-    if (elsewhere) reasons.push(elsewhere);
-    if (sameId(reading.sampleId, order.sampleId)) {
-      reasons.push({ code: 'sample-id-match', points: POINTS.sampleIdMatch, text: `Sample ID ${reading.sampleId!.trim()} on the reading matches this order's tube label.` });
-    } else if (reading.sampleId && order.sampleId && !sameId(reading.sampleId, patient.recordNumber)) {
-      reasons.push({
-        code: 'sample-id-differs',
-        points: POINTS.sampleIdDiffers,
-        text: `The reading's sample ID ${reading.sampleId.trim()} differs from this order's tube label ${order.sampleId.trim()}.`,
-      });
-    }
-    const record = recordIdReason(patient);
-    if (record) reasons.push(record);
-    reasons.push({ code: 'analyte-match', points: POINTS.analyteMatch, text: `Ordered test ${order.analyte} is the test on the reading.` });
-
-    const instrument = order.instrumentId ? instruments.get(order.instrumentId) : undefined;
-    if (!order.instrumentId) {
-      reasons.push({ code: 'instrument-unknown', points: 0, text: 'No instrument was chosen when the test was started.' });
-    } else if (order.instrumentId === reading.instrumentId) {
-      reasons.push({ code: 'instrument-match', points: POINTS.instrumentMatch, text: `Started on ${instrument?.name ?? 'this instrument'}, the one that sent the reading.` });
-    } else {
-      reasons.push({
-        code: 'instrument-differs',
-        points: POINTS.instrumentDiffers,
-        text: `Started on ${instrument?.name ?? 'another instrument'}, not the one that sent the reading.`,
-      });
-    }
-
-    reasons.push(timingReason(reading, order, clock));
-
-    // One run at a time on a single-channel instrument: runs finish in the order they started.
-    if (instrument && instrument.channels === 1 && order.instrumentId === reading.instrumentId) {
-      const earlier = eligible
-        .filter((o) => o.id !== order.id && o.instrumentId === order.instrumentId && o.startedAt.getTime() < order.startedAt.getTime())
-        .sort((a, b) => a.startedAt.getTime() - b.startedAt.getTime())[0];
-      if (earlier) {
-        const other = patients.get(earlier.patientId)!;
-        reasons.push({
-          code: 'not-first-in-line',
-          points: POINTS.notFirstInLine,
-          text: `${other.name}'s run on ${instrument.name} started earlier (${clock(earlier.startedAt)}) and, one run at a time, finishes first.`,
-        });
-      } else {
-        reasons.push({ code: 'first-in-line', points: POINTS.firstInLine, text: `The earliest open run on ${instrument.name} (one run at a time: first started, first finished).` });
-      }
-    }
-
-    const species = speciesReason(patient);
-    if (species) reasons.push(species);
-    candidates.push({
-      patientId: patient.id,
-      patientName: patient.name,
-      recordNumber: patient.recordNumber,
-      orderId: order.id,
-      score: reasons.reduce((s, r) => s + r.points, 0),
-      reasons,
-      speciesWarning: speciesWarning(analyte, patient),
-    });
-  }
-
-  // A record number printed on the reading names a patient even without an open order.
-  for (const patient of input.patients) {
-    const record = recordIdReason(patient);
-    if (!record || candidates.some((c) => c.patientId === patient.id)) continue;
-    const reasons: Reason[] = [record, { code: 'no-order', points: 0, text: `No open ${reading.analyte} test for this patient.` }];
-    const species = speciesReason(patient);
-    if (species) reasons.push(species);
-    candidates.push({
-      patientId: patient.id,
-      patientName: patient.name,
-      recordNumber: patient.recordNumber,
-      orderId: null,
-      score: reasons.reduce((s, r) => s + r.points, 0),
-      reasons,
-      speciesWarning: speciesWarning(analyte, patient),
-    });
-  }
-
-  return finish(candidates, new Map(eligible.map((o) => [o.id, o.startedAt.getTime()])));
+export function abortProbability(overdueSeconds: number, timing: TimingModel = defaultTiming()): number {
+  const pending = (1 - MODEL.abortPrior) * stillToCome(overdueSeconds, timing);
+  return MODEL.abortPrior / (MODEL.abortPrior + pending);
 }
 
-// An ID printed on the reading is direct evidence; timing and instrument are circumstantial. So
-// candidates named by an ID come first, and their contrary reasons are shown beside them.
-const isExact = (c: Pick<Candidate, 'reasons'>) => c.reasons.some((r) => r.code === 'sample-id-match' || r.code === 'record-id-match');
+export const defaultTiming = (): TimingModel => ({ offsetSeconds: MODEL.defaultOffsetSeconds, spreadSeconds: MODEL.defaultSpreadSeconds, basedOn: 0 });
 
-/** Sorts, marks ties and grades candidates; used again after readings competing for one run are weighed. */
-function finish(candidates: Omit<Candidate, 'tiedWith' | 'strength'>[], startedAt: Map<string, number>): Candidate[] {
-  const sorted = [...candidates].sort(
-    (a, b) =>
-      Number(isExact(b)) - Number(isExact(a)) ||
-      b.score - a.score ||
-      (startedAt.get(a.orderId ?? '') ?? Infinity) - (startedAt.get(b.orderId ?? '') ?? Infinity) ||
-      a.recordNumber.localeCompare(b.recordNumber),
-  );
-  return sorted.map((c) => ({
-    ...c,
-    tiedWith: sorted.filter((o) => o !== c && o.score === c.score && isExact(o) === isExact(c)).length,
-    strength: isExact(c) ? 'exact' : c.score >= 60 ? 'strong' : c.score >= 20 ? 'possible' : 'weak',
-  }));
-}
+const median = (xs: number[]) => {
+  const s = [...xs].sort((a, b) => a - b);
+  const m = s.length >> 1;
+  return s.length % 2 ? s[m] : (s[m - 1] + s[m]) / 2;
+};
 
 /**
- * Ranks several waiting readings together. One run gives one reading, so when more than one waiting
- * reading fits the same run, only the one the evidence favours most keeps it at full weight (an exact ID,
- * else the arrival nearest the due time, else the earlier arrival); the others say so and drop.
+ * The clinic's timing, learned robustly from confirmed matches (arrival minus due, in seconds): the
+ * median as the centre and 1.4826 × the median absolute deviation as the spread (a consistent estimate
+ * of a normal SD that ignores the odd reading taken late; Rousseeuw & Croux, JASA 1993). While the
+ * history is thin the estimate is blended with the defaults, weighted by count.
  */
-export function rankWaitingReadings(
-  readings: MatchReading[],
-  context: Omit<MatchInput, 'reading'>,
-): Map<string, Candidate[]> {
-  const ranked = new Map(readings.map((reading) => [reading.id, rankCandidates({ ...context, reading })]));
-  const byId = new Map(readings.map((r) => [r.id, r]));
-  const orders = new Map(context.orders.map((o) => [o.id, o]));
+export function learnTiming(offsets: number[]): TimingModel {
+  const usable = offsets.filter((x) => Number.isFinite(x) && Math.abs(x) < 3600);
+  if (usable.length === 0) return defaultTiming();
+  const centre = median(usable);
+  const spread = 1.4826 * median(usable.map((x) => Math.abs(x - centre)));
+  const n = usable.length;
+  const k = MODEL.priorStrength;
+  return {
+    offsetSeconds: (n * centre + k * MODEL.defaultOffsetSeconds) / (n + k),
+    spreadSeconds: Math.max(MODEL.minSpreadSeconds, (n * spread + k * MODEL.defaultSpreadSeconds) / (n + k)),
+    basedOn: n,
+  };
+}
+
+// ---- the weights ---------------------------------------------------------------------------------
+
+interface Edge {
+  order: MatchOrder;
+  weight: number;
+  reasons: Reason[];
+}
+
+const dueOf = (o: MatchOrder) => o.startedAt.getTime() + o.runSeconds * 1000;
+
+/** Suggestions for every waiting reading, weighed together. */
+export function suggestMatches(readings: MatchReading[], context: MatchContext): Map<string, Suggestion> {
   const clock = clockIn(context.timeZone);
-  const claims = new Map<string, { readingId: string; candidate: Candidate }[]>();
-  for (const [readingId, candidates] of ranked) {
-    for (const candidate of candidates) {
-      if (!candidate.orderId || candidate.reasons.some((r) => r.code === 'too-early')) continue;
-      const list = claims.get(candidate.orderId) ?? [];
-      list.push({ readingId, candidate });
-      claims.set(candidate.orderId, list);
-    }
+  const timing = context.timing ?? defaultTiming();
+  const sd = timing.spreadSeconds;
+  const patients = new Map(context.patients.map((p) => [p.id, p]));
+  const instruments = new Map(context.instruments.map((i) => [i.id, i]));
+  const now = context.now?.getTime() ?? Math.max(0, ...readings.map((r) => r.arrivedAt.getTime()));
+  const open = context.orders.filter((o) => (o.status ?? 'open') === 'open' && patients.has(o.patientId));
+
+  // Every known arrival per instrument, placed or waiting: a single-channel reader was busy until each.
+  const arrivals = new Map<string, number[]>();
+  const addArrival = (instrumentId: string | null, at: number) => {
+    if (!instrumentId) return;
+    const list = arrivals.get(instrumentId) ?? [];
+    list.push(at);
+    arrivals.set(instrumentId, list);
+  };
+  for (const p of context.placed ?? []) addArrival(p.instrumentId, p.arrivedAt.getTime());
+  for (const r of readings) addArrival(r.instrumentId, r.arrivedAt.getTime());
+  for (const list of arrivals.values()) list.sort((a, b) => a - b);
+  const singleChannel = (id: string | null) => !!id && (instruments.get(id)?.channels ?? 1) === 1;
+  const lastArrivalBefore = (instrumentId: string, t: number) => {
+    const list = arrivals.get(instrumentId) ?? [];
+    let last: number | null = null;
+    for (const a of list) if (a < t) last = a;
+    return last;
+  };
+  const readersFor = (analyte: string) => context.instruments.filter((i) => !i.analytes || i.analytes.length === 0 || i.analytes.includes(analyte));
+  // Known busy spells per single-channel reader: placed runs (start to arrival).
+  const spells = new Map<string, { from: number; to: number }[]>();
+  for (const p of context.placed ?? []) {
+    if (!p.startedAt) continue;
+    const list = spells.get(p.instrumentId) ?? [];
+    list.push({ from: p.startedAt.getTime(), to: p.arrivedAt.getTime() });
+    spells.set(p.instrumentId, list);
   }
-  const penalised = new Map<string, Map<string, Reason>>();
-  for (const [orderId, list] of claims) {
-    if (list.length < 2) continue;
-    const order = orders.get(orderId)!;
-    const offBy = (id: string) => Math.abs(byId.get(id)!.arrivedAt.getTime() - order.dueAt.getTime());
-    const best = [...list].sort(
-      (a, b) =>
-        Number(isExact(b.candidate)) - Number(isExact(a.candidate)) ||
-        offBy(a.readingId) - offBy(b.readingId) ||
-        byId.get(a.readingId)!.arrivedAt.getTime() - byId.get(b.readingId)!.arrivedAt.getTime(),
-    )[0];
-    const winner = byId.get(best.readingId)!;
-    for (const { readingId, candidate } of list) {
-      if (readingId === best.readingId || isExact(candidate)) continue;
-      const reason: Reason = {
-        code: 'another-reading-fits',
-        points: POINTS.anotherReadingFits,
-        text: isExact(best.candidate)
-          ? `Another waiting reading (${clock(winner.arrivedAt)}) carries this run's ID; one run gives one reading.`
-          : `Another waiting reading arrived nearer this run's due time (${clock(winner.arrivedAt)}); one run gives one reading.`,
-      };
-      const forReading = penalised.get(readingId) ?? new Map<string, Reason>();
-      forReading.set(orderId, reason);
-      penalised.set(readingId, forReading);
+
+  /** The chance this order shows no reading by now: aborted, or still running (and, on a single channel, started after the reader's last reading). */
+  const unseen = (o: MatchOrder) => {
+    let pending = stillToCome((now - dueOf(o)) / 1000, timing);
+    if (o.instrumentId && singleChannel(o.instrumentId)) {
+      const last = lastArrivalBefore(o.instrumentId, now + 1);
+      if (last !== null) pending *= normalCdf((o.startedAt.getTime() - last) / 1000 / sd);
     }
+    return MODEL.abortPrior + (1 - MODEL.abortPrior) * pending;
+  };
+  const unseenBy = new Map(open.filter((o) => o.instrumentId).map((o) => [o.id, unseen(o)]));
+
+  /**
+   * How likely reader `x` was free when unnamed order `o` was started: not inside a placed run on it,
+   * nor inside a named open run on it that was not aborted. Soft at the edges by the click spread.
+   */
+  const freeAt = (x: MatchInstrument, o: MatchOrder, at: number) => {
+    if (x.channels !== 1) return 1;
+    const margin = 4 * sd * 1000;
+    let free = 1;
+    for (const spell of spells.get(x.id) ?? []) {
+      if (spell.to <= at || spell.from > at + margin) continue;
+      free *= 1 - normalCdf((at - spell.from) / 1000 / sd);
+    }
+    for (const b of open) {
+      if (b.id === o.id || b.instrumentId !== x.id) continue;
+      const from = b.startedAt.getTime();
+      const to = dueOf(b);
+      if (to < at - margin || from > at + margin) continue;
+      const running = Math.max(0, 1 - MODEL.abortPrior / (unseenBy.get(b.id) ?? 1));
+      free *= 1 - running * normalCdf((at - from) / 1000 / sd) * normalCdf((to - at) / 1000 / sd);
+    }
+    return Math.max(MODEL.channelFloor, free);
+  };
+  /** The share of the unnamed order's chance of having run on reader `id`, among the readers for its test. */
+  const onReaderShare = (o: MatchOrder, id: string | null, at: number) => {
+    const readers = readersFor(o.analyte);
+    if (readers.length === 0) return 1;
+    const total = readers.reduce((sum, x) => sum + freeAt(x, o, at), 0);
+    const here = readers.find((x) => x.id === id);
+    return here ? freeAt(here, o, at) / total : MODEL.wrongReader;
+  };
+  // An unnamed run still running needs a reader that was free when it started and has sent nothing since.
+  for (const o of open) {
+    if (o.instrumentId) continue;
+    let pending = stillToCome((now - dueOf(o)) / 1000, timing);
+    const readers = readersFor(o.analyte);
+    if (readers.length > 0 && readers.every((x) => x.channels === 1)) {
+      let noneFree = 1;
+      for (const x of readers) {
+        const last = lastArrivalBefore(x.id, now + 1);
+        const quiet = last === null ? 1 : normalCdf((o.startedAt.getTime() - last) / 1000 / sd);
+        noneFree *= 1 - quiet * freeAt(x, o, o.startedAt.getTime());
+      }
+      pending *= 1 - noneFree;
+    }
+    unseenBy.set(o.id, MODEL.abortPrior + (1 - MODEL.abortPrior) * pending);
   }
-  const startedAt = new Map(context.orders.map((o) => [o.id, o.startedAt.getTime()]));
-  for (const [readingId, byOrder] of penalised) {
-    const adjusted = ranked.get(readingId)!.map((c) => {
-      const reason = c.orderId ? byOrder.get(c.orderId) : undefined;
-      return reason ? { ...c, reasons: [...c.reasons, reason], score: c.score + reason.points } : c;
+
+  /**
+   * The other open runs named on a single-channel reader that sent a reading at T from a run begun at
+   * `began`: each either ended (aborted) before that run began, or began after the reading; anything else
+   * means two runs at once on one channel. Returns each run with that chance.
+   */
+  const channelConflicts = (readerId: string, began: number, T: number, except: string | null) => {
+    const out: { b: MatchOrder; f: number }[] = [];
+    for (const b of open) {
+      if (b.id === except || b.instrumentId !== readerId) continue;
+      const s = b.startedAt.getTime();
+      if (s >= T) continue;
+      const before = normalCdf((began - s - MODEL.abortSeconds * 1000) / 1000 / sd);
+      const after = normalCdf((s - T) / 1000 / sd);
+      out.push({ b, f: Math.max(MODEL.channelFloor, before + after - before * after) });
+    }
+    return out;
+  };
+  /** "None of these": a run nobody entered, which still occupied the reader that sent the reading. */
+  const noneWeightFor = (r: MatchReading) => {
+    let weight: number = MODEL.noneWeight;
+    if (!r.instrumentId || !singleChannel(r.instrumentId)) return weight;
+    const runs = open.filter((o) => o.analyte === r.analyte).map((o) => o.runSeconds);
+    if (runs.length === 0) return weight;
+    const T = r.arrivedAt.getTime();
+    const began = T - median(runs) * 1000 - timing.offsetSeconds * 1000;
+    for (const { f } of channelConflicts(r.instrumentId, began, T, null)) weight *= f;
+    return weight;
+  };
+
+  const edgesFor = (r: MatchReading): Edge[] => {
+    const eligible = open.filter((o) => o.analyte === r.analyte && o.startedAt.getTime() <= r.arrivedAt.getTime());
+    const namedOrders = eligible.filter((o) => sameId(r.sampleId, o.sampleId));
+    const namedPatients = context.patients.filter((p) => sameId(r.patientRef, p.recordNumber) || sameId(r.sampleId, p.recordNumber));
+    const T = r.arrivedAt.getTime();
+    return eligible.map((o) => {
+      const patient = patients.get(o.patientId)!;
+      const reasons: Reason[] = [];
+      let weight = 1;
+
+      // IDs printed on the reading.
+      if (sameId(r.sampleId, o.sampleId)) {
+        weight *= MODEL.sampleIdMatch;
+        reasons.push({ code: 'sample-id-match', effect: 'for', text: `Sample ID ${r.sampleId!.trim()} on the reading matches this order's tube label.` });
+      } else if (r.sampleId && o.sampleId && !sameId(r.sampleId, patient.recordNumber)) {
+        weight *= MODEL.sampleIdDiffers;
+        reasons.push({ code: 'sample-id-differs', effect: 'against', text: `The reading's sample ID ${r.sampleId.trim()} differs from this order's tube label ${o.sampleId.trim()}.` });
+      }
+      if (namedPatients.some((p) => p.id === patient.id)) {
+        weight *= MODEL.recordIdMatch;
+        reasons.push({ code: 'record-id-match', effect: 'for', text: `The reading names record ${patient.recordNumber}, this patient's record number.` });
+      }
+      const namedHere = namedOrders.some((n) => n.id === o.id) || namedPatients.some((p) => p.id === patient.id);
+      const other = namedOrders.find((n) => n.patientId !== patient.id) ?? null;
+      const otherPatient = other ? patients.get(other.patientId) : namedPatients.find((p) => p.id !== patient.id);
+      if (!namedHere && otherPatient) {
+        weight *= MODEL.idNamesOther;
+        reasons.push({ code: 'id-names-other', effect: 'against', text: `The ID printed on the reading names ${otherPatient.name} (${otherPatient.recordNumber}), not this patient.` });
+      }
+
+      // The reader.
+      const instrument = o.instrumentId ? instruments.get(o.instrumentId) : undefined;
+      const onReader = o.instrumentId ?? r.instrumentId;
+      if (!o.instrumentId) {
+        weight *= onReaderShare(o, r.instrumentId, T - o.runSeconds * 1000 - timing.offsetSeconds * 1000);
+        reasons.push({ code: 'instrument-unknown', effect: 'neutral', text: 'No reader was named when the test was started: it could have run on any reader for this test.' });
+      } else if (o.instrumentId === r.instrumentId) {
+        reasons.push({ code: 'instrument-match', effect: 'for', text: `Started on ${instrument?.name ?? 'this reader'}, the one that sent the reading.` });
+      } else {
+        weight *= MODEL.wrongReader;
+        reasons.push({ code: 'instrument-differs', effect: 'against', text: `Started on ${instrument?.name ?? 'another reader'}, not the one that sent the reading.` });
+      }
+
+      // Timing against the full protocol.
+      const offset = (T - dueOf(o)) / 1000;
+      weight *= timingDensity(offset, timing);
+      const z = Math.abs(offset - timing.offsetSeconds) / sd;
+      const when = Math.abs(offset) < 1 ? 'right at the due time' : `${formatDuration(offset)} ${offset < 0 ? 'before' : 'after'} the due time`;
+      reasons.push({
+        code: 'timing',
+        effect: z <= 2 ? 'for' : z <= 4 ? 'neutral' : 'against',
+        text: `Arrived ${when} (${clock(new Date(dueOf(o)))}); readings here usually arrive within ${formatDuration(2 * sd)} of it.`,
+      });
+
+      // One run per channel.
+      if (onReader && singleChannel(onReader)) {
+        const readerName = instruments.get(onReader)?.name ?? 'this reader';
+        // The run behind this reading began about its duration before the arrival, whatever was clicked.
+        const began = T - o.runSeconds * 1000 - timing.offsetSeconds * 1000;
+        for (const { b, f } of channelConflicts(onReader, began, T, o.id)) {
+          weight *= f;
+          const bp = patients.get(b.patientId);
+          if (f < 0.5) {
+            reasons.push({
+              code: 'reader-busy',
+              effect: 'against',
+              text: `${bp?.name ?? 'Another patient'}'s run was started on ${readerName} at ${clock(b.startedAt)}, while this one would still have been running.`,
+            });
+          } else if ((unseenBy.get(b.id) ?? 1) < 0.5 && b.startedAt.getTime() < began) {
+            reasons.push({
+              code: 'earlier-run-probably-aborted',
+              effect: 'neutral',
+              text: `${bp?.name ?? 'Another patient'}'s earlier run on ${readerName} (${clock(b.startedAt)}) has no reading and is probably aborted.`,
+            });
+          }
+        }
+      }
+
+      weight /= unseenBy.get(o.id) ?? 1;
+      return { order: o, weight, reasons };
     });
-    ranked.set(readingId, finish(adjusted, startedAt));
+  };
+
+  // Readings by test; within a test, readings that share a candidate are weighed jointly.
+  const edges = new Map(readings.map((r) => [r.id, edgesFor(r)]));
+  const noneWeights = new Map(readings.map((r) => [r.id, noneWeightFor(r)]));
+  const marginals = jointMarginals(readings, edges, noneWeights);
+  const analytes = new Map(context.analytes.map((a) => [a.code, a]));
+  const result = new Map<string, Suggestion>();
+  for (const r of readings) {
+    const m = marginals.get(r.id)!;
+    const analyte = analytes.get(r.analyte);
+    const candidates: Candidate[] = [];
+    for (const e of edges.get(r.id)!) {
+      const probability = m.byOrder.get(e.order.id) ?? 0;
+      if (probability < MODEL.showAbove && !e.reasons.some((x) => x.code === 'sample-id-match' || x.code === 'record-id-match')) continue;
+      const patient = patients.get(e.order.patientId)!;
+      const reasons = [...e.reasons];
+      const lost = m.lostTo.get(e.order.id);
+      if (lost && lost > 0.5) reasons.push({ code: 'another-reading-fits', effect: 'against', text: 'Another waiting reading fits this run better; one run gives one reading.' });
+      candidates.push({ patientId: patient.id, patientName: patient.name, recordNumber: patient.recordNumber, orderId: e.order.id, probability, reasons, speciesWarning: speciesWarning(analyte, patient) });
+    }
+    // A record number printed on the reading names a patient even without an open order: offered, never confident.
+    for (const patient of context.patients) {
+      if (!(sameId(r.patientRef, patient.recordNumber) || sameId(r.sampleId, patient.recordNumber))) continue;
+      if (candidates.some((c) => c.patientId === patient.id)) continue;
+      candidates.push({
+        patientId: patient.id,
+        patientName: patient.name,
+        recordNumber: patient.recordNumber,
+        orderId: null,
+        probability: m.none,
+        reasons: [
+          { code: 'record-id-match', effect: 'for', text: `The reading names record ${patient.recordNumber}, this patient's record number.` },
+          { code: 'no-order', effect: 'neutral', text: `No open ${r.analyte} test for this patient.` },
+        ],
+        speciesWarning: speciesWarning(analyte, patient),
+      });
+    }
+    candidates.sort((a, b) => b.probability - a.probability || a.recordNumber.localeCompare(b.recordNumber));
+    const [first, second] = candidates;
+    const runnerUp = Math.max(second?.orderId ? second.probability : 0, m.none);
+    const confident = !!first?.orderId && first.probability >= MODEL.confidentAt && first.probability - runnerUp >= MODEL.confidentMargin;
+    result.set(r.id, { readingId: r.id, candidates, noneProbability: m.none, confident });
   }
-  return ranked;
+  return result;
+}
+
+/** Suggestions for one reading, with no other reading waiting. */
+export function suggestMatch(reading: MatchReading, context: MatchContext): Suggestion {
+  return suggestMatches([reading], context).get(reading.id)!;
+}
+
+interface Marginal {
+  byOrder: Map<string, number>;
+  none: number;
+  /** For each order: the probability that another waiting reading has it. */
+  lostTo: Map<string, number>;
+}
+
+/** Most candidates kept per reading in the exact sum; weaker ones are folded into "none". */
+const KEEP_PER_READING = 6;
+/** Largest group of readings summed exactly; beyond it each reading is weighed on its own. */
+const MAX_JOINT = 8;
+
+/**
+ * Marginal probabilities over injective assignments (each order to at most one reading), summed exactly
+ * within each group of readings that share a candidate order.
+ */
+function jointMarginals(readings: MatchReading[], edges: Map<string, Edge[]>, noneWeights: Map<string, number>): Map<string, Marginal> {
+  const kept = new Map<string, Edge[]>();
+  for (const r of readings) {
+    const list = [...edges.get(r.id)!].sort((a, b) => b.weight - a.weight);
+    kept.set(r.id, list.filter((e, i) => i < KEEP_PER_READING && e.weight > noneWeights.get(r.id)! * 1e-6));
+  }
+  // Groups: readings linked by a shared candidate order.
+  const parent = new Map(readings.map((r) => [r.id, r.id]));
+  const find = (x: string): string => (parent.get(x) === x ? x : find(parent.get(x)!));
+  const owner = new Map<string, string>();
+  for (const r of readings) {
+    for (const e of kept.get(r.id)!) {
+      const other = owner.get(e.order.id);
+      if (other) parent.set(find(r.id), find(other));
+      else owner.set(e.order.id, r.id);
+    }
+  }
+  const groups = new Map<string, MatchReading[]>();
+  for (const r of readings) {
+    const g = find(r.id);
+    groups.set(g, [...(groups.get(g) ?? []), r]);
+  }
+
+  const out = new Map<string, Marginal>();
+  for (const group of groups.values()) {
+    if (group.length > MAX_JOINT) {
+      for (const r of group) out.set(r.id, sumAssignments([r], kept, noneWeights).get(r.id)!);
+    } else {
+      for (const [id, m] of sumAssignments(group, kept, noneWeights)) out.set(id, m);
+    }
+  }
+  return out;
+}
+
+function sumAssignments(group: MatchReading[], kept: Map<string, Edge[]>, noneWeights: Map<string, number>): Map<string, Marginal> {
+  const byReading = group.map((r) => kept.get(r.id)!);
+  const none = group.map((r) => noneWeights.get(r.id)!);
+  const mass = group.map(() => new Map<string, number>());
+  const noneMass = group.map(() => 0);
+  let total = 0;
+  const taken = new Set<string>();
+  const choice: (Edge | null)[] = [];
+  // Scale weights so products of a handful stay in range.
+  const scale = 1 / MODEL.noneWeight;
+  const walk = (i: number, w: number) => {
+    if (i === group.length) {
+      total += w;
+      choice.forEach((c, j) => {
+        if (c) mass[j].set(c.order.id, (mass[j].get(c.order.id) ?? 0) + w);
+        else noneMass[j] += w;
+      });
+      return;
+    }
+    choice[i] = null;
+    walk(i + 1, w * none[i] * scale);
+    for (const e of byReading[i]) {
+      if (taken.has(e.order.id)) continue;
+      taken.add(e.order.id);
+      choice[i] = e;
+      walk(i + 1, w * e.weight * scale);
+      taken.delete(e.order.id);
+    }
+    choice[i] = null;
+  };
+  walk(0, 1);
+  const out = new Map<string, Marginal>();
+  group.forEach((r, j) => {
+    const byOrder = new Map([...mass[j]].map(([id, w]) => [id, w / total]));
+    const lostTo = new Map<string, number>();
+    for (const e of byReading[j]) {
+      let elsewhere = 0;
+      group.forEach((_, k) => {
+        if (k !== j) elsewhere += (mass[k].get(e.order.id) ?? 0) / total;
+      });
+      lostTo.set(e.order.id, elsewhere);
+    }
+    out.set(r.id, { byOrder, none: noneMass[j] / total, lostTo });
+  });
+  return out;
+}
+
+// ---- the one automatic rule ----------------------------------------------------------------------
+
+export interface AutoAssignInput extends MatchContext {
+  reading: MatchReading;
 }
 
 export interface AutoAssignTarget {
@@ -382,15 +640,22 @@ export interface AutoAssignTarget {
 /**
  * The one rule that may put a reading on a patient without a person: an exact sample ID (or record
  * number) on the reading that names exactly one open order for the same test, on the same instrument
- * if the order names one, for a species the test is validated for. Anything less returns null.
- * The clinic must have switched the rule on; the caller checks that.
+ * if the order names one, for a species the test is validated for. Anything less returns null: a
+ * probability, however high, never assigns on its own. The clinic must have switched the rule on.
  */
-export function autoAssignTarget(input: MatchInput): AutoAssignTarget | null {
+export function autoAssignTarget(input: AutoAssignInput): AutoAssignTarget | null {
   const { reading } = input;
   if (!reading.sampleId && !reading.patientRef) return null;
   const patients = new Map(input.patients.map((p) => [p.id, p]));
   const analyte = input.analytes.find((a) => a.code === reading.analyte);
-  const open = openOrdersFor(reading, input.orders, patients).filter((o) => !o.instrumentId || o.instrumentId === reading.instrumentId);
+  const open = input.orders.filter(
+    (o) =>
+      (o.status ?? 'open') === 'open' &&
+      o.analyte === reading.analyte &&
+      patients.has(o.patientId) &&
+      o.startedAt.getTime() <= reading.arrivedAt.getTime() &&
+      (!o.instrumentId || o.instrumentId === reading.instrumentId),
+  );
   const bySample = open.filter((o) => sameId(reading.sampleId, o.sampleId));
   const byRecord = open.filter((o) => {
     const p = patients.get(o.patientId)!;
@@ -400,7 +665,6 @@ export function autoAssignTarget(input: MatchInput): AutoAssignTarget | null {
   if (matches.length !== 1) return null;
   const order = matches[0];
   const patient = patients.get(order.patientId)!;
-  // Two different orders named by the two IDs, or a species the test is not validated for: a person decides.
   if (bySample.length > 0 && byRecord.length > 0 && byRecord.some((o) => o.id !== order.id)) return null;
   if (speciesWarning(analyte, patient)) return null;
   const how = bySample.length > 0 ? `sample ID ${reading.sampleId!.trim()}` : `record number ${patient.recordNumber}`;

@@ -53,7 +53,11 @@ export async function assignReading(
  * Moves a result to another patient (a wrong match corrected): the current assignment ends with the
  * reason, a new one starts, in one transaction. The history keeps both.
  */
-export async function reassignReading(actor: Actor, readingId: string, input: { patientId: string; orderId?: string; reason: string }) {
+export async function reassignReading(
+  actor: Actor,
+  readingId: string,
+  input: { patientId: string; orderId?: string; reason: string; runWillGiveReading?: boolean },
+) {
   mustAssign(actor);
   const database = await db();
   return database.transaction(async (tx) => {
@@ -66,7 +70,7 @@ export async function reassignReading(actor: Actor, readingId: string, input: { 
     }
     const fromPatientId = reading.patientId;
     const patient = await loadPatientForPlacement(tx, actor.clinicId, input.patientId);
-    const ended = await takeOffRecord(tx, actor, reading, input.reason);
+    const ended = await takeOffRecord(tx, actor, reading, input.reason, { runWillGiveReading: input.runWillGiveReading });
     await publish(tx, { type: 'reading.reassigned', clinicId: actor.clinicId, id: reading.id, patientId: fromPatientId });
     const placed = await placeReading(
       tx,

@@ -136,9 +136,17 @@ export async function placeReading(
 
 /**
  * Takes a reading off its current patient in the caller's transaction: ends the assignment with the
- * reason, reopens the order it fulfilled, withdraws its unacknowledged alerts. Returns the ended row.
+ * reason, withdraws its unacknowledged alerts, and closes the run it fulfilled: that run is over, so it
+ * stays closed (as used, no reading) unless the technician says it will still give a reading
+ * (`runWillGiveReading`), when it reopens and waits on the Bench again. Returns the ended row.
  */
-export async function takeOffRecord(tx: Tx, actor: { clinicId: string; userId: string }, reading: Reading, reason: string) {
+export async function takeOffRecord(
+  tx: Tx,
+  actor: { clinicId: string; userId: string },
+  reading: Reading,
+  reason: string,
+  options: { runWillGiveReading?: boolean } = {},
+) {
   const now = new Date();
   const [current] = await tx
     .select()
@@ -151,19 +159,32 @@ export async function takeOffRecord(tx: Tx, actor: { clinicId: string; userId: s
     .update(resultAssignments)
     .set({ endedAt: now, endedBy: actor.userId, endReason: reason })
     .where(eq(resultAssignments.id, current.id));
-  const reopened = await tx
+  const reopen = options.runWillGiveReading === true;
+  const released = await tx
     .update(labOrders)
-    .set({ status: 'open', fulfilledReadingId: null, fulfilledAt: null, testConsumed: false })
+    .set(
+      reopen
+        ? { status: 'open', fulfilledReadingId: null, fulfilledAt: null, testConsumed: false }
+        : {
+            status: 'aborted',
+            fulfilledReadingId: null,
+            fulfilledAt: null,
+            testConsumed: true,
+            closedBy: actor.userId,
+            closedAt: now,
+            closeReason: `Its reading was moved off (${reason}); the run is over and gives no other reading.`,
+          },
+    )
     .where(and(eq(labOrders.clinicId, actor.clinicId), eq(labOrders.fulfilledReadingId, reading.id)))
     .returning({ id: labOrders.id, patientId: labOrders.patientId });
-  for (const order of reopened) {
+  for (const order of released) {
     await recordAudit(tx, {
       clinicId: actor.clinicId,
       actorUserId: actor.userId,
-      action: 'order.reopened',
+      action: reopen ? 'order.reopened' : 'order.closed',
       entityType: 'order',
       entityId: order.id,
-      details: { readingId: reading.id, reason },
+      details: { readingId: reading.id, reason, ...(reopen ? { runWillGiveReading: true } : { outcome: 'aborted', testConsumed: true }) },
     });
     await publish(tx, { type: 'order.updated', clinicId: actor.clinicId, id: order.id, patientId: order.patientId });
   }

@@ -3,6 +3,8 @@ import { and, asc, desc, eq, sql } from 'drizzle-orm';
 import { db } from '@/db/client';
 import { auditEvents, instruments, patients, readings, staffUsers, unparsedCaptures } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
+import { analyteContexts, intervalContexts } from '@/lib/clinical/config';
+import { criticalBeforeAssignment } from '@/lib/clinical/evaluate';
 import { notFound } from '@/lib/http';
 
 const readingColumns = {
@@ -45,7 +47,7 @@ export async function listReadings(
   const database = await db();
   const conditions = [eq(readings.clinicId, actor.clinicId)];
   if (filter.status !== 'all') conditions.push(eq(readings.status, filter.status));
-  return database
+  const rows = await database
     .select(readingColumns)
     .from(readings)
     .leftJoin(instruments, eq(instruments.id, readings.instrumentId))
@@ -53,6 +55,16 @@ export async function listReadings(
     .where(and(...conditions))
     .orderBy(desc(readings.receivedAt), desc(readings.storedAt))
     .limit(filter.limit);
+  // A reading not yet on a patient is flagged when it is critical for a species the clinic has limits for.
+  const waiting = rows.filter((r) => r.status === 'unassigned');
+  const codes = [...new Set(waiting.map((r) => r.analyte))];
+  const [analytes, intervals] = codes.length
+    ? await Promise.all([analyteContexts(database, actor.clinicId, codes), intervalContexts(database, actor.clinicId, codes)])
+    : [new Map(), []];
+  return rows.map((r) => ({
+    ...r,
+    critical: r.status === 'unassigned' ? criticalBeforeAssignment(r, analytes.get(r.analyte), intervals) : null,
+  }));
 }
 
 /** One reading with its audit history, oldest first. */

@@ -1,53 +1,100 @@
 import 'server-only';
-import { and, eq, inArray } from 'drizzle-orm';
+import { and, desc, eq, gte, inArray, isNotNull } from 'drizzle-orm';
 import { db, type Executor, type Tx } from '@/db/client';
 import { analyteSettings, clinics, instruments, labOrders, patients, readings, runProtocols, type Bridge, type Reading } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { clinicalSettings } from '@/lib/clinical/config';
-import { autoAssignTarget, rankWaitingReadings, type Candidate, type MatchInput } from '@/lib/clinical/matching';
+import { DEFAULT_PROTOCOLS } from '@/lib/clinical/defaults';
+import { autoAssignTarget, learnTiming, suggestMatches, type MatchContext, type MatchReading, type Suggestion } from '@/lib/clinical/matching';
+import { protocolSeconds, type ProtocolStage } from '@/lib/clinical/protocols';
+import { RECENT } from '@/lib/clinical/replay';
 import { ApiError, notFound } from '@/lib/http';
 import { loadPatientForPlacement, placeReading } from './placement';
 
-const DEFAULT_EARLY = 60;
-const DEFAULT_LATE = 180;
+/**
+ * A run's full duration: the stages copied onto the order when it started, else its protocol's, else the
+ * built-in protocol for the test.
+ */
+const runSecondsOf = (analyte: string, ...candidates: (ProtocolStage[] | null | undefined)[]) => {
+  const stages = candidates.find((c) => c && c.length > 0);
+  if (stages) return protocolSeconds(stages);
+  const fallback = DEFAULT_PROTOCOLS.find((p) => p.analyte === analyte);
+  return fallback ? protocolSeconds(fallback.stages) : 0;
+};
 
-/** Loads what the ranking needs for readings of these analytes: open orders, their patients, instruments, analytes. */
-async function matchContext(tx: Executor, clinicId: string, analytes: string[], namedIds: string[]) {
-  const [orders, instrumentRows, analyteRows, clinic] = await Promise.all([
+const HOUR = 3600_000;
+
+/**
+ * Loads what the matcher needs for readings of these analytes: open orders (with their protocol's
+ * duration), their patients, instruments, analytes, the readings placed in the last 12 h (a reader was
+ * busy until each) and the clinic's timing learned from its latest confirmed matches.
+ */
+async function matchContext(tx: Executor, clinicId: string, analytes: string[], namedIds: string[]): Promise<MatchContext> {
+  const [orders, instrumentRows, analyteRows, clinic, placedRows, history] = await Promise.all([
     tx
-      .select({ order: labOrders, earlySeconds: runProtocols.earlySeconds, lateSeconds: runProtocols.lateSeconds })
+      .select({ order: labOrders, stages: runProtocols.stages })
       .from(labOrders)
       .leftJoin(runProtocols, eq(runProtocols.id, labOrders.protocolId))
       .where(and(eq(labOrders.clinicId, clinicId), eq(labOrders.status, 'open'), inArray(labOrders.analyte, analytes.length ? analytes : ['']))),
-    tx.select({ id: instruments.id, name: instruments.name, channels: instruments.channels }).from(instruments).where(eq(instruments.clinicId, clinicId)),
+    tx
+      .select({ id: instruments.id, name: instruments.name, channels: instruments.channels, analytes: instruments.analytes })
+      .from(instruments)
+      .where(eq(instruments.clinicId, clinicId)),
     tx
       .select({ code: analyteSettings.code, validatedSpecies: analyteSettings.validatedSpecies })
       .from(analyteSettings)
       .where(eq(analyteSettings.clinicId, clinicId)),
     tx.select({ timeZone: clinics.timeZone }).from(clinics).where(eq(clinics.id, clinicId)),
+    tx
+      .select({ instrumentId: readings.instrumentId, arrivedAt: readings.receivedAt, startedAt: labOrders.startedAt })
+      .from(readings)
+      .leftJoin(labOrders, eq(labOrders.fulfilledReadingId, readings.id))
+      .where(
+        and(
+          eq(readings.clinicId, clinicId),
+          eq(readings.status, 'assigned'),
+          isNotNull(readings.instrumentId),
+          gte(readings.receivedAt, new Date(Date.now() - 12 * HOUR)),
+        ),
+      ),
+    tx
+      .select({ analyte: labOrders.analyte, startedAt: labOrders.startedAt, arrivedAt: readings.receivedAt, copied: labOrders.stages, stages: runProtocols.stages })
+      .from(labOrders)
+      .innerJoin(readings, eq(readings.id, labOrders.fulfilledReadingId))
+      .leftJoin(runProtocols, eq(runProtocols.id, labOrders.protocolId))
+      .where(and(eq(labOrders.clinicId, clinicId), eq(labOrders.status, 'fulfilled'), gte(labOrders.fulfilledAt, new Date(Date.now() - 30 * 24 * HOUR))))
+      .orderBy(desc(labOrders.fulfilledAt))
+      .limit(RECENT),
   ]);
-  const patientIds = [...new Set(orders.map((o) => o.order.patientId))];
-  const lowerIds = [...new Set(namedIds.map((id) => id.trim().toLowerCase()).filter(Boolean))];
+  const patientIds = new Set(orders.map((o) => o.order.patientId));
+  const lowerIds = new Set(namedIds.map((id) => id.trim().toLowerCase()).filter(Boolean));
   const patientRows = await tx
     .select({ id: patients.id, name: patients.name, recordNumber: patients.recordNumber, species: patients.species })
     .from(patients)
     .where(and(eq(patients.clinicId, clinicId), eq(patients.active, true)));
-  // Patients with an open order, plus any whose record number is printed on a reading.
-  const wanted = patientRows.filter((p) => patientIds.includes(p.id) || lowerIds.includes(p.recordNumber.toLowerCase()));
   return {
-    orders: orders.map(({ order, earlySeconds, lateSeconds }) => ({
-      ...order,
-      earlySeconds: earlySeconds ?? DEFAULT_EARLY,
-      lateSeconds: lateSeconds ?? DEFAULT_LATE,
+    orders: orders.map(({ order, stages }) => ({
+      id: order.id,
+      patientId: order.patientId,
+      analyte: order.analyte,
+      instrumentId: order.instrumentId,
+      sampleId: order.sampleId,
+      startedAt: order.startedAt,
+      runSeconds: runSecondsOf(order.analyte, order.stages, stages),
+      status: order.status,
     })),
-    patients: wanted,
+    // Patients with an open order, plus any whose record number is printed on a reading.
+    patients: patientRows.filter((p) => patientIds.has(p.id) || lowerIds.has(p.recordNumber.toLowerCase())),
     instruments: instrumentRows,
     analytes: analyteRows,
+    placed: placedRows.flatMap((p) => (p.instrumentId ? [{ instrumentId: p.instrumentId, arrivedAt: p.arrivedAt, startedAt: p.startedAt }] : [])),
+    timing: learnTiming(history.map((h) => (h.arrivedAt.getTime() - h.startedAt.getTime()) / 1000 - runSecondsOf(h.analyte, h.copied, h.stages))),
+    now: new Date(),
     timeZone: clinic[0]?.timeZone ?? 'UTC',
   };
 }
 
-const toMatchReading = (r: Pick<Reading, 'id' | 'analyte' | 'instrumentId' | 'sampleId' | 'patientRef' | 'receivedAt'>) => ({
+const toMatchReading = (r: Pick<Reading, 'id' | 'analyte' | 'instrumentId' | 'sampleId' | 'patientRef' | 'receivedAt'>): MatchReading => ({
   id: r.id,
   analyte: r.analyte,
   instrumentId: r.instrumentId,
@@ -56,50 +103,49 @@ const toMatchReading = (r: Pick<Reading, 'id' | 'analyte' | 'instrumentId' | 'sa
   arrivedAt: r.receivedAt,
 });
 
-function inputFor(reading: Parameters<typeof toMatchReading>[0], context: Awaited<ReturnType<typeof matchContext>>): MatchInput {
-  return { reading: toMatchReading(reading), ...context };
-}
+type AnalyteInfo = { code: string; validatedSpecies: string[] } | null;
 
-/** Ranked candidates for one unassigned reading, weighed against the other waiting readings. */
-export async function suggestionsFor(
-  actor: Actor,
-  readingId: string,
-): Promise<{ readingId: string; candidates: Candidate[]; analyte: { code: string; validatedSpecies: string[] } | null }> {
+/** The suggestion for one unassigned reading, weighed together with the other waiting readings. */
+export async function suggestionsFor(actor: Actor, readingId: string): Promise<{ readingId: string; suggestion: Suggestion; analyte: AnalyteInfo }> {
   const database = await db();
   const [reading] = await database
     .select()
     .from(readings)
     .where(and(eq(readings.id, readingId), eq(readings.clinicId, actor.clinicId)));
   if (!reading) throw notFound('The reading');
+  const empty: Suggestion = { readingId, candidates: [], noneProbability: 1, confident: false };
   if (reading.status !== 'unassigned') {
-    const context = await matchContext(database, actor.clinicId, [reading.analyte], []);
-    return { readingId, candidates: [], analyte: context.analytes.find((a) => a.code === reading.analyte) ?? null };
+    const [analyte] = await database
+      .select({ code: analyteSettings.code, validatedSpecies: analyteSettings.validatedSpecies })
+      .from(analyteSettings)
+      .where(and(eq(analyteSettings.clinicId, actor.clinicId), eq(analyteSettings.code, reading.analyte)));
+    return { readingId, suggestion: empty, analyte: analyte ?? null };
   }
   const { ranked, context } = await rankWaiting(actor.clinicId, [reading.analyte]);
   const analyte = context?.analytes.find((a) => a.code === reading.analyte) ?? null;
-  return { readingId, candidates: ranked.get(readingId) ?? [], analyte };
+  return { readingId, suggestion: ranked.get(readingId) ?? empty, analyte };
 }
 
-/** Every waiting reading of these analytes (all when none given), ranked together. */
+/** Every waiting reading of these analytes (all when none given), weighed together. */
 async function rankWaiting(clinicId: string, analytes?: string[]) {
   const database = await db();
   const conditions = [eq(readings.clinicId, clinicId), eq(readings.status, 'unassigned')];
   if (analytes) conditions.push(inArray(readings.analyte, analytes));
-  const waiting = await database.select().from(readings).where(and(...conditions)).limit(200);
-  if (!waiting.length) return { ranked: new Map<string, Candidate[]>(), context: null };
+  const waiting = await database.select().from(readings).where(and(...conditions)).orderBy(desc(readings.receivedAt)).limit(200);
+  if (!waiting.length) return { ranked: new Map<string, Suggestion>(), context: null };
   const context = await matchContext(
     database,
     clinicId,
     [...new Set(waiting.map((r) => r.analyte))],
     waiting.flatMap((r) => [r.sampleId, r.patientRef]).filter((x): x is string => !!x),
   );
-  return { ranked: rankWaitingReadings(waiting.map(toMatchReading), context), context };
+  return { ranked: suggestMatches(waiting.map(toMatchReading), context), context };
 }
 
 /** The top few candidates for every unassigned reading, for the Intake board in one request. */
-export async function suggestionsForUnassigned(actor: Actor, perReading = 3) {
+export async function suggestionsForUnassigned(actor: Actor, perReading = 3): Promise<Record<string, Suggestion>> {
   const { ranked } = await rankWaiting(actor.clinicId);
-  return Object.fromEntries([...ranked].map(([id, candidates]) => [id, candidates.slice(0, perReading)]));
+  return Object.fromEntries([...ranked].map(([id, s]) => [id, { ...s, candidates: s.candidates.slice(0, perReading) }]));
 }
 
 /**
@@ -111,7 +157,7 @@ export async function autoAssignOnIngest(tx: Tx, bridge: Bridge, reading: Readin
   const settings = await clinicalSettings(tx, bridge.clinicId);
   if (!settings.autoAssignExactId) return false;
   const context = await matchContext(tx, bridge.clinicId, [reading.analyte], [reading.sampleId, reading.patientRef].filter((x): x is string => !!x));
-  const target = autoAssignTarget(inputFor(reading, context));
+  const target = autoAssignTarget({ ...context, reading: toMatchReading(reading) });
   if (!target) return false;
   try {
     // A savepoint: if the order was taken meanwhile, the reading stays in Intake and the upload still succeeds.

@@ -44,6 +44,8 @@ export const reassignSchema = z.object({
   patientId: z.uuid('Choose a patient.'),
   orderId: z.uuid().optional(),
   reason: text(500, { min: 3, minMessage: 'Give a reason for moving this result.', multiline: true }),
+  /** The run the reading is taken off will still give a reading: reopen it (else it stays closed, test used). */
+  runWillGiveReading: z.boolean().optional(),
 });
 
 export const reviewSchema = z

@@ -5,7 +5,7 @@
 import { beforeAll, bench, describe } from 'vitest';
 import { eq } from 'drizzle-orm';
 import { bridges } from '@/db/schema';
-import { rankWaitingReadings, type MatchOrder, type MatchReading } from '@/lib/clinical/matching';
+import { suggestMatches, type MatchOrder, type MatchReading } from '@/lib/clinical/matching';
 import { ingestBatch } from '@/lib/readings/ingest';
 import { seededDatabase } from '../helpers/db';
 
@@ -54,10 +54,8 @@ const orders: MatchOrder[] = Array.from({ length: 20 }, (_, i) => ({
   instrumentId: i % 2 ? 'reader-a' : 'reader-b',
   sampleId: i % 3 ? null : `S-${i}`,
   startedAt: new Date(T0 + i * 60_000),
-  dueAt: new Date(T0 + i * 60_000 + 700_000),
+  runSeconds: 725,
   status: 'open',
-  earlySeconds: 60,
-  lateSeconds: 180,
 }));
 const waiting: MatchReading[] = Array.from({ length: 100 }, (_, i) => ({
   id: `r${i}`,
@@ -65,7 +63,7 @@ const waiting: MatchReading[] = Array.from({ length: 100 }, (_, i) => ({
   instrumentId: i % 2 ? 'reader-a' : 'reader-b',
   sampleId: i % 7 ? null : `S-${i % 20}`,
   patientRef: null,
-  arrivedAt: new Date(T0 + 700_000 + i * 20_000),
+  arrivedAt: new Date(T0 + 725_000 + i * 20_000),
 }));
 const context = {
   orders,
@@ -81,7 +79,7 @@ describe('server', () => {
   bench('store one full bridge batch (200 readings)', async () => {
     await ingestBatch(bridge, batch());
   }, { iterations: 10 });
-  bench('rank 100 waiting readings against 20 running tests', () => {
-    rankWaitingReadings(waiting, context);
+  bench('suggest for 100 waiting readings against 20 running tests', () => {
+    suggestMatches(waiting, context);
   });
 });

@@ -1,7 +1,7 @@
 // Matching in a real browser: a technician starts a CRP test on the bench, the reader's anonymous reading
 // arrives at the due time (posted as the bridge posts it), Intake ranks the right patient first with its
 // reasons, the technician confirms in one click, and the veterinarian's open chart gains the point live.
-// Timing check value (common practice for a single-test CRP reader, no published source): due = start + 700 s.
+// Timing check value (common practice for a single-test CRP reader, no published source): due = start + 725 s (mixing, re-insertion, incubation, measurement).
 import { describe, expect, it } from 'vitest';
 import { markAgainstReload, signInAs, appForThisFile } from './support';
 
@@ -52,12 +52,12 @@ describe('an anonymous reading matched by timing', () => {
     expect(pointsBefore).toBe(5); // the seeded post-operative series
     const vetKept = await markAgainstReload(vet);
 
-    // Start the test on the bench: the run began 700 s ago, so its reading is due now.
+    // Start the test on the bench: the run began 725 s ago, so its reading is due now.
     await tech.goto('/bench');
     await tech.fill('#order-patient', 'Biscuit');
     await tech.click('[data-patient-choice="FH-1001"]', { timeout: 30_000 });
     await tech.selectOption('#order-instrument', { label: 'CRP reader (bench 1)' });
-    await tech.fill('#order-started', String(700 / 60));
+    await tech.fill('#order-started', String(725 / 60));
     await tech.click('button:has-text("Start test")');
     const card = await tech.waitForSelector('li[data-order-id]:has-text("Biscuit")', { timeout: 30_000 });
     expect(['due', 'running']).toContain(await card.getAttribute('data-phase'));

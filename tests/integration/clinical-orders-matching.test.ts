@@ -5,6 +5,8 @@ import * as orders from '@/app/api/orders/route';
 import * as abort from '@/app/api/orders/[orderId]/abort/route';
 import * as cancel from '@/app/api/orders/[orderId]/cancel/route';
 import * as assign from '@/app/api/readings/[readingId]/assign/route';
+import * as reassign from '@/app/api/readings/[readingId]/reassign/route';
+import * as matchingReport from '@/app/api/admin/matching-report/route';
 import * as suggestions from '@/app/api/readings/[readingId]/suggestions/route';
 import * as allSuggestions from '@/app/api/readings/suggestions/route';
 import * as adminClinical from '@/app/api/admin/clinical/route';
@@ -58,12 +60,12 @@ async function reading(arrivedAt: Date, payload: Record<string, unknown> = {}) {
 const closeAll = () => database.db.update(labOrders).set({ status: 'cancelled', closeReason: 'between cases' }).where(and(eq(labOrders.clinicId, clinicId), eq(labOrders.status, 'open')));
 
 describe('starting a test', () => {
-  it('computes the due time from the protocol: started at t, due at t + 700 s (about 12 min)', async () => {
+  it('computes the due time from the protocol: started at t, due at t + 725 s (about 12 min: mixing 30 s, re-insertion 10 s, incubation 660 s, measurement 25 s)', async () => {
     const startedAt = new Date(Date.now() - 60_000);
     const response = await startOrder({ patientId: ids.juniper, instrumentId: ids.reader, startedAt: startedAt.toISOString() });
     expect(response.status).toBe(201);
     const { order } = await body(response);
-    expect(new Date(order.dueAt).getTime() - startedAt.getTime()).toBe(700_000);
+    expect(new Date(order.dueAt).getTime() - startedAt.getTime()).toBe(725_000);
     expect(order).toMatchObject({ status: 'open', patientId: ids.juniper, analyte: 'cCRP', fulfilledReadingId: null });
     const list = await body(await orders.GET(request('/api/orders?status=open', { cookie: cookies.vet }), undefined));
     expect(list.orders.map((o: { id: string }) => o.id)).toContain(order.id);
@@ -112,16 +114,19 @@ describe('suggestions for an anonymous reading', () => {
   it('rank the run that is due when the reading arrives first, with reasons', async () => {
     await closeAll();
     const now = Date.now();
-    // Juniper's run started 11 min 40 s ago (due now); Pepper's 5 min ago (due in 6 min 40 s).
-    const due = (await body(await startOrder({ patientId: ids.juniper, instrumentId: ids.reader, startedAt: new Date(now - 700_000).toISOString() }))).order;
+    // Juniper's run started 12 min 5 s ago (due now); Pepper's 5 min ago (due in 7 min 5 s).
+    const due = (await body(await startOrder({ patientId: ids.juniper, instrumentId: ids.reader, startedAt: new Date(now - 725_000).toISOString() }))).order;
     await startOrder({ patientId: ids.pepper, instrumentId: ids.reader, startedAt: new Date(now - 300_000).toISOString() });
     const readingId = await reading(new Date(now));
-    const { candidates } = await body(await suggestions.GET(request('/api/readings/x/suggestions', { cookie: cookies.tech }), params({ readingId })));
-    expect(candidates.map((c: { patientId: string }) => c.patientId)).toEqual([ids.juniper, ids.pepper]);
-    expect(candidates[0]).toMatchObject({ orderId: due.id, strength: 'strong' });
-    expect(candidates[0].reasons.map((r: { code: string }) => r.code)).toEqual(['analyte-match', 'instrument-match', 'on-time', 'first-in-line', 'species-validated']);
+    const { suggestion } = await body(await suggestions.GET(request('/api/readings/x/suggestions', { cookie: cookies.tech }), params({ readingId })));
+    // Pepper's run on the same single-channel reader cannot have finished: Juniper's, confidently.
+    expect(suggestion.candidates[0]).toMatchObject({ patientId: ids.juniper, orderId: due.id });
+    expect(suggestion.candidates[0].probability).toBeGreaterThan(0.999);
+    expect(suggestion.confident).toBe(true);
+    // Pepper's run entered on the same reader while Juniper's ran is said in words, not hidden.
+    expect(suggestion.candidates[0].reasons.map((r: { code: string }) => r.code)).toEqual(['instrument-match', 'timing', 'reader-busy']);
     const board = await body(await allSuggestions.GET(request('/api/readings/suggestions', { cookie: cookies.tech }), undefined));
-    expect(board.suggestions[readingId][0].patientId).toBe(ids.juniper);
+    expect(board.suggestions[readingId].candidates[0].patientId).toBe(ids.juniper);
 
     // Confirming the suggestion fulfils the order; the order cannot take a second reading (409).
     const confirmed = await assign.POST(
@@ -144,7 +149,7 @@ describe('suggestions for an anonymous reading', () => {
 
   it('an order of another patient, or for another test, is refused (409) and nothing is assigned', async () => {
     await closeAll();
-    const pepperOrder = (await body(await startOrder({ patientId: ids.pepper, instrumentId: ids.reader, startedAt: new Date(Date.now() - 700_000).toISOString() }))).order;
+    const pepperOrder = (await body(await startOrder({ patientId: ids.pepper, instrumentId: ids.reader, startedAt: new Date(Date.now() - 725_000).toISOString() }))).order;
     const readingId = await reading(new Date());
     const wrongPatient = await assign.POST(request('/api/readings/x/assign', { cookie: cookies.tech, body: { patientId: ids.juniper, orderId: pepperOrder.id } }), params({ readingId }));
     expect(wrongPatient.status).toBe(409);
@@ -158,7 +163,7 @@ describe('suggestions for an anonymous reading', () => {
 
   it('two readings racing for one order: exactly one wins', async () => {
     await closeAll();
-    const o = (await body(await startOrder({ patientId: ids.sprocket, instrumentId: ids.reader, startedAt: new Date(Date.now() - 700_000).toISOString() }))).order;
+    const o = (await body(await startOrder({ patientId: ids.sprocket, instrumentId: ids.reader, startedAt: new Date(Date.now() - 725_000).toISOString() }))).order;
     const [r1, r2] = [await reading(new Date()), await reading(new Date())];
     const responses = await Promise.all(
       [r1, r2].map((readingId) => assign.POST(request('/api/readings/x/assign', { cookie: cookies.tech, body: { patientId: ids.sprocket, orderId: o.id } }), params({ readingId }))),
@@ -172,11 +177,12 @@ describe('suggestions for an anonymous reading', () => {
 describe('auto-assign on an exact sample ID (opt-in)', () => {
   it('is off by default: a reading with the tube label waits in Intake as a suggestion', async () => {
     await closeAll();
-    await startOrder({ patientId: ids.pepper, instrumentId: ids.reader, sampleId: 'T-5001', startedAt: new Date(Date.now() - 700_000).toISOString() });
+    await startOrder({ patientId: ids.pepper, instrumentId: ids.reader, sampleId: 'T-5001', startedAt: new Date(Date.now() - 725_000).toISOString() });
     const readingId = await reading(new Date(), { sampleId: 'T-5001' });
     expect((await database.db.select().from(readings).where(eq(readings.id, readingId)))[0]).toMatchObject({ status: 'unassigned', patientId: null });
-    const { candidates } = await body(await suggestions.GET(request('/api/readings/x/suggestions', { cookie: cookies.tech }), params({ readingId })));
-    expect(candidates[0]).toMatchObject({ patientId: ids.pepper, strength: 'exact' });
+    const { suggestion } = await body(await suggestions.GET(request('/api/readings/x/suggestions', { cookie: cookies.tech }), params({ readingId })));
+    expect(suggestion.candidates[0]).toMatchObject({ patientId: ids.pepper });
+    expect(suggestion.candidates[0].reasons.map((r: { code: string }) => r.code)).toContain('sample-id-match');
   });
 
   it('only an administrator may switch it on; then an exact tube label is placed at ingest, by the rule, in the history', async () => {
@@ -190,7 +196,7 @@ describe('auto-assign on an exact sample ID (opt-in)', () => {
     expect((await body(await patch(cookies.admin, {}))).settings).toEqual({ autoAssignExactId: true });
 
     await closeAll();
-    const o = (await body(await startOrder({ patientId: ids.pepper, instrumentId: ids.reader, sampleId: 'T-6001', startedAt: new Date(Date.now() - 700_000).toISOString() }))).order;
+    const o = (await body(await startOrder({ patientId: ids.pepper, instrumentId: ids.reader, sampleId: 'T-6001', startedAt: new Date(Date.now() - 725_000).toISOString() }))).order;
     const readingId = await reading(new Date(), { sampleId: 'T-6001' });
     expect((await database.db.select().from(readings).where(eq(readings.id, readingId)))[0]).toMatchObject({ status: 'assigned', patientId: ids.pepper });
     const [assignment] = await database.db.select().from(resultAssignments).where(eq(resultAssignments.readingId, readingId));
@@ -202,7 +208,7 @@ describe('auto-assign on an exact sample ID (opt-in)', () => {
 
   it('even when on, never guesses: no ID, an unknown ID, or two tests with the same label stay in Intake', async () => {
     await closeAll();
-    const started = new Date(Date.now() - 700_000).toISOString();
+    const started = new Date(Date.now() - 725_000).toISOString();
     await startOrder({ patientId: ids.pepper, instrumentId: ids.reader, sampleId: 'T-7001', startedAt: started });
     await startOrder({ patientId: ids.juniper, instrumentId: ids.reader, sampleId: 'T-7001', startedAt: started });
     for (const payload of [{}, { sampleId: 'T-9999' }, { sampleId: 'T-7001' }]) {
@@ -233,9 +239,64 @@ describe('run protocols are data an administrator changes', () => {
     expect((await patch(cookies.admin, valid)).status).toBe(200);
 
     const later = (await body(await startOrder({ patientId: ids.juniper }))).order;
-    expect(new Date(later.dueAt).getTime() - new Date(later.startedAt).getTime()).toBe(640_000);
+    expect(new Date(later.dueAt).getTime() - new Date(later.startedAt).getTime()).toBe(665_000); // 30 + 10 + 600 + 25 s
     const [kept] = await database.db.select().from(labOrders).where(eq(labOrders.id, running.id));
-    expect(kept.dueAt.getTime() - kept.startedAt.getTime()).toBe(700_000);
+    expect(kept.dueAt.getTime() - kept.startedAt.getTime()).toBe(725_000);
     await patch(cookies.admin, { ...valid, stages: protocol.stages, source: protocol.source });
+  });
+});
+
+describe('moving a reading off a finished run', () => {
+  // A run that printed its reading is over (common practice, no source: a single-test cartridge gives one
+  // reading). Moving that reading to another patient must not put the run back on the Bench as overdue.
+  const assignedReading = async () => {
+    await closeAll();
+    const order = (await body(await startOrder({ patientId: ids.juniper, instrumentId: ids.reader, startedAt: new Date(Date.now() - 725_000).toISOString() }))).order;
+    const readingId = await reading(new Date());
+    const placed = await assign.POST(request('/api/readings/x/assign', { cookie: cookies.tech, body: { patientId: ids.juniper, orderId: order.id, method: 'manual' } }), params({ readingId }));
+    expect(placed.status).toBe(200);
+    return { order, readingId };
+  };
+  const move = (readingId: string, extra: Record<string, unknown> = {}) =>
+    reassign.POST(request('/api/readings/x/reassign', { cookie: cookies.tech, body: { patientId: ids.pepper, reason: 'Tube was Pepper’s', ...extra } }), params({ readingId }));
+
+  it('closes the run as used with no reading, unless told otherwise; audited', async () => {
+    const { order, readingId } = await assignedReading();
+    expect((await move(readingId)).status).toBe(200);
+    const [after] = await database.db.select().from(labOrders).where(eq(labOrders.id, order.id));
+    expect(after).toMatchObject({ status: 'aborted', testConsumed: true, fulfilledReadingId: null });
+    expect(after.closeReason).toMatch(/moved off \(Tube was Pepper’s\)/);
+    const open = await body(await orders.GET(request('/api/orders?status=open', { cookie: cookies.tech }), undefined));
+    expect(open.orders.map((o: { id: string }) => o.id)).not.toContain(order.id);
+    const [event] = await database.db.select().from(auditEvents).where(and(eq(auditEvents.entityId, order.id), eq(auditEvents.action, 'order.closed')));
+    expect(event.details).toMatchObject({ readingId, outcome: 'aborted', testConsumed: true });
+  });
+
+  it('reopens the run when the technician says it will still give a reading', async () => {
+    const { order, readingId } = await assignedReading();
+    expect((await move(readingId, { runWillGiveReading: true })).status).toBe(200);
+    const [after] = await database.db.select().from(labOrders).where(eq(labOrders.id, order.id));
+    expect(after).toMatchObject({ status: 'open', testConsumed: false, fulfilledReadingId: null });
+    expect(await database.db.select().from(auditEvents).where(and(eq(auditEvents.entityId, order.id), eq(auditEvents.action, 'order.reopened')))).toHaveLength(1);
+    await closeAll();
+  });
+});
+
+describe('the matching report (Admin)', () => {
+  it('replays the last 30 days: lists a confident suggestion the technician did not keep; admins only', async () => {
+    await closeAll();
+    // Juniper's run is due now on the reader; the technician puts the reading on Pepper without a test.
+    await startOrder({ patientId: ids.juniper, instrumentId: ids.reader, startedAt: new Date(Date.now() - 725_000).toISOString() });
+    const readingId = await reading(new Date());
+    const placed = await assign.POST(request('/api/readings/x/assign', { cookie: cookies.tech, body: { patientId: ids.pepper, method: 'manual' } }), params({ readingId }));
+    expect(placed.status).toBe(200);
+    expect((await matchingReport.GET(request('/api/admin/matching-report', { cookie: cookies.tech }), undefined)).status).toBe(403);
+    const response = await matchingReport.GET(request('/api/admin/matching-report', { cookie: cookies.admin }), undefined);
+    expect(response.status).toBe(200);
+    const { report } = await body(response);
+    expect(report.days).toBe(30);
+    expect(report.confidentKept).toBeLessThan(report.confident);
+    expect(report.notKept).toContainEqual(expect.objectContaining({ readingId, suggested: expect.objectContaining({ patientName: 'Juniper' }), kept: null }));
+    await closeAll();
   });
 });

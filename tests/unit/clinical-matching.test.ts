@@ -1,15 +1,30 @@
 import { describe, expect, it } from 'vitest';
-import { autoAssignTarget, POINTS, rankCandidates, speciesWarning, type MatchInput, type MatchOrder } from '@/lib/clinical/matching';
+import {
+  abortProbability,
+  autoAssignTarget,
+  defaultTiming,
+  learnTiming,
+  normalCdf,
+  speciesWarning,
+  suggestMatch,
+  suggestMatches,
+  type MatchContext,
+  type MatchOrder,
+  type MatchReading,
+} from '@/lib/clinical/matching';
 
-// Worked cases for the ranking. The clinical facts behind the rules: a single-test point-of-care CRP
-// reader runs one test at a time and its reading is due about 12 min after the start (common practice,
-// no published source); CRP is a major acute-phase protein in dogs but not in cats (Cerón, Eckersall,
-// Martínez-Subiela, Vet Clin Pathol 2005;34:85–99). Timings: 10:00:00 start + 700 s = 10:11:40 due.
+// Worked cases for the probabilistic matcher. The facts behind them: a single-test point-of-care CRP
+// reader runs one test at a time and prints its reading about 12 min after the start (mixing, re-insertion,
+// incubation and measurement; common practice, no published source; the default protocol takes 725 s);
+// CRP is a major acute-phase protein in dogs but not in cats (Cerón, Eckersall, Martínez-Subiela, Vet Clin
+// Pathol 2005;34:85–99, from memory). Timings: start 10:00:00 + 725 s = due 10:12:05.
 
 const T0 = Date.UTC(2026, 11, 1, 10, 0, 0);
+const RUN = 725;
 const at = (seconds: number) => new Date(T0 + seconds * 1000);
-const READER_A = 'aaaaaaaa-0000-4000-8000-000000000001';
-const READER_B = 'bbbbbbbb-0000-4000-8000-000000000002';
+const READER_A = 'reader-a';
+const READER_B = 'reader-b';
+const READER_C = 'reader-c';
 
 const patients = [
   { id: 'p-biscuit', name: 'Biscuit', recordNumber: 'FH-1001', species: 'dog' },
@@ -20,6 +35,7 @@ const patients = [
 const instruments = [
   { id: READER_A, name: 'CRP reader A', channels: 1 },
   { id: READER_B, name: 'CRP reader B', channels: 1 },
+  { id: READER_C, name: 'CRP reader C', channels: 1 },
 ];
 const analytes = [{ code: 'cCRP', validatedSpecies: ['dog'] }];
 
@@ -30,121 +46,152 @@ const order = (id: string, patientId: string, startSeconds: number, extra: Parti
   instrumentId: READER_A,
   sampleId: null,
   startedAt: at(startSeconds),
-  dueAt: at(startSeconds + 700),
-  status: 'open',
-  earlySeconds: 60,
-  lateSeconds: 180,
+  runSeconds: RUN,
   ...extra,
 });
+const reading = (arrivedSeconds: number, extra: Partial<MatchReading> = {}): MatchReading => ({
+  id: 'r1',
+  analyte: 'cCRP',
+  instrumentId: READER_A,
+  sampleId: null,
+  patientRef: null,
+  arrivedAt: at(arrivedSeconds),
+  ...extra,
+});
+const context = (orders: MatchOrder[], extra: Partial<MatchContext> = {}): MatchContext => ({ orders, patients, instruments, analytes, ...extra });
+const probabilities = (s: { candidates: { orderId: string | null; probability: number }[] }) =>
+  Object.fromEntries(s.candidates.map((c) => [c.orderId, c.probability]));
 
-const input = (orders: MatchOrder[], reading: Partial<MatchInput['reading']> = {}): MatchInput => ({
-  reading: { id: 'r1', analyte: 'cCRP', instrumentId: READER_A, sampleId: null, patientRef: null, arrivedAt: at(700), ...reading },
-  orders,
-  patients,
-  instruments,
-  analytes,
+describe('the statistics underneath', () => {
+  it('normal CDF matches the standard normal table', () => {
+    // Standard normal table values (any statistics handbook): Φ(0) = 0.5, Φ(1) = 0.8413447, Φ(1.96) = 0.9750021, Φ(-2) = 0.0227501.
+    expect(normalCdf(0)).toBeCloseTo(0.5, 7);
+    expect(normalCdf(1)).toBeCloseTo(0.8413447, 6);
+    expect(normalCdf(1.96)).toBeCloseTo(0.9750021, 6);
+    expect(normalCdf(-2)).toBeCloseTo(0.0227501, 6);
+  });
+
+  it('learns the click spread robustly: median and 1.4826 × MAD, blended with the defaults while thin', () => {
+    // Offsets 10, 20, 30, 40, 50 → median 30, absolute deviations 20, 10, 0, 10, 20 → MAD 10, spread 14.826
+    // (consistency constant 1.4826 for the normal: Rousseeuw & Croux, JASA 1993;88:1273–1283).
+    const few = learnTiming([10, 20, 30, 40, 50]);
+    // Blended with the defaults (0 s, 60 s) at weight 20: (5·30 + 20·0)/25 = 6; (5·14.826 + 20·60)/25 = 50.9652.
+    expect(few.offsetSeconds).toBeCloseTo(6, 6);
+    expect(few.spreadSeconds).toBeCloseTo(50.9652, 3);
+    // With many confirmed matches the clinic's own estimate dominates, and a wild value (a reading taken
+    // half an hour late) does not move the median: 401 values, median still 30 → (401·30)/(401+20).
+    const many = learnTiming([...Array.from({ length: 400 }, (_, i) => [10, 20, 30, 40, 50][i % 5]), 1799]);
+    expect(many.offsetSeconds).toBeCloseTo((401 * 30) / 421, 3);
+    expect(many.spreadSeconds).toBeCloseTo((401 * 14.826 + 20 * 60) / 421, 3);
+    expect(learnTiming([])).toEqual(defaultTiming());
+  });
+
+  it('the chance an open run was aborted grows with how overdue it is', () => {
+    const p = [0, 60, 180, 600, 2400].map((s) => abortProbability(s));
+    for (let i = 1; i < p.length; i += 1) expect(p[i]).toBeGreaterThan(p[i - 1]);
+    expect(p[0]).toBeLessThan(0.1);
+    expect(p[4]).toBeGreaterThan(0.99);
+  });
 });
 
-const codes = (c: { reasons: { code: string }[] }) => c.reasons.map((r) => r.code);
-
-describe('ranking candidates for an anonymous reading', () => {
-  it('one run on the reader, reading at the due time: that patient, with every reason in words', () => {
-    // Biscuit's run started 10:00:00, due 10:11:40; the reading arrives 10:11:40 from the same reader.
-    const [top] = rankCandidates(input([order('o1', 'p-biscuit', 0)]));
-    expect(top).toMatchObject({ patientId: 'p-biscuit', orderId: 'o1', strength: 'strong', tiedWith: 0 });
-    expect(codes(top)).toEqual(['analyte-match', 'instrument-match', 'on-time', 'first-in-line', 'species-validated']);
-    // 20 + 15 + 40 (right at due) + 10 + 5
-    expect(top.score).toBe(90);
-    expect(top.reasons.find((r) => r.code === 'on-time')!.text).toMatch(/^Arrived right at the due time \(10:11:40;/);
+describe('probabilities for an anonymous reading (worked cases)', () => {
+  it('one run on the reader, reading at the due time: that patient, confidently, with reasons in words', () => {
+    const s = suggestMatch(reading(RUN), context([order('o1', 'p-biscuit', 0)]));
+    expect(s.confident).toBe(true);
+    expect(s.candidates[0]).toMatchObject({ orderId: 'o1', patientId: 'p-biscuit', speciesWarning: null });
+    expect(s.candidates[0].probability).toBeGreaterThan(0.999);
+    const texts = s.candidates[0].reasons.map((r) => r.text);
+    expect(texts).toContain('Started on CRP reader A, the one that sent the reading.');
+    expect(texts.find((t) => t.startsWith('Arrived'))).toMatch(/^Arrived right at the due time \(10:12:05\)/);
   });
 
-  it('two runs on one single-channel reader: first started, first finished', () => {
-    // Biscuit started 10:00 (due 10:11:40), Juniper 10:05 (due 10:16:40). A reading at 10:11:50 is
-    // Biscuit's: on time (+10 s) and first in line; Juniper's run could not have finished yet.
-    const ranked = rankCandidates(input([order('o-j', 'p-juniper', 300), order('o-b', 'p-biscuit', 0)], { arrivedAt: at(710) }));
-    expect(ranked.map((c) => c.patientId)).toEqual(['p-biscuit', 'p-juniper']);
-    expect(codes(ranked[0])).toContain('first-in-line');
-    expect(codes(ranked[1])).toEqual(expect.arrayContaining(['too-early', 'not-first-in-line']));
-    expect(ranked[1].reasons.find((r) => r.code === 'not-first-in-line')!.text).toMatch(/^Biscuit's run on CRP reader A started earlier/);
+  it('two dogs started 20 s apart with no reader named: asked to choose, both shown', () => {
+    const orders = [order('o-b', 'p-biscuit', 0, { instrumentId: null }), order('o-j', 'p-juniper', 20, { instrumentId: null })];
+    const s = suggestMatch(reading(RUN + 10), context(orders));
+    expect(s.confident).toBe(false);
+    const p = probabilities(s);
+    expect(p['o-b']).toBeGreaterThan(0.2);
+    expect(p['o-j']).toBeGreaterThan(0.2);
+    expect(p['o-b'] + p['o-j'] + s.noneProbability).toBeCloseTo(1, 9);
   });
 
-  it('two readers running at once: the reading goes with the run on the reader that sent it', () => {
-    // Biscuit on reader A due 10:11:40, Moss on reader B due 10:11:50; reader B's reading at 10:11:45.
-    const orders = [order('o-a', 'p-biscuit', 0), order('o-b', 'p-moss', 10, { instrumentId: READER_B })];
-    const ranked = rankCandidates(input(orders, { instrumentId: READER_B, arrivedAt: at(705) }));
-    expect(ranked.map((c) => c.patientId)).toEqual(['p-moss', 'p-biscuit']);
-    expect(codes(ranked[1])).toContain('instrument-differs');
-    // Each reader has one run, so both are first in their own line; only the reader that sent it counts.
-    expect(codes(ranked[0])).toContain('first-in-line');
-    expect(codes(ranked[1])).not.toContain('first-in-line');
+  it('a run 40 min overdue against a fresh one on the same reader: the fresh one, confidently', () => {
+    // Biscuit's run started 09:20 on reader A and never printed (aborted, left open); Juniper's started at
+    // 10:00 on reader A; the reading arrives at Juniper's due time.
+    const orders = [order('o-stale', 'p-biscuit', -2400), order('o-fresh', 'p-juniper', 0)];
+    const s = suggestMatch(reading(RUN), context(orders));
+    expect(s.candidates[0].orderId).toBe('o-fresh');
+    expect(s.confident).toBe(true);
+    expect(probabilities(s)['o-stale'] ?? 0).toBeLessThan(0.001);
   });
 
-  it('a tie is shown as a tie, never broken silently; the order is stable (earliest start, then record number)', () => {
-    // Two runs with no instrument named, started the same second: nothing tells them apart.
-    const orders = [order('o-m', 'p-moss', 0, { instrumentId: null }), order('o-j', 'p-juniper', 0, { instrumentId: null })];
-    const ranked = rankCandidates(input(orders));
-    expect(ranked.map((c) => [c.recordNumber, c.tiedWith])).toEqual([
-      ['FH-1002', 1],
-      ['FH-1003', 1],
-    ]);
-    expect(ranked[0].score).toBe(ranked[1].score);
-  });
-
-  it('an exact sample ID comes first even against timing and instrument, with the contrary reasons shown', () => {
-    // Juniper's tube A-1023 was entered as started later and on the other reader; the slip prints
-    // SAMPLE A-1023 (in other case and with a space). The printed ID is direct evidence: Juniper first,
-    // her "too early" and "other instrument" reasons in view, and Biscuit marked as not the one named.
+  it('an exact sample ID beats timing and reader', () => {
+    // Juniper's tube A-1023 was started later, on reader B; the slip prints "a-1023 " (other case, a space).
     const orders = [order('o-b', 'p-biscuit', 0), order('o-j', 'p-juniper', 200, { sampleId: 'A-1023', instrumentId: READER_B })];
-    const ranked = rankCandidates(input(orders, { sampleId: 'a-1023 ' }));
-    expect(ranked[0]).toMatchObject({ patientId: 'p-juniper', strength: 'exact' });
-    expect(codes(ranked[0])).toEqual(expect.arrayContaining(['sample-id-match', 'instrument-differs', 'too-early']));
-    expect(ranked[1]).toMatchObject({ patientId: 'p-biscuit', strength: 'possible' });
-    expect(ranked[1].reasons[0]).toEqual({ code: 'id-names-other', points: POINTS.idNamesOther, text: 'The ID printed on the reading names Juniper (FH-1002), not this patient.' });
+    const s = suggestMatch(reading(RUN, { sampleId: 'a-1023 ' }), context(orders));
+    expect(s.candidates[0].orderId).toBe('o-j');
+    expect(s.candidates[0].probability).toBeGreaterThan(0.99);
+    const biscuit = s.candidates.find((c) => c.orderId === 'o-b');
+    if (biscuit) expect(biscuit.reasons.map((r) => r.text)).toContain('The ID printed on the reading names Juniper (FH-1002), not this patient.');
   });
 
-  it('a sample ID that differs from the tube label counts against the order', () => {
-    const ranked = rankCandidates(input([order('o-b', 'p-biscuit', 0, { sampleId: 'A-2000' })], { sampleId: 'A-1023' }));
-    expect(codes(ranked[0])).toContain('sample-id-differs');
-  });
-
-  it('a record number printed on the reading names the patient even without an open order', () => {
-    const ranked = rankCandidates(input([order('o-b', 'p-biscuit', 0)], { patientRef: 'FH-1003' }));
-    const moss = ranked.find((c) => c.patientId === 'p-moss')!;
-    expect(moss).toMatchObject({ orderId: null, strength: 'exact' });
-    expect(codes(moss)).toEqual(['record-id-match', 'no-order', 'species-validated']);
-    // Named by the ID, Moss comes first although Biscuit's run is right on time (90 − 60 for the other ID).
-    expect(ranked.map((c) => [c.patientId, c.score])).toEqual([
-      ['p-moss', 85],
-      ['p-biscuit', 30],
-    ]);
-  });
-
-  it('a cat for a dog-validated test is warned about in plain words and ranks below a dog', () => {
-    const orders = [order('o-w', 'p-willow', 0, { instrumentId: null }), order('o-m', 'p-moss', 0, { instrumentId: null })];
-    const ranked = rankCandidates(input(orders));
-    expect(ranked.map((c) => c.patientId)).toEqual(['p-moss', 'p-willow']);
-    expect(ranked[1].speciesWarning).toBe('cCRP is validated for dogs; Willow is a cat. Interpret with care.');
+  it("a cat's order ranks by timing like a dog's, with the species warning beside it", () => {
+    // Willow (a cat) started on reader A at 10:00; Moss (a dog), no reader named, at 10:03.
+    const orders = [order('o-w', 'p-willow', 0), order('o-m', 'p-moss', 180, { instrumentId: null })];
+    const s = suggestMatch(reading(RUN), context(orders));
+    expect(s.candidates[0]).toMatchObject({ orderId: 'o-w', speciesWarning: 'cCRP is validated for dogs; Willow is a cat. Interpret with care.' });
+    expect(s.confident).toBe(true);
+    // Swap the species: the same probabilities, since species is never evidence of identity.
+    const asDog = suggestMatch(reading(RUN), context(orders, { patients: patients.map((p) => ({ ...p, species: 'dog' })) }));
+    expect(asDog.candidates[0].probability).toBeCloseTo(s.candidates[0].probability, 12);
     expect(speciesWarning(analytes[0], patients[0])).toBeNull();
   });
 
-  it('leaves out closed orders, other tests and runs started after the reading arrived', () => {
-    const orders = [
-      order('o-closed', 'p-biscuit', 0, { status: 'fulfilled' }),
-      order('o-glu', 'p-juniper', 0, { analyte: 'GLU' }),
-      order('o-later', 'p-moss', 701),
-    ];
-    expect(rankCandidates(input(orders))).toEqual([]);
+  it('a named reader must be the one that sent the reading', () => {
+    const orders = [order('o-a', 'p-biscuit', 0), order('o-b', 'p-moss', 10, { instrumentId: READER_B })];
+    const s = suggestMatch(reading(RUN + 5, { instrumentId: READER_B }), context(orders));
+    expect(s.candidates[0].orderId).toBe('o-b');
+    expect(probabilities(s)['o-a'] ?? 0).toBeLessThan(0.001);
   });
 
-  it('late beyond tolerance is possible but not credited; far too early counts against', () => {
-    const late = rankCandidates(input([order('o', 'p-biscuit', 0)], { arrivedAt: at(700 + 600) }))[0];
-    expect(late.reasons.find((r) => r.code === 'late')).toMatchObject({ points: 0 });
-    const early = rankCandidates(input([order('o', 'p-biscuit', 0)], { arrivedAt: at(300) }))[0];
-    expect(early.reasons.find((r) => r.code === 'too-early')).toMatchObject({ points: POINTS.tooEarly });
+  it('a "started" click a minute and a half late does not sink the true order', () => {
+    // The click came 90 s after the real start, so the reading arrives 90 s before the due time; the only other
+    // open run is on another reader.
+    const orders = [order('o-b', 'p-biscuit', 0), order('o-m', 'p-moss', 30, { instrumentId: READER_B })];
+    const s = suggestMatch(reading(RUN - 90), context(orders));
+    expect(s.candidates[0].orderId).toBe('o-b');
+    expect(s.confident).toBe(true);
+  });
+
+  it('one run gives one reading: two waiting readings share out two runs jointly', () => {
+    // Unnamed runs started 10:00 and 10:06; readings at 10:12:05 (reader A) and 10:18:05 (reader B).
+    const orders = [order('o-1', 'p-biscuit', 0, { instrumentId: null }), order('o-2', 'p-moss', 360, { instrumentId: null })];
+    const r1 = reading(RUN, { id: 'r1' });
+    const r2 = reading(RUN + 360, { id: 'r2', instrumentId: READER_B });
+    const s = suggestMatches([r1, r2], context(orders));
+    expect(s.get('r1')!.candidates[0].orderId).toBe('o-1');
+    expect(s.get('r2')!.candidates[0].orderId).toBe('o-2');
+    // r2 would fit o-1 only very late; o-1 is r1's, so r2 does not take it.
+    expect(probabilities(s.get('r2')!)['o-1'] ?? 0).toBeLessThan(0.001);
+  });
+
+  it('leaves out closed orders, other tests and runs started after the reading arrived', () => {
+    const orders = [order('o-closed', 'p-biscuit', 0, { status: 'fulfilled' }), order('o-glu', 'p-juniper', 0, { analyte: 'GLU' }), order('o-later', 'p-moss', RUN + 1)];
+    const s = suggestMatch(reading(RUN), context(orders));
+    expect(s.candidates).toEqual([]);
+    expect(s.noneProbability).toBe(1);
+    expect(s.confident).toBe(false);
+  });
+
+  it('a record number names a patient without an open order: offered, never confident', () => {
+    const s = suggestMatch(reading(RUN, { patientRef: 'FH-1003' }), context([]));
+    expect(s.candidates[0]).toMatchObject({ patientId: 'p-moss', orderId: null });
+    expect(s.confident).toBe(false);
   });
 });
 
 describe('the auto-assign rule (exact ID to one open order only)', () => {
+  const input = (orders: MatchOrder[], r: Partial<MatchReading>) => ({ ...context(orders), reading: reading(RUN, r) });
   it('assigns on an exact sample ID to exactly one open order', () => {
     const target = autoAssignTarget(input([order('o-b', 'p-biscuit', 0, { sampleId: 'A-1023' }), order('o-j', 'p-juniper', 0)], { sampleId: 'A-1023' }));
     expect(target).toMatchObject({ orderId: 'o-b', patientId: 'p-biscuit' });
@@ -155,11 +202,9 @@ describe('the auto-assign rule (exact ID to one open order only)', () => {
     expect(autoAssignTarget(input([order('o-m', 'p-moss', 0)], { patientRef: 'FH-1003' }))).toMatchObject({ orderId: 'o-m' });
   });
 
-  it('never guesses: no ID, two orders with the ID, wrong instrument, a cat, or only timing → null', () => {
-    expect(autoAssignTarget(input([order('o-b', 'p-biscuit', 0)]))).toBeNull();
-    expect(
-      autoAssignTarget(input([order('o1', 'p-biscuit', 0, { sampleId: 'S1' }), order('o2', 'p-moss', 0, { sampleId: 'S1' })], { sampleId: 'S1' })),
-    ).toBeNull();
+  it('never on a probability: no ID, two orders with the ID, wrong instrument, a cat → null', () => {
+    expect(autoAssignTarget(input([order('o-b', 'p-biscuit', 0)], {}))).toBeNull();
+    expect(autoAssignTarget(input([order('o1', 'p-biscuit', 0, { sampleId: 'S1' }), order('o2', 'p-moss', 0, { sampleId: 'S1' })], { sampleId: 'S1' }))).toBeNull();
     expect(autoAssignTarget(input([order('o-b', 'p-biscuit', 0, { sampleId: 'S1', instrumentId: READER_B })], { sampleId: 'S1' }))).toBeNull();
     expect(autoAssignTarget(input([order('o-w', 'p-willow', 0, { sampleId: 'S1' })], { sampleId: 'S1' }))).toBeNull();
     expect(autoAssignTarget(input([order('o-m', 'p-moss', 0, { sampleId: 'S2' })], { sampleId: 'S1' }))).toBeNull();

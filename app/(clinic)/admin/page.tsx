@@ -5,6 +5,7 @@ import { PageHeader, buttonClass } from '@/app/components/ui';
 import { BridgesPanel } from './bridges-panel';
 import { ClinicalPanel } from './clinical-panel';
 import { InstrumentsPanel } from './instruments-panel';
+import { MatchingReportPanel } from './matching-report-panel';
 import { StaffPanel } from './staff-panel';
 
 export const metadata: Metadata = { title: 'Admin' };
@@ -23,6 +24,7 @@ export default async function AdminPage() {
         <BridgesPanel />
         <InstrumentsPanel />
         <ClinicalPanel />
+        <MatchingReportPanel />
       </div>
     </>
   );

@@ -4,7 +4,8 @@ import useSWR from 'swr';
 import { Modal } from '@/app/components/modal';
 import { Field, Notice, buttonClass, inputClass } from '@/app/components/ui';
 import { fetcher, send } from '@/lib/client/fetcher';
-import { formatCountdown, runState } from '@/lib/clinical/protocols';
+import { abortProbability } from '@/lib/clinical/matching';
+import { formatCountdown, formatDuration, runState } from '@/lib/clinical/protocols';
 import { formatDateTime } from '@/lib/format';
 import type { OrderView } from '@/lib/orders';
 import { SAMPLE_TYPE_LABELS } from '@/lib/validation/clinical';
@@ -14,17 +15,32 @@ export type BenchOrder = Omit<OrderView, 'startedAt' | 'dueAt'> & { startedAt: s
 
 const clock = (iso: string) => new Date(iso).toLocaleTimeString(undefined, { hour: '2-digit', minute: '2-digit', second: '2-digit' });
 
+/** From this chance on, an overdue run is offered for closing in one click. */
+const STALE_AT = 0.9;
+
 export function BenchBoard({ canRun }: { canRun: boolean }) {
   // Countdowns run on the server's clock: the offset is measured each time the list arrives.
   const [offset, setOffset] = useState(0);
-  const { data, error } = useSWR<{ orders: BenchOrder[]; now: string }>('/api/orders?status=open', fetcher, {
+  const { data, error, mutate } = useSWR<{ orders: BenchOrder[]; now: string }>('/api/orders?status=open', fetcher, {
     refreshInterval: 60_000,
     onSuccess: (d) => setOffset(new Date(d.now).getTime() - Date.now()),
   });
   const now = new Date(useNow() + offset);
   const [closing, setClosing] = useState<{ order: BenchOrder; outcome: 'abort' | 'cancel' } | null>(null);
   const [done, setDone] = useState<string | null>(null);
+  const [failure, setFailure] = useState<string | null>(null);
   const orders = data?.orders ?? [];
+  // One click: a run long overdue with no reading is closed as aborted (the test still counts as used).
+  const closeAsAborted = async (o: BenchOrder, overdueSeconds: number) => {
+    setFailure(null);
+    try {
+      await send(`/api/orders/${o.id}/abort`, 'POST', { reason: `No reading ${formatDuration(overdueSeconds)} after the due time: probably aborted (closed from the bench)` });
+      setDone(`${o.patientName}'s ${o.analyte} run closed as aborted; the test is counted as used.`);
+      void mutate();
+    } catch (e) {
+      setFailure(e instanceof Error ? e.message : 'Could not close the run.');
+    }
+  };
 
   return (
     <section aria-labelledby="running-heading">
@@ -40,6 +56,7 @@ export function BenchBoard({ canRun }: { canRun: boolean }) {
         </div>
       )}
       {error && <Notice tone="error">Could not load the bench: {error.message}</Notice>}
+      {failure && <Notice tone="error">{failure}</Notice>}
       {data && orders.length === 0 && (
         <p className="rounded-lg border border-dashed border-ink-300 bg-white/60 px-4 py-8 text-center text-sm text-ink-700">
           No tests running. Start one when the sample goes in.
@@ -48,6 +65,9 @@ export function BenchBoard({ canRun }: { canRun: boolean }) {
       <ul className="grid gap-3 sm:grid-cols-2">
         {orders.map((o) => {
           const state = runState(new Date(o.startedAt), o.stages, now, o.lateSeconds ?? 180);
+          // How likely the run was aborted, given no reading so far: grows with how overdue it is.
+          const staleness = state.phase === 'overdue' ? abortProbability(-state.secondsToDue) : 0;
+          const probablyAborted = staleness >= STALE_AT;
           const tone =
             state.phase === 'overdue'
               ? 'border-alarm-700 bg-alarm-100'
@@ -55,7 +75,7 @@ export function BenchBoard({ canRun }: { canRun: boolean }) {
                 ? 'border-signal-500 bg-signal-100'
                 : 'border-ink-100 bg-white';
           return (
-            <li key={o.id} data-order-id={o.id} data-phase={state.phase} className={`rounded-lg border p-4 shadow-sm ${tone}`}>
+            <li key={o.id} data-order-id={o.id} data-phase={state.phase} data-probably-aborted={probablyAborted || undefined} className={`rounded-lg border p-4 shadow-sm ${tone}`}>
               <div className="flex items-baseline justify-between gap-2">
                 <p className="font-semibold">
                   {o.patientName} <span className="font-mono text-sm font-normal text-ink-700">{o.patientRecordNumber}</span>
@@ -76,10 +96,20 @@ export function BenchBoard({ canRun }: { canRun: boolean }) {
                   </span>
                 )}
                 {state.phase === 'due' && <span className="font-semibold text-signal-600">Due now: the reading should be printing.</span>}
-                {state.phase === 'overdue' && (
+                {state.phase === 'overdue' && !probablyAborted && (
                   <span className="font-semibold text-alarm-700">Overdue: check the reader; abort the test if the run failed.</span>
                 )}
+                {probablyAborted && (
+                  <span className="font-semibold text-alarm-700" data-testid="probably-aborted">
+                    Probably aborted ({Math.floor(staleness * 100)} % likely: no reading {formatDuration(-state.secondsToDue)} after the due time) — close it?
+                  </span>
+                )}
               </p>
+              {probablyAborted && canRun && (
+                <button type="button" className={`${buttonClass.primary} mt-2`} onClick={() => closeAsAborted(o, -state.secondsToDue)}>
+                  Close as aborted (test used)
+                </button>
+              )}
               <p className="mt-1 text-xs text-ink-500">
                 Started {clock(o.startedAt)} by {o.startedByName} · due {clock(o.dueAt)} · ordered by {o.orderedByName}
               </p>

@@ -4,6 +4,7 @@ import { useState } from 'react';
 import useSWR from 'swr';
 import { Field, Notice, buttonClass, inputClass } from '@/app/components/ui';
 import { fetcher, send } from '@/lib/client/fetcher';
+import { speciesWarning } from '@/lib/clinical/matching';
 import { dueAt, formatDuration, protocolSeconds, type ProtocolStage } from '@/lib/clinical/protocols';
 import type { PatientView } from '@/lib/patients';
 import { SAMPLE_TYPE_LABELS } from '@/lib/validation/clinical';
@@ -11,7 +12,7 @@ import { useActor } from '../actor';
 import { useNow } from '../use-now';
 
 interface Options {
-  analytes: { code: string; protocols: { id: string; name: string; instrumentId: string | null; stages: ProtocolStage[] }[]; instruments: { id: string; name: string }[] }[];
+  analytes: { code: string; validatedSpecies: string[]; protocols: { id: string; name: string; instrumentId: string | null; stages: ProtocolStage[] }[]; instruments: { id: string; name: string }[] }[];
   orderers: { id: string; displayName: string; role: string }[];
 }
 
@@ -37,6 +38,8 @@ export function StartTestForm() {
   const instruments = chosenAnalyte?.instruments ?? [];
   const protocol =
     chosenAnalyte?.protocols.find((p) => p.instrumentId === (instrumentId || null)) ?? chosenAnalyte?.protocols.find((p) => p.instrumentId === null);
+  // Then and there: the test is not validated for this patient's species (a warning, never a block).
+  const warning = patient && chosenAnalyte ? speciesWarning(chosenAnalyte, patient) : null;
   const orderer = orderedBy || (actor.role === 'veterinarian' ? actor.userId : options.data?.orderers[0]?.id) || '';
   const minutes = Number(minutesAgo.replace(',', '.'));
   const now = useNow();
@@ -61,7 +64,7 @@ export function StartTestForm() {
         orderedBy: orderer,
         startedAt,
       });
-      setDone(`${chosenAnalyte.code} started for ${patient.name} (${patient.recordNumber}).`);
+      setDone(`${chosenAnalyte.code} started for ${patient.name} (${patient.recordNumber}).${warning ? ` ${warning}` : ''}`);
       setPatient(null);
       setQ('');
       setSampleId('');
@@ -121,6 +124,11 @@ export function StartTestForm() {
             </>
           )}
         </Field>
+        {warning && (
+          <p role="status" data-testid="species-warning" className="rounded-md border border-alarm-700 bg-alarm-100 px-3 py-2 text-sm font-medium text-alarm-700">
+            {warning}
+          </p>
+        )}
         <div className="grid grid-cols-2 gap-3">
           <Field id="order-analyte" label="Test">
             <select id="order-analyte" className={inputClass} value={chosenAnalyte?.code ?? ''} onChange={(e) => setAnalyte(e.target.value)}>

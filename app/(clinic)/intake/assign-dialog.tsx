@@ -8,25 +8,30 @@ import { fetcher, send } from '@/lib/client/fetcher';
 import { formatAge, sexLabel, speciesLabel } from '@/lib/format';
 import type { PatientView } from '@/lib/patients';
 import type { IntakeReading } from './intake-board';
-import { speciesWarning, type Candidate } from '@/lib/clinical/matching';
+import { speciesWarning, type Suggestion } from '@/lib/clinical/matching';
 import { ReadingSummary } from './reading-summary';
-import { Reasons, StrengthBadge } from './suggested-match';
+import { ProbabilityBadge, Reasons } from './suggested-match';
 
 
 /**
  * Search, pick, confirm: a reading goes on a patient only after a person chose that patient.
- * A printed sample ID pre-fills the search but never selects anyone by itself.
+ * The search opens empty with the focus in it; only a confident suggestion is preselected.
  */
 export function AssignDialog({ reading, onClose }: { reading: IntakeReading; onClose: (message?: string) => void }) {
-  const [query, setQuery] = useState(reading.sampleId ?? reading.patientRef ?? '');
-  const [chosen, setChosen] = useState<(Pick<PatientView, 'id' | 'name' | 'recordNumber'> & { species?: string }) | null>(null);
+  const [query, setQuery] = useState('');
+  const [picked, setChosen] = useState<(Pick<PatientView, 'id' | 'name' | 'recordNumber'> & { species?: string }) | null>(null);
+  // Once the technician types or picks, the preselected suggestion no longer applies.
+  const [touched, setTouched] = useState(false);
   // Which of the chosen patient's running tests this reading fulfils ('' for none), and whether a suggestion was taken.
   const [orderChoice, setOrderChoice] = useState<string | null>(null);
   const [fromSuggestion, setFromSuggestion] = useState(false);
-  const ranked = useSWR<{ candidates: Candidate[]; analyte: { code: string; validatedSpecies: string[] } | null }>(`/api/readings/${reading.id}/suggestions`, fetcher);
-  const candidates = ranked.data?.candidates ?? [];
+  const ranked = useSWR<{ suggestion: Suggestion; analyte: { code: string; validatedSpecies: string[] } | null }>(`/api/readings/${reading.id}/suggestions`, fetcher);
+  const candidates = ranked.data?.suggestion.candidates ?? [];
+  const confident = ranked.data?.suggestion.confident ?? false;
+  const preselected = !touched && confident ? candidates[0] : undefined;
+  const chosen = picked ?? (preselected ? { id: preselected.patientId, name: preselected.patientName, recordNumber: preselected.recordNumber } : null);
   const forChosen = chosen ? candidates.filter((c) => c.patientId === chosen.id && c.orderId) : [];
-  const orderId = orderChoice ?? forChosen[0]?.orderId ?? '';
+  const orderId = orderChoice ?? (preselected && !picked ? (preselected.orderId ?? '') : (forChosen[0]?.orderId ?? ''));
   const analyte = ranked.data?.analyte ?? undefined;
   const chosenWarning = chosen
     ? (candidates.find((c) => c.patientId === chosen.id)?.speciesWarning ?? (chosen.species ? speciesWarning(analyte, { name: chosen.name, species: chosen.species }) : null))
@@ -47,7 +52,7 @@ export function AssignDialog({ reading, onClose }: { reading: IntakeReading; onC
       const { assignment } = await send<{ assignment: { speciesWarning: string | null } }>(`/api/readings/${reading.id}/assign`, 'POST', {
         patientId: chosen.id,
         orderId: orderId || undefined,
-        method: fromSuggestion ? 'suggestion' : 'manual',
+        method: fromSuggestion || (preselected && !picked) ? 'suggestion' : 'manual',
       });
       onClose(
         `${reading.analyte} ${reading.value ?? ''} assigned to ${chosen.name} (${chosen.recordNumber}).${assignment.speciesWarning ? ` ${assignment.speciesWarning}` : ''}`,
@@ -59,12 +64,12 @@ export function AssignDialog({ reading, onClose }: { reading: IntakeReading; onC
   };
 
   return (
-    <Modal title="Assign reading to a patient" onClose={() => onClose()}>
+    <Modal title="Assign reading to a patient" onClose={() => onClose()} initialFocus="patient-search">
       <ReadingSummary reading={reading} />
       {candidates.length > 0 && (
         <section aria-labelledby="suggestions-heading" className="mb-4">
           <h3 id="suggestions-heading" className="mb-1 text-sm font-semibold">
-            Suggested from running tests
+            {confident ? 'Suggested from running tests' : 'Running tests it could be (choose one, or search)'}
           </h3>
           <ol className="max-h-56 space-y-2 overflow-auto">
             {candidates.slice(0, 5).map((c, i) => (
@@ -73,12 +78,14 @@ export function AssignDialog({ reading, onClose }: { reading: IntakeReading; onC
                   <span className="text-ink-500">{i + 1}.</span>
                   <span className="font-semibold">{c.patientName}</span>
                   <span className="font-mono text-xs">{c.recordNumber}</span>
-                  <StrengthBadge candidate={c} />
+                  <ProbabilityBadge candidate={c} confident={confident && i === 0} />
                   <button
                     type="button"
                     className={`${buttonClass.quiet} ml-auto`}
                     aria-label={`Select suggestion ${i + 1}`}
+                    aria-pressed={chosen?.id === c.patientId}
                     onClick={() => {
+                      setTouched(true);
                       setChosen({ id: c.patientId, name: c.patientName, recordNumber: c.recordNumber });
                       setOrderChoice(c.orderId ?? '');
                       setFromSuggestion(true);
@@ -99,10 +106,10 @@ export function AssignDialog({ reading, onClose }: { reading: IntakeReading; onC
       <input
         id="patient-search"
         type="search"
-        autoFocus
         autoComplete="off"
         value={query}
         onChange={(e) => {
+          setTouched(true);
           setQuery(e.target.value);
           setChosen(null);
           setOrderChoice(null);
@@ -119,6 +126,7 @@ export function AssignDialog({ reading, onClose }: { reading: IntakeReading; onC
             <button
               type="button"
               onClick={() => {
+                setTouched(true);
                 setChosen(p);
                 setOrderChoice(null);
                 setFromSuggestion(false);
@@ -144,7 +152,7 @@ export function AssignDialog({ reading, onClose }: { reading: IntakeReading; onC
           <select id="assign-order" className={inputClass} value={orderId} onChange={(e) => setOrderChoice(e.target.value)}>
             {forChosen.map((c) => (
               <option key={c.orderId} value={c.orderId!}>
-                {reading.analyte} for {c.patientName} · {c.reasons.find((r) => r.code === 'on-time' || r.code === 'late' || r.code === 'too-early')?.text ?? ''}
+                {reading.analyte} for {c.patientName} · {c.reasons.find((r) => r.code === 'timing')?.text ?? ''}
               </option>
             ))}
             <option value="">None (put it on the patient only)</option>

@@ -5,7 +5,7 @@ import { fetcher } from '@/lib/client/fetcher';
 import { formatDateTime, formatValue, timeAgo } from '@/lib/format';
 import type { ReadingView } from '@/lib/readings/queries';
 import { Notice, buttonClass } from '@/app/components/ui';
-import type { Candidate } from '@/lib/clinical/matching';
+import type { Suggestion } from '@/lib/clinical/matching';
 import { AssignDialog } from './assign-dialog';
 import { UnparsedCaptures } from './unparsed-captures';
 import { SuggestedMatch } from './suggested-match';
@@ -31,12 +31,25 @@ function useArrivals(ids: string[] | undefined) {
   return fresh;
 }
 
+/** After a dialog closes, focus goes back to the reading's row (or the next row, once it was assigned). */
+function returnFocus(readingId: string) {
+  const rows = [...document.querySelectorAll<HTMLTableRowElement>('tr[data-reading-id]')];
+  const index = rows.findIndex((row) => row.dataset.readingId === readingId);
+  const row = rows[index];
+  const target = row?.querySelector<HTMLButtonElement>('button[data-action=assign]');
+  requestAnimationFrame(() => {
+    if (target?.isConnected) return target.focus();
+    const next = rows.slice(index + 1).find((r) => r.isConnected) ?? rows.slice(0, Math.max(0, index)).reverse().find((r) => r.isConnected);
+    (next?.querySelector<HTMLButtonElement>('button[data-action=assign]') ?? document.getElementById('unassigned-heading'))?.focus();
+  });
+}
+
 export function IntakeBoard() {
   const readings = useSWR<{ readings: IntakeReading[] }>('/api/readings?status=unassigned', fetcher, {
     refreshInterval: 60_000,
   });
   // Suggestions live under /api/readings, so every reading and order event refreshes them.
-  const suggestions = useSWR<{ suggestions: Record<string, Candidate[]> }>('/api/readings/suggestions', fetcher, {
+  const suggestions = useSWR<{ suggestions: Record<string, Suggestion> }>('/api/readings/suggestions', fetcher, {
     refreshInterval: 60_000,
   });
   const [assigning, setAssigning] = useState<IntakeReading | null>(null);
@@ -56,7 +69,7 @@ export function IntakeBoard() {
     <div className="space-y-8">
       {done && <Notice tone="ok">{done}</Notice>}
       <section aria-labelledby="unassigned-heading">
-        <h2 id="unassigned-heading" className="mb-3 flex items-center gap-2 text-lg font-semibold text-ink-900">
+        <h2 id="unassigned-heading" tabIndex={-1} className="mb-3 flex items-center gap-2 text-lg font-semibold text-ink-900">
           Unassigned readings
           <span className="rounded-full bg-ink-100 px-2 py-0.5 text-xs font-semibold text-ink-700" data-testid="unassigned-count">
             {readings.data ? list.length : '…'}
@@ -96,8 +109,15 @@ export function IntakeBoard() {
                       {r.instrumentName ?? <span className="text-ink-500">{r.instrumentCode} (not configured)</span>}
                     </td>
                     <td className="px-4 py-3 font-medium">{r.analyte}</td>
-                    <td className="whitespace-nowrap px-4 py-3 font-mono text-base font-semibold" data-testid="reading-value">
-                      {formatValue(r)}
+                    <td className="px-4 py-3" data-critical={r.critical ? (r.critical.certain ? 'yes' : 'possible') : undefined}>
+                      <span className="whitespace-nowrap font-mono text-base font-semibold" data-testid="reading-value">
+                        {formatValue(r)}
+                      </span>
+                      {r.critical && (
+                        <p className="mt-1 max-w-56 rounded bg-alarm-100 px-1.5 py-0.5 text-xs font-semibold text-alarm-700" data-testid="critical-before-assignment" role="note">
+                          {r.critical.text}
+                        </p>
+                      )}
                     </td>
                     <td className="px-4 py-3">
                       {r.sampleId || r.patientRef ? (
@@ -111,7 +131,7 @@ export function IntakeBoard() {
                       <SuggestedMatch
                         readingId={r.id}
                         analyte={r.analyte}
-                        candidates={suggestions.data?.suggestions[r.id]}
+                        suggestion={suggestions.data?.suggestions[r.id]}
                         onAssigned={(message) => {
                           setDone(message);
                           void readings.mutate();
@@ -121,7 +141,7 @@ export function IntakeBoard() {
                     </td>
                     <td className="whitespace-nowrap px-4 py-3 text-right">
                       <div className="flex justify-end gap-2">
-                        <button type="button" className={buttonClass.primary} onClick={() => setAssigning(r)}>
+                        <button type="button" className={buttonClass.primary} data-action="assign" onClick={() => setAssigning(r)}>
                           Assign…
                         </button>
                         <button type="button" className={buttonClass.secondary} onClick={() => setVoiding(r)}>
@@ -143,9 +163,12 @@ export function IntakeBoard() {
         <AssignDialog
           reading={assigning}
           onClose={(message) => {
+            const readingId = assigning.id;
             setAssigning(null);
             if (message) setDone(message);
             void readings.mutate();
+            void suggestions.mutate();
+            returnFocus(readingId);
           }}
         />
       )}

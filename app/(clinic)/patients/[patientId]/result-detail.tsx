@@ -190,11 +190,12 @@ function ReassignDialog({ result, fromName, fromId, onClose }: { result: ChartRe
   const search = useSWR<{ patients: PatientView[] }>(debounced ? `/api/patients?q=${encodeURIComponent(debounced)}&limit=10` : null, fetcher);
   const [chosen, setChosen] = useState<PatientView | null>(null);
   const [reason, setReason] = useState('');
+  const [runWillGiveReading, setRunWillGiveReading] = useState(false);
   const [failure, setFailure] = useState<string | null>(null);
   const submit = async () => {
     if (!chosen) return;
     try {
-      await send(`/api/readings/${result.id}/reassign`, 'POST', { patientId: chosen.id, reason });
+      await send(`/api/readings/${result.id}/reassign`, 'POST', { patientId: chosen.id, reason, runWillGiveReading });
       onClose(true);
     } catch (error) {
       setFailure(error instanceof Error ? error.message : 'Could not move the result.');
@@ -230,6 +231,13 @@ function ReassignDialog({ result, fromName, fromId, onClose }: { result: ChartRe
         <Field id="reassign-reason" label="Reason (required)" error={failure ?? undefined}>
           <input id="reassign-reason" className={inputClass} value={reason} onChange={(e) => setReason(e.target.value)} />
         </Field>
+        <label className="mt-2 flex items-start gap-2 text-sm">
+          <input type="checkbox" checked={runWillGiveReading} onChange={(e) => setRunWillGiveReading(e.target.checked)} />
+          <span>
+            The run this result completed will still give a reading (keep its test open on the Bench). Leave unticked if that run is
+            over: it is closed as used, with no reading.
+          </span>
+        </label>
       </div>
       <div className="mt-4 flex justify-end gap-2">
         <button type="button" className={buttonClass.secondary} onClick={() => onClose(false)}>
