@@ -7,7 +7,9 @@ ALTER TABLE "patients" ADD COLUMN "merged_into_id" uuid;--> statement-breakpoint
 ALTER TABLE "patients" ADD COLUMN "updated_at" timestamp with time zone;--> statement-breakpoint
 ALTER TABLE "staff_users" ADD COLUMN "must_change_password" boolean DEFAULT false NOT NULL;--> statement-breakpoint
 ALTER TABLE "patients" ADD CONSTRAINT "patients_merged_into_id_patients_id_fk" FOREIGN KEY ("merged_into_id") REFERENCES "public"."patients"("id") ON DELETE restrict ON UPDATE no action;--> statement-breakpoint
-CREATE INDEX "patients_owner_idx" ON "patients" USING btree ("owner_id");--> statement-breakpoint
+CREATE INDEX "audit_events_patient_idx" ON "audit_events" USING btree ("clinic_id",("details" ->> 'patientId'));--> statement-breakpoint
+CREATE INDEX "patients_owner_idx" ON "patients" USING btree ("owner_id");
+--> statement-breakpoint
 -- hand-written
 -- Records closed before status existed were closed for an unknown reason: keep them closed, as archived.
 UPDATE "patients" SET "status" = 'archived' WHERE "active" = false AND "status" = 'active';

@@ -4,6 +4,7 @@ import { db } from '@/db/client';
 import { auditEvents, instruments, patients, readings, staffUsers, unparsedCaptures } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { notFound } from '@/lib/http';
+import { historyForPatient } from './history';
 
 const readingColumns = {
   id: readings.id,
@@ -49,8 +50,11 @@ export async function listReadings(
     .limit(filter.limit);
 }
 
-/** One reading with its audit history, oldest first. */
-export async function getReading(actor: Actor, readingId: string) {
+/**
+ * One reading with its audit history, oldest first. Seen from a patient's chart (`asSeenBy`), comments and
+ * sign-offs written for another patient are left out (they stay with the patient they were written for).
+ */
+export async function getReading(actor: Actor, readingId: string, asSeenBy?: { patientId: string }) {
   const database = await db();
   const [reading] = await database
     .select(readingColumns)
@@ -77,6 +81,7 @@ export async function getReading(actor: Actor, readingId: string) {
       ),
     )
     .orderBy(asc(auditEvents.at), asc(auditEvents.id));
+  if (asSeenBy) return { ...reading, history: await historyForPatient(actor.clinicId, readingId, asSeenBy.patientId, history) };
   return { ...reading, history };
 }
 

@@ -149,3 +149,19 @@ export const previewProfileSchema = z.object({
   definition: profileDefinitionSchema,
   sample: z.string().max(256 * 1024, 'Paste at most 256 KB of printout.'),
 });
+
+const calendarDay = z.string().regex(/^\d{4}-\d{2}-\d{2}$/, 'Use a date (YYYY-MM-DD).');
+const blankToUndefined = (v: unknown) => (v === '' ? undefined : v);
+
+/** The admin audit viewer's filters (query string). */
+export const auditQuery = z
+  .object({
+    patientId: z.preprocess(blankToUndefined, z.uuid('Not a valid patient id.').optional()),
+    actorUserId: z.preprocess(blankToUndefined, z.uuid('Not a valid person id.').optional()),
+    action: z.preprocess(blankToUndefined, z.string().trim().max(80).regex(/^[a-z_.-]+$/, 'Not an action name.').optional()),
+    from: z.preprocess(blankToUndefined, calendarDay.optional()),
+    to: z.preprocess(blankToUndefined, calendarDay.optional()),
+    before: z.preprocess(blankToUndefined, z.coerce.number().int().positive().optional()),
+    limit: z.coerce.number().int().min(1).max(200).default(50),
+  })
+  .refine((v) => !v.from || !v.to || v.from <= v.to, { path: ['to'], message: 'The end date is before the start date.' });

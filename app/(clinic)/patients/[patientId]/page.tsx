@@ -9,6 +9,7 @@ import { formatAge, sexLabel, speciesLabel } from '@/lib/format';
 import { ClinicalCaution, Notice } from '@/app/components/ui';
 import { PatientResults } from './patient-results';
 import { RecordActions } from './record-actions';
+import { TakenOffResults } from './taken-off-results';
 
 export const metadata: Metadata = { title: 'Patient record' };
 
@@ -28,6 +29,11 @@ export default async function PatientPage({ params }: { params: Promise<{ patien
           Patients
         </Link>{' '}
         / <span className="font-mono">{patient.recordNumber}</span>
+        {actor.role === 'admin' && (
+          <Link href={`/admin/audit?patientId=${patient.id}`} className="ml-4 text-ink-700 underline-offset-2 hover:underline">
+            Audit trail of this patient
+          </Link>
+        )}
       </nav>
       {patient.status === 'merged' && patient.mergedIntoId && (
         <div className="mb-4">
@@ -82,6 +88,7 @@ export default async function PatientPage({ params }: { params: Promise<{ patien
         </dl>
       </header>
       <PatientResults patientId={patient.id} patientName={patient.name} />
+      <TakenOffResults patientId={patient.id} />
       <div className="mt-8">
         <ClinicalCaution />
       </div>
