@@ -90,6 +90,25 @@ export const newInstrumentSchema = z.object({
 
 export type NewInstrumentInput = z.infer<typeof newInstrumentSchema>;
 
+/** Retire an instrument or return it to service, with a reason for the audit trail. */
+export const instrumentServiceSchema = z.object({
+  active: z.boolean(),
+  reason: z.string().trim().min(3, 'Say why (e.g. replaced by the new analyzer).').max(500),
+});
+
+/** An administrator sets a temporary password; the person chooses their own at the next sign-in. */
+export const temporaryPasswordSchema = z.object({ password });
+
+export const changeOwnPasswordSchema = z
+  .object({
+    currentPassword: z.string().min(1, 'Enter the password you signed in with.').max(200),
+    newPassword: password,
+    confirmPassword: z.string().max(200),
+  })
+  .refine((v) => v.newPassword === v.confirmPassword, { path: ['confirmPassword'], message: 'The two new passwords differ.' })
+  .refine((v) => v.newPassword !== v.currentPassword, { path: ['newPassword'], message: 'Choose a password different from the temporary one.' });
+export type ChangeOwnPasswordInput = z.infer<typeof changeOwnPasswordSchema>;
+
 export const readingStatusQuery = z.object({
   status: z.enum(['unassigned', 'assigned', 'voided', 'all']).default('unassigned'),
   limit: z.coerce.number().int().min(1).max(500).default(100),
