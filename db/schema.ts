@@ -35,6 +35,8 @@ export const patientSex = pgEnum('patient_sex', [
   'female_spayed',
   'unknown',
 ]);
+/** 'active' is an open record; a merged record points at the one it was merged into. */
+export const patientStatus = pgEnum('patient_status', ['active', 'deceased', 'archived', 'merged']);
 export const readingStatus = pgEnum('reading_status', ['unassigned', 'assigned', 'voided']);
 export const captureStatus = pgEnum('capture_status', ['open', 'transcribed', 'dismissed']);
 export const orderStatus = pgEnum('order_status', ['open', 'fulfilled', 'aborted', 'cancelled']);
@@ -63,6 +65,8 @@ export const staffUsers = pgTable(
     role: staffRole().notNull(),
     passwordHash: text().notNull(),
     active: boolean().notNull().default(true),
+    /** Set when an administrator gave a temporary password: the person chooses their own at next sign-in. */
+    mustChangePassword: boolean().notNull().default(false),
     createdAt: createdAt(),
     lastSignInAt: timestamp({ withTimezone: true }),
   },
@@ -113,16 +117,28 @@ export const patients = pgTable(
     breed: text(),
     sex: patientSex().notNull().default('unknown'),
     dateOfBirth: date({ mode: 'string' }),
+    /** True when the date of birth was worked out from an estimated age rather than known. */
+    dateOfBirthEstimated: boolean().notNull().default(false),
     weightKg: doublePrecision(),
+    /** The day the weight was taken: a dose worked out from an old weight is a risk. */
+    weightMeasuredOn: date({ mode: 'string' }),
     ownerId: uuid().references(() => owners.id, { onDelete: 'set null' }),
     attendingVetId: uuid().references(() => staffUsers.id, { onDelete: 'set null' }),
+    /** An open record (status 'active'): takes new results and orders, listed by default. */
     active: boolean().notNull().default(true),
+    status: patientStatus().notNull().default('active'),
+    deceasedOn: date({ mode: 'string' }),
+    mergedIntoId: uuid().references((): AnyPgColumn => patients.id, { onDelete: 'restrict' }),
     createdAt: createdAt(),
+    updatedAt: timestamp({ withTimezone: true }),
   },
   (t) => [
     uniqueIndex('patients_clinic_record_key').on(t.clinicId, t.recordNumber),
     index('patients_clinic_name_idx').on(t.clinicId, sql`lower(${t.name})`),
+    index('patients_owner_idx').on(t.ownerId),
     check('patients_weight_positive', sql`${t.weightKg} is null or ${t.weightKg} > 0`),
+    // Hand-written in migration 0008 (after existing rows are brought in line): active = (status = 'active'),
+    // and status 'merged' exactly when merged_into_id is set; an insert with only active = false becomes 'archived'.
   ],
 );
 
@@ -350,6 +366,8 @@ export const auditEvents = pgTable(
   (t) => [
     index('audit_events_entity_idx').on(t.entityType, t.entityId, t.at),
     index('audit_events_clinic_idx').on(t.clinicId, t.at),
+    // The audit viewer's "by patient" filter.
+    index('audit_events_patient_idx').on(t.clinicId, sql`(${t.details} ->> 'patientId')`),
   ],
 );
 
@@ -592,5 +610,6 @@ export type LabOrder = typeof labOrders.$inferSelect;
 export type ReferenceInterval = typeof referenceIntervals.$inferSelect;
 export type ResultReview = typeof resultReviews.$inferSelect;
 export type ResultAlert = typeof resultAlerts.$inferSelect;
+export type PatientStatus = (typeof patientStatus.enumValues)[number];
 export type Species = (typeof species.enumValues)[number];
 export type SampleType = (typeof sampleType.enumValues)[number];

@@ -1,6 +1,6 @@
 import 'server-only';
 import { and, asc, eq, isNull } from 'drizzle-orm';
-import { db } from '@/db/client';
+import { db, type Tx } from '@/db/client';
 import { bridges, instruments, printoutProfiles, type Bridge } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { newBridgeToken } from '@/lib/auth/tokens';
@@ -112,25 +112,7 @@ export async function addInstrument(actor: Actor, input: NewInstrumentInput) {
   const database = await db();
   try {
     return await database.transaction(async (tx) => {
-      if (input.bridgeId) {
-        const [bridge] = await tx
-          .select({ id: bridges.id })
-          .from(bridges)
-          .where(and(eq(bridges.id, input.bridgeId), eq(bridges.clinicId, actor.clinicId)));
-        if (!bridge) throw new ApiError(400, 'invalid_request', 'That bridge is not one of this clinic’s.', [
-          { path: 'bridgeId', message: 'Unknown bridge.' },
-        ]);
-      }
-      if (input.profileId) {
-        const [profile] = await tx
-          .select({ key: printoutProfiles.profileKey })
-          .from(printoutProfiles)
-          .where(and(eq(printoutProfiles.profileKey, input.profileId), eq(printoutProfiles.clinicId, actor.clinicId)))
-          .limit(1);
-        if (!profile) throw new ApiError(400, 'invalid_request', 'That printout profile is not one of this clinic’s.', [
-          { path: 'profileId', message: 'Unknown profile.' },
-        ]);
-      }
+      await checkInstrumentLinks(tx, actor, input);
       const [instrument] = await tx
         .insert(instruments)
         .values({ ...input, clinicId: actor.clinicId, connection: input.connection ?? null })
@@ -153,6 +135,106 @@ export async function addInstrument(actor: Actor, input: NewInstrumentInput) {
     }
     throw error;
   }
+}
+
+/** The bridge and printout profile an instrument names must be the clinic's; 400 on the field otherwise. */
+async function checkInstrumentLinks(tx: Tx, actor: Actor, input: NewInstrumentInput) {
+  if (input.bridgeId) {
+    const [bridge] = await tx
+      .select({ id: bridges.id })
+      .from(bridges)
+      .where(and(eq(bridges.id, input.bridgeId), eq(bridges.clinicId, actor.clinicId)));
+    if (!bridge) throw new ApiError(400, 'invalid_request', 'That bridge is not one of this clinic’s.', [
+      { path: 'bridgeId', message: 'Unknown bridge.' },
+    ]);
+  }
+  if (input.profileId) {
+    const [profile] = await tx
+      .select({ key: printoutProfiles.profileKey })
+      .from(printoutProfiles)
+      .where(and(eq(printoutProfiles.profileKey, input.profileId), eq(printoutProfiles.clinicId, actor.clinicId)))
+      .limit(1);
+    if (!profile) throw new ApiError(400, 'invalid_request', 'That printout profile is not one of this clinic’s.', [
+      { path: 'profileId', message: 'Unknown profile.' },
+    ]);
+  }
+}
+
+const instrumentEditable = (i: NewInstrumentInput) => ({
+  name: i.name,
+  analytes: i.analytes,
+  dialect: i.dialect,
+  serialNumber: i.serialNumber ?? null,
+  bridgeId: i.bridgeId ?? null,
+  profileId: i.profileId ?? null,
+  connection: i.connection ?? null,
+});
+
+/**
+ * Saves an edited instrument. The code stays: bridges send it with every record (spooled ones too), so a
+ * new code is a new instrument. The audit event lists what changed.
+ */
+export async function updateInstrument(actor: Actor, instrumentId: string, input: NewInstrumentInput) {
+  const database = await db();
+  return database.transaction(async (tx) => {
+    const [before] = await tx
+      .select()
+      .from(instruments)
+      .where(and(eq(instruments.id, instrumentId), eq(instruments.clinicId, actor.clinicId)))
+      .for('update');
+    if (!before) throw notFound('The instrument');
+    if (input.code !== before.code) {
+      throw new ApiError(400, 'invalid_request', 'The code cannot change: the bridge sends it with every reading. Add a new instrument instead.', [
+        { path: 'code', message: `Keep “${before.code}”.` },
+      ]);
+    }
+    await checkInstrumentLinks(tx, actor, input);
+    const values = instrumentEditable(input);
+    const changed = Object.keys(values).filter(
+      (k) => JSON.stringify(before[k as keyof typeof values] ?? null) !== JSON.stringify(values[k as keyof typeof values] ?? null),
+    );
+    if (!changed.length) return before;
+    const [instrument] = await tx.update(instruments).set(values).where(eq(instruments.id, instrumentId)).returning();
+    await recordAudit(tx, {
+      clinicId: actor.clinicId,
+      actorUserId: actor.userId,
+      action: 'instrument.updated',
+      entityType: 'instrument',
+      entityId: instrumentId,
+      details: { code: before.code, changed, before: Object.fromEntries(changed.map((k) => [k, before[k as keyof typeof before]])) },
+    });
+    return instrument;
+  });
+}
+
+/**
+ * Retires an instrument (the bridge stops reading it; it is offered for no new test) or returns it to
+ * service. Nothing is deleted: its readings keep pointing at it, and late records from a bridge's spool
+ * are still stored under it.
+ */
+export async function setInstrumentInService(actor: Actor, instrumentId: string, input: { active: boolean; reason: string }) {
+  const database = await db();
+  return database.transaction(async (tx) => {
+    const [instrument] = await tx
+      .update(instruments)
+      .set({ active: input.active })
+      .where(and(eq(instruments.id, instrumentId), eq(instruments.clinicId, actor.clinicId), eq(instruments.active, !input.active)))
+      .returning();
+    if (!instrument) {
+      const [exists] = await tx.select({ id: instruments.id }).from(instruments).where(and(eq(instruments.id, instrumentId), eq(instruments.clinicId, actor.clinicId)));
+      if (!exists) throw notFound('The instrument');
+      throw new ApiError(409, 'unchanged', input.active ? 'This instrument is already in service.' : 'This instrument is already retired.');
+    }
+    await recordAudit(tx, {
+      clinicId: actor.clinicId,
+      actorUserId: actor.userId,
+      action: input.active ? 'instrument.returned_to_service' : 'instrument.retired',
+      entityType: 'instrument',
+      entityId: instrumentId,
+      details: { code: instrument.code, reason: input.reason },
+    });
+    return instrument;
+  });
 }
 
 /** Instruments whose link needs a person: disconnected, in error, or sending what looks like line noise. */

@@ -1,7 +1,7 @@
 import 'server-only';
-import { and, asc, eq, sql } from 'drizzle-orm';
+import { and, asc, eq, isNull, sql } from 'drizzle-orm';
 import { db } from '@/db/client';
-import { clinics, staffUsers } from '@/db/schema';
+import { clinics, staffSessions, staffUsers, type StaffUser } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { decoyHash, hashPassword, verifyPassword } from '@/lib/auth/password';
 import { recordAudit } from '@/lib/audit';
@@ -13,15 +13,21 @@ const isUniqueViolation = (error: unknown) =>
   typeof error === 'object' && error !== null && ((error as { code?: string }).code === '23505' ||
     (error as { cause?: { code?: string } }).cause?.code === '23505');
 
-/** Checks e-mail and password; the same answer and similar time whether the address exists or not. */
-export async function authenticate(email: string, password: string) {
+export type SignInRefusal = 'wrong_credentials' | 'deactivated';
+
+/**
+ * Checks e-mail and password; the same answer and similar time whether the address exists or not.
+ * Only someone who knows the password learns that the account is deactivated (so they can ask an administrator).
+ */
+export async function authenticate(email: string, password: string): Promise<{ user: StaffUser } | { refused: SignInRefusal }> {
   const database = await db();
   const [user] = await database
     .select()
     .from(staffUsers)
     .where(sql`lower(${staffUsers.email}) = ${email.toLowerCase()}`);
   const ok = await verifyPassword(password, user?.passwordHash ?? (await decoyHash()));
-  if (!user || !ok || !user.active) return null;
+  if (!user || !ok) return { refused: 'wrong_credentials' };
+  if (!user.active) return { refused: 'deactivated' };
   await database.transaction(async (tx) => {
     await tx.update(staffUsers).set({ lastSignInAt: new Date() }).where(eq(staffUsers.id, user.id));
     await recordAudit(tx, {
@@ -32,7 +38,7 @@ export async function authenticate(email: string, password: string) {
       entityId: user.id,
     });
   });
-  return user;
+  return { user };
 }
 
 export async function clinicCount(): Promise<number> {
@@ -73,6 +79,7 @@ const staffColumns = {
   displayName: staffUsers.displayName,
   role: staffUsers.role,
   active: staffUsers.active,
+  mustChangePassword: staffUsers.mustChangePassword,
   createdAt: staffUsers.createdAt,
   lastSignInAt: staffUsers.lastSignInAt,
 };
@@ -140,6 +147,64 @@ export async function updateStaff(actor: Actor, userId: string, change: { role?:
     });
     if (change.active === false) await publishSessionEnded(tx, { userId });
     return user;
+  });
+}
+
+/**
+ * An administrator sets a temporary password for someone who forgot theirs: the person's open sessions
+ * end, and they must choose their own password at the next sign-in. The password itself is never audited.
+ */
+export async function setTemporaryPassword(actor: Actor, userId: string, password: string) {
+  const passwordHash = await hashPassword(password);
+  const database = await db();
+  return database.transaction(async (tx) => {
+    const [user] = await tx
+      .update(staffUsers)
+      .set({ passwordHash, mustChangePassword: userId !== actor.userId })
+      .where(and(eq(staffUsers.id, userId), eq(staffUsers.clinicId, actor.clinicId)))
+      .returning(staffColumns);
+    if (!user) throw notFound('The staff member');
+    const ended = await tx
+      .update(staffSessions)
+      .set({ endedAt: new Date() })
+      .where(and(eq(staffSessions.userId, userId), isNull(staffSessions.endedAt)))
+      .returning({ id: staffSessions.id });
+    await recordAudit(tx, {
+      clinicId: actor.clinicId,
+      actorUserId: actor.userId,
+      action: 'staff.temporary_password_set',
+      entityType: 'staff_user',
+      entityId: userId,
+      details: { sessionsEnded: ended.length },
+    });
+    return user;
+  });
+}
+
+/** Whether the person must choose a new password before using Benchwire (after a temporary one). */
+export async function mustChangePassword(userId: string): Promise<boolean> {
+  const database = await db();
+  const [row] = await database.select({ must: staffUsers.mustChangePassword }).from(staffUsers).where(eq(staffUsers.id, userId));
+  return row?.must ?? false;
+}
+
+/** The signed-in person replaces their password, proving the current one; clears "must change". */
+export async function changeOwnPassword(actor: Actor, input: { currentPassword: string; newPassword: string }) {
+  const database = await db();
+  const [user] = await database.select().from(staffUsers).where(eq(staffUsers.id, actor.userId));
+  if (!user || !(await verifyPassword(input.currentPassword, user.passwordHash))) {
+    throw new ApiError(400, 'invalid_request', 'The current password is not right.', [{ path: 'currentPassword', message: 'Not right.' }]);
+  }
+  const passwordHash = await hashPassword(input.newPassword);
+  await database.transaction(async (tx) => {
+    await tx.update(staffUsers).set({ passwordHash, mustChangePassword: false }).where(eq(staffUsers.id, actor.userId));
+    await recordAudit(tx, {
+      clinicId: actor.clinicId,
+      actorUserId: actor.userId,
+      action: 'staff.password_changed',
+      entityType: 'staff_user',
+      entityId: actor.userId,
+    });
   });
 }
 

@@ -1,5 +1,7 @@
 import Link from 'next/link';
+import { redirect } from 'next/navigation';
 import { requirePageActor } from '@/lib/auth/current';
+import { mustChangePassword } from '@/lib/staff';
 import { allowed, roleLabel } from '@/lib/auth/roles';
 import { BrandMark } from '@/app/components/ui';
 import { ActorProvider } from './actor';
@@ -12,6 +14,7 @@ export const dynamic = 'force-dynamic';
 
 export default async function ClinicLayout({ children }: { children: React.ReactNode }) {
   const actor = await requirePageActor();
+  if (await mustChangePassword(actor.userId)) redirect('/change-password');
   return (
     <LiveProvider>
       <ActorProvider actor={{ userId: actor.userId, role: actor.role, displayName: actor.displayName }}>

@@ -24,6 +24,7 @@ export function revalidates(event: LiveEvent): string[] {
   if (family === 'order') keys.push('/api/orders', '/api/readings');
   if (family === 'review') keys.push('/api/reviews');
   if (family === 'alert') keys.push('/api/alerts');
+  if (family === 'patient') keys.push('/api/patients', '/api/readings', '/api/orders');
   if (family === 'settings') keys.push('/api/admin/clinical', '/api/patients', '/api/readings', '/api/orders');
   if (event.patientId) keys.push(`/api/patients/${event.patientId}`);
   return keys;

@@ -8,6 +8,8 @@ export const can = {
   assignReadings: ['admin', 'veterinarian', 'technician'],
   voidReadings: ['admin', 'veterinarian', 'technician'],
   reviewResults: ['veterinarian'],
+  /** Register, edit, close and merge patient records (and their owners). */
+  managePatients: ['admin', 'veterinarian', 'technician'],
   manageClinic: ['admin'],
 } as const satisfies Record<string, readonly StaffRole[]>;
 

@@ -17,7 +17,10 @@ async function parse<T>(response: Response): Promise<T> {
   if (!response.ok) {
     const error = body?.error ?? {};
     const message =
-      response.status === 401 ? 'Your session has ended. Reload the page to sign in again.' : (error.message ?? `Request failed (${response.status}).`);
+      // Only a missing or ended session is "session ended"; a refused sign-in says why itself.
+      response.status === 401 && error.code === 'unauthenticated'
+        ? 'Your session has ended. Reload the page to sign in again.'
+        : (error.message ?? `Request failed (${response.status}).`);
     throw new ApiClientError(response.status, error.code ?? 'error', message, error.issues);
   }
   return body as T;

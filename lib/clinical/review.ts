@@ -1,6 +1,6 @@
 import 'server-only';
 import { and, asc, desc, eq, inArray, isNull, sql } from 'drizzle-orm';
-import { db } from '@/db/client';
+import { db, type Tx } from '@/db/client';
 import { instruments, patients, readings, resultAlerts, resultAssignments, resultReviews, staffUsers } from '@/db/schema';
 import { requirePermission, type Actor } from '@/lib/auth/guards';
 import { recordAudit } from '@/lib/audit';
@@ -18,40 +18,67 @@ const mustReview = (actor: Actor) => {
 export async function reviewResult(actor: Actor, readingId: string, input: { comment?: string; reviewed: boolean }) {
   mustReview(actor);
   const database = await db();
+  return database.transaction((tx) => reviewInTx(tx, actor, readingId, input));
+}
+
+/**
+ * Signs off several results at once (from the Review list), each with the same optional comment, in one
+ * transaction: all or none. A result that is no longer on a record or already signed off refuses the lot
+ * with a 409 naming it, so the veterinarian sees the list as it is now before signing again.
+ */
+export async function signOffResults(actor: Actor, readingIds: string[], comment?: string) {
+  mustReview(actor);
+  const database = await db();
   return database.transaction(async (tx) => {
-    const reading = await lockReading(tx, actor, readingId);
-    if (reading.status !== 'assigned') throw new ApiError(409, 'not_assigned', 'Only a result on a patient’s record can be reviewed.');
-    const [assignment] = await tx
-      .select()
-      .from(resultAssignments)
-      .where(and(eq(resultAssignments.readingId, readingId), isNull(resultAssignments.endedAt)));
-    if (input.reviewed) {
-      const [already] = await tx
-        .select({ id: resultReviews.id })
-        .from(resultReviews)
-        .where(and(eq(resultReviews.assignmentId, assignment.id), eq(resultReviews.kind, 'reviewed')));
-      if (already) throw new ApiError(409, 'already_reviewed', 'This result is already signed off; add a comment instead.');
+    const done = [];
+    // A fixed order, so two overlapping batches lock their readings in the same order.
+    for (const [index, readingId] of [...new Set(readingIds)].sort().entries()) {
+      try {
+        done.push(await reviewInTx(tx, actor, readingId, { comment, reviewed: true }));
+      } catch (error) {
+        if (error instanceof ApiError && error.status < 500) {
+          throw new ApiError(error.status, error.code, `Nothing was signed off: ${error.message}`, [{ path: `readingIds.${index}`, message: error.message }], { readingId });
+        }
+        throw error;
+      }
     }
-    const rows = [];
-    if (input.comment) rows.push({ kind: 'comment' as const, comment: input.comment });
-    if (input.reviewed) rows.push({ kind: 'reviewed' as const, comment: null });
-    const inserted = await tx
-      .insert(resultReviews)
-      .values(rows.map((r) => ({ ...r, clinicId: actor.clinicId, readingId, assignmentId: assignment.id, reviewerId: actor.userId })))
-      .returning();
-    for (const row of inserted) {
-      await recordAudit(tx, {
-        clinicId: actor.clinicId,
-        actorUserId: actor.userId,
-        action: row.kind === 'reviewed' ? 'reading.reviewed' : 'reading.commented',
-        entityType: 'reading',
-        entityId: readingId,
-        details: { patientId: reading.patientId, assignmentId: assignment.id, reviewId: row.id, ...(row.comment ? { comment: row.comment } : {}) },
-      });
-    }
-    await publish(tx, { type: 'review.created', clinicId: actor.clinicId, id: readingId, patientId: reading.patientId! });
-    return { readingId, reviews: inserted };
+    return { signedOff: done.map((d) => d.readingId) };
   });
+}
+
+async function reviewInTx(tx: Tx, actor: Actor, readingId: string, input: { comment?: string; reviewed: boolean }) {
+  const reading = await lockReading(tx, actor, readingId);
+  if (reading.status !== 'assigned') throw new ApiError(409, 'not_assigned', 'Only a result on a patient’s record can be reviewed.');
+  const [assignment] = await tx
+    .select()
+    .from(resultAssignments)
+    .where(and(eq(resultAssignments.readingId, readingId), isNull(resultAssignments.endedAt)));
+  if (input.reviewed) {
+    const [already] = await tx
+      .select({ id: resultReviews.id })
+      .from(resultReviews)
+      .where(and(eq(resultReviews.assignmentId, assignment.id), eq(resultReviews.kind, 'reviewed')));
+    if (already) throw new ApiError(409, 'already_reviewed', `${reading.analyte} is already signed off; add a comment instead.`);
+  }
+  const rows = [];
+  if (input.comment) rows.push({ kind: 'comment' as const, comment: input.comment });
+  if (input.reviewed) rows.push({ kind: 'reviewed' as const, comment: null });
+  const inserted = await tx
+    .insert(resultReviews)
+    .values(rows.map((r) => ({ ...r, clinicId: actor.clinicId, readingId, assignmentId: assignment.id, reviewerId: actor.userId })))
+    .returning();
+  for (const row of inserted) {
+    await recordAudit(tx, {
+      clinicId: actor.clinicId,
+      actorUserId: actor.userId,
+      action: row.kind === 'reviewed' ? 'reading.reviewed' : 'reading.commented',
+      entityType: 'reading',
+      entityId: readingId,
+      details: { patientId: reading.patientId, assignmentId: assignment.id, reviewId: row.id, ...(row.comment ? { comment: row.comment } : {}) },
+    });
+  }
+  await publish(tx, { type: 'review.created', clinicId: actor.clinicId, id: readingId, patientId: reading.patientId! });
+  return { readingId, reviews: inserted };
 }
 
 /** Comments and sign-offs per reading for its current assignment, oldest first. */

@@ -24,7 +24,9 @@ export async function loadPatientForPlacement(tx: Tx, clinicId: string, patientI
       attendingVetId: patients.attendingVetId,
     })
     .from(patients)
-    .where(and(eq(patients.id, patientId), eq(patients.clinicId, clinicId)));
+    .where(and(eq(patients.id, patientId), eq(patients.clinicId, clinicId)))
+    // Held until commit, so a merge or closing of this record waits for the placement (and then sees it).
+    .for('share');
   if (!patient) throw notFound('The patient');
   if (!patient.active) throw new ApiError(409, 'patient_inactive', 'This patient’s record is closed.');
   return patient;

@@ -6,6 +6,7 @@ import type { Actor } from '@/lib/auth/guards';
 import { analyteContexts, intervalContexts } from '@/lib/clinical/config';
 import { criticalBeforeAssignment } from '@/lib/clinical/evaluate';
 import { notFound } from '@/lib/http';
+import { historyForPatient } from './history';
 
 const readingColumns = {
   id: readings.id,
@@ -67,8 +68,11 @@ export async function listReadings(
   }));
 }
 
-/** One reading with its audit history, oldest first. */
-export async function getReading(actor: Actor, readingId: string) {
+/**
+ * One reading with its audit history, oldest first. Seen from a patient's chart (`asSeenBy`), comments and
+ * sign-offs written for another patient are left out (they stay with the patient they were written for).
+ */
+export async function getReading(actor: Actor, readingId: string, asSeenBy?: { patientId: string }) {
   const database = await db();
   const [reading] = await database
     .select(readingColumns)
@@ -95,6 +99,7 @@ export async function getReading(actor: Actor, readingId: string) {
       ),
     )
     .orderBy(asc(auditEvents.at), asc(auditEvents.id));
+  if (asSeenBy) return { ...reading, history: await historyForPatient(actor.clinicId, readingId, asSeenBy.patientId, history) };
   return { ...reading, history };
 }
 

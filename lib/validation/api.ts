@@ -100,6 +100,25 @@ export const newInstrumentSchema = z.object({
 
 export type NewInstrumentInput = z.infer<typeof newInstrumentSchema>;
 
+/** Retire an instrument or return it to service, with a reason for the audit trail. */
+export const instrumentServiceSchema = z.object({
+  active: z.boolean(),
+  reason: z.string().trim().min(3, 'Say why (e.g. replaced by the new analyzer).').max(500),
+});
+
+/** An administrator sets a temporary password; the person chooses their own at the next sign-in. */
+export const temporaryPasswordSchema = z.object({ password });
+
+export const changeOwnPasswordSchema = z
+  .object({
+    currentPassword: z.string().min(1, 'Enter the password you signed in with.').max(200),
+    newPassword: password,
+    confirmPassword: z.string().max(200),
+  })
+  .refine((v) => v.newPassword === v.confirmPassword, { path: ['confirmPassword'], message: 'The two new passwords differ.' })
+  .refine((v) => v.newPassword !== v.currentPassword, { path: ['newPassword'], message: 'Choose a password different from the temporary one.' });
+export type ChangeOwnPasswordInput = z.infer<typeof changeOwnPasswordSchema>;
+
 export const readingStatusQuery = z.object({
   status: z.enum(['unassigned', 'assigned', 'voided', 'all']).default('unassigned'),
   limit: z.coerce.number().int().min(1).max(500).default(100),
@@ -159,3 +178,19 @@ export const previewProfileSchema = z.object({
   definition: profileDefinitionSchema,
   sample: z.string().max(256 * 1024, 'Paste at most 256 KB of printout.'),
 });
+
+const calendarDay = z.string().regex(/^\d{4}-\d{2}-\d{2}$/, 'Use a date (YYYY-MM-DD).');
+const blankToUndefined = (v: unknown) => (v === '' ? undefined : v);
+
+/** The admin audit viewer's filters (query string). */
+export const auditQuery = z
+  .object({
+    patientId: z.preprocess(blankToUndefined, z.uuid('Not a valid patient id.').optional()),
+    actorUserId: z.preprocess(blankToUndefined, z.uuid('Not a valid person id.').optional()),
+    action: z.preprocess(blankToUndefined, z.string().trim().max(80).regex(/^[a-z_.-]+$/, 'Not an action name.').optional()),
+    from: z.preprocess(blankToUndefined, calendarDay.optional()),
+    to: z.preprocess(blankToUndefined, calendarDay.optional()),
+    before: z.preprocess(blankToUndefined, z.coerce.number().int().positive().optional()),
+    limit: z.coerce.number().int().min(1).max(200).default(50),
+  })
+  .refine((v) => !v.from || !v.to || v.from <= v.to, { path: ['to'], message: 'The end date is before the start date.' });

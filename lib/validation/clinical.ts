@@ -55,6 +55,12 @@ export const reviewSchema = z
   })
   .refine((v) => v.reviewed || v.comment, { message: 'Write a comment or sign the result off as reviewed.', path: ['comment'] });
 
+/** Sign-off of one or many results from the Review list, with one optional comment for all of them. */
+export const signOffSchema = z.object({
+  readingIds: z.array(z.uuid('Not a valid result id.')).min(1, 'Choose at least one result to sign off.').max(200, 'Sign off at most 200 results at once.'),
+  comment: optionalText(2000),
+});
+
 export const acknowledgeSchema = z.object({ note: optionalText(500, true) });
 
 export const alertsQuery = z.object({

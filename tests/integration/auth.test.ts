@@ -92,17 +92,30 @@ describe('sign-in', () => {
     expect(unknownEmail.headers.get('set-cookie')).toBeNull();
   });
 
-  it('refuses an inactive staff member with the same 401 body, even with the right password', async () => {
+  it('tells a deactivated staff member so (403) only with the right password; a wrong one gets the generic 401', async () => {
+    // Issue 8: the sign-in form must say when the account is deactivated. Only someone who knows the
+    // password learns it, so the generic answer above still hides which addresses exist.
     const reference = await body(await signInWith('nobody@fernhollow.example', DEMO_PASSWORD));
     await database.db.update(staffUsers).set({ active: false }).where(eq(staffUsers.email, 'vet2@fernhollow.example'));
     try {
       const response = await signInWith('vet2@fernhollow.example', DEMO_PASSWORD);
-      expect(response.status).toBe(401);
-      expect(await body(response)).toEqual(reference);
+      expect(response.status).toBe(403); // RFC 9110 §15.5.4: understood, refused
+      const { error } = await body(response);
+      expect(error.code).toBe('account_deactivated');
+      expect(error.message).toMatch(/deactivated/);
       expect(response.headers.get('set-cookie')).toBeNull();
+      const wrong = await signInWith('vet2@fernhollow.example', 'not-the-password');
+      expect(wrong.status).toBe(401);
+      expect(await body(wrong)).toEqual(reference);
     } finally {
       await database.db.update(staffUsers).set({ active: true }).where(eq(staffUsers.email, 'vet2@fernhollow.example'));
     }
+  });
+
+  it('says the e-mail or password is wrong, not that a session ended', async () => {
+    const { error } = await body(await signInWith('tech@fernhollow.example', 'not-the-password'));
+    expect(error.message).toMatch(/e-mail address or the password is wrong/);
+    expect(error.message).not.toMatch(/session/i);
   });
 
   it('answers 400 for a body that is not a sign-in, 415 for a non-JSON body', async () => {

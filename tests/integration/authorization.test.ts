@@ -6,6 +6,8 @@ import * as adminRevoke from '@/app/api/admin/bridges/[bridgeId]/revoke/route';
 import * as adminInstruments from '@/app/api/admin/instruments/route';
 import * as adminStaff from '@/app/api/admin/staff/route';
 import * as adminStaffMember from '@/app/api/admin/staff/[userId]/route';
+import * as adminStaffPassword from '@/app/api/admin/staff/[userId]/password/route';
+import * as adminAudit from '@/app/api/admin/audit/route';
 import * as me from '@/app/api/auth/me/route';
 import * as signOut from '@/app/api/auth/sign-out/route';
 import * as heartbeat from '@/app/api/bridge/heartbeat/route';
@@ -125,6 +127,15 @@ const ADMIN_ROUTES: Call[] = [
     context: () => params({ userId: ids.staff }),
     body: () => ({ role: 'admin' }),
   },
+  {
+    name: 'POST /api/admin/staff/[id]/password',
+    handler: adminStaffPassword.POST,
+    method: 'POST',
+    path: '/api/admin/staff/x/password',
+    context: () => params({ userId: ids.staff }),
+    body: () => ({ password: 'a-temporary-pass-1' }),
+  },
+  { name: 'GET /api/admin/audit', handler: adminAudit.GET, method: 'GET', path: '/api/admin/audit', context: none },
   { name: 'GET /api/admin/bridges', handler: adminBridges.GET, method: 'GET', path: '/api/admin/bridges', context: none },
   {
     name: 'POST /api/admin/bridges',

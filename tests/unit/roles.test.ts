@@ -11,6 +11,8 @@ const EXPECTED: Record<Permission, Record<(typeof ROLES)[number], boolean>> = {
   voidReadings: { admin: true, veterinarian: true, technician: true },
   reviewResults: { admin: false, veterinarian: true, technician: false },
   manageClinic: { admin: true, veterinarian: false, technician: false },
+  // Issue 8: "Technicians, veterinarians and admins may register" patients.
+  managePatients: { admin: true, veterinarian: true, technician: true },
 };
 
 describe('roles', () => {

@@ -16,8 +16,8 @@ export function SignInForm() {
   const onSubmit = handleSubmit(async (values) => {
     setFailure(null);
     try {
-      await send('/api/auth/sign-in', 'POST', values);
-      router.replace('/intake');
+      const { user } = await send<{ user: { mustChangePassword: boolean } }>('/api/auth/sign-in', 'POST', values);
+      router.replace(user.mustChangePassword ? '/change-password' : '/intake');
       router.refresh();
     } catch (error) {
       setFailure(error instanceof Error ? error.message : 'Sign-in failed.');
@@ -26,7 +26,11 @@ export function SignInForm() {
 
   return (
     <form onSubmit={onSubmit} noValidate className="space-y-4">
-      {failure && <Notice tone="error">{failure}</Notice>}
+      {failure && (
+        <Notice tone="error" data-testid="sign-in-error">
+          {failure}
+        </Notice>
+      )}
       <Field id="email" label="E-mail" error={errors.email?.message}>
         <input
           id="email"

@@ -7,6 +7,7 @@ import { Field, Notice, buttonClass, inputClass } from '@/app/components/ui';
 import { fetcher, send } from '@/lib/client/fetcher';
 import { formatDateTime, timeAgo } from '@/lib/format';
 import { newBridgeSchema, type NewBridgeInput } from '@/lib/validation/api';
+import { CopyButton } from '@/app/components/copy-button';
 import { Panel, td, th } from './panel';
 
 type Bridge = {
@@ -54,6 +55,7 @@ export function BridgesPanel() {
         <div className="mb-4 rounded-lg border border-signal-500 bg-signal-100 p-3 text-sm">
           <p className="font-semibold">Token for {issued.name}: copy it now, it is shown only once.</p>
           <code className="mt-1 block break-all rounded bg-white p-2 font-mono text-xs" data-testid="issued-token">{issued.token}</code>
+          <div className="mt-2"><CopyButton text={issued.token} label="Copy token" /></div>
           <p className="mt-1 text-ink-700">On the lab PC: <code className="font-mono">BENCHWIRE_BRIDGE_TOKEN=… npm run bridge -- run …</code></p>
           <button type="button" className={`${buttonClass.quiet} mt-2`} onClick={() => setIssued(null)}>I have stored it</button>
         </div>

@@ -2,6 +2,7 @@
 import { useState } from 'react';
 import useSWR from 'swr';
 import { useForm, useWatch } from 'react-hook-form';
+import { Modal } from '@/app/components/modal';
 import { Field, Notice, buttonClass, inputClass } from '@/app/components/ui';
 import { fetcher, send } from '@/lib/client/fetcher';
 import { timeAgo } from '@/lib/format';
@@ -74,14 +75,40 @@ function toInput(v: FormValues) {
   };
 }
 
+/** The flat form filled from a saved instrument, for editing. */
+function fromInstrument(i: Instrument): FormValues {
+  const c = i.connection;
+  return {
+    code: i.code,
+    name: i.name,
+    analytes: i.analytes.join(', '),
+    dialect: i.dialect,
+    serialNumber: i.serialNumber ?? '',
+    bridgeId: i.bridgeId ?? '',
+    profileId: i.profileId ?? '',
+    decimalMark: i.readSettings?.decimalMark ?? 'point',
+    receivingApplication: i.readSettings?.receivingApplication ?? '',
+    kind: !c ? 'none' : c.kind === 'serial' ? 'serial' : c.mode === 'listen' ? 'tcp-listen' : 'tcp',
+    path: c?.kind === 'serial' ? c.path : '/dev/ttyUSB0',
+    baudRate: c?.kind === 'serial' ? String(c.baudRate) : '9600',
+    dataBits: c?.kind === 'serial' ? String(c.dataBits) : '8',
+    parity: c?.kind === 'serial' ? c.parity : 'none',
+    stopBits: c?.kind === 'serial' ? String(c.stopBits) : '1',
+    host: c?.kind === 'tcp' ? c.host : '',
+    port: c?.kind === 'tcp' ? String(c.port) : '',
+  };
+}
+
+const EMPTY_FORM: Partial<FormValues> = { dialect: 'plain-printout', decimalMark: 'point', kind: 'serial', baudRate: '9600', dataBits: '8', parity: 'none', stopBits: '1', path: '/dev/ttyUSB0' };
+
 export function InstrumentsPanel() {
   const { data, mutate } = useSWR<{ instruments: Instrument[] }>('/api/admin/instruments', fetcher, { refreshInterval: 30_000 });
   const bridges = useSWR<{ bridges: Bridge[] }>('/api/admin/bridges', fetcher);
   const profiles = useSWR<{ profiles: { key: string; name: string; version: number }[] }>('/api/admin/profiles', fetcher);
   const [message, setMessage] = useState<{ tone: 'ok' | 'error'; text: string } | null>(null);
-  const { register, handleSubmit, control, reset, setError, formState } = useForm<FormValues>({
-    defaultValues: { dialect: 'plain-printout', decimalMark: 'point', kind: 'serial', baudRate: '9600', dataBits: '8', parity: 'none', stopBits: '1', path: '/dev/ttyUSB0' },
-  });
+  const [editing, setEditing] = useState<Instrument | null>(null);
+  const [service, setService] = useState<Instrument | null>(null);
+  const { register, handleSubmit, control, reset, setError, setFocus, formState } = useForm<FormValues>({ defaultValues: EMPTY_FORM });
   const { errors, isSubmitting } = formState;
   const kind = useWatch({ control, name: 'kind' });
   const dialect = useWatch({ control, name: 'dialect' });
@@ -97,14 +124,24 @@ export function InstrumentsPanel() {
       return;
     }
     try {
-      await send('/api/admin/instruments', 'POST', parsed.data);
-      setMessage({ tone: 'ok', text: `${parsed.data.name} added.` });
-      reset();
+      if (editing) await send(`/api/admin/instruments/${editing.id}`, 'PATCH', parsed.data);
+      else await send('/api/admin/instruments', 'POST', parsed.data);
+      setMessage({ tone: 'ok', text: `${parsed.data.name} ${editing ? 'saved' : 'added'}.` });
+      setEditing(null);
+      reset(EMPTY_FORM);
       await mutate();
     } catch (error) {
-      setMessage({ tone: 'error', text: error instanceof Error ? error.message : 'Could not add.' });
+      setMessage({ tone: 'error', text: error instanceof Error ? error.message : 'Could not save.' });
     }
   });
+
+  const startEdit = (i: Instrument) => {
+    setMessage(null);
+    setEditing(i);
+    reset(fromInstrument(i));
+    // After the form shows the instrument: straight to its first editable field.
+    setTimeout(() => setFocus('name'), 0);
+  };
 
   const text = (name: keyof FormValues, label: string, extra: React.InputHTMLAttributes<HTMLInputElement> = {}) => (
     <Field id={`instrument-${name}`} label={label} error={errors[name]?.message}>
@@ -125,26 +162,35 @@ export function InstrumentsPanel() {
             <th scope="col" className={th}>Connection</th>
             <th scope="col" className={th}>Bridge</th>
             <th scope="col" className={th}>Link</th>
+            <th scope="col" className={th}><span className="sr-only">Actions</span></th>
           </tr>
         </thead>
         <tbody className="divide-y divide-ink-100">
           {data?.instruments.map((i) => (
-            <tr key={i.id}>
-              <td className={td}>{i.name}{i.serialNumber && <span className="block text-xs text-ink-500">S/N {i.serialNumber}</span>}</td>
+            <tr key={i.id} className={i.active ? undefined : 'text-ink-500'} data-instrument-code={i.code}>
+              <td className={td}>{i.name}{!i.active && ' (retired)'}{i.serialNumber && <span className="block text-xs text-ink-500">S/N {i.serialNumber}</span>}</td>
               <td className={`${td} font-mono`}>{i.code}</td>
               <td className={td}>{i.analytes.join(', ')}</td>
               <td className={td}>{DIALECT_LABELS[i.dialect] ?? i.dialect}</td>
               <td className={`${td} font-mono text-xs`}>{describeConnection(i.connection)}</td>
               <td className={td}>{i.bridgeName ?? '—'}</td>
-              <td className={td}><HealthCell health={i.health} /></td>
+              <td className={td}>{i.active ? <HealthCell health={i.health} /> : 'retired'}</td>
+              <td className={`${td} whitespace-nowrap text-right`}>
+                <button type="button" className={`${buttonClass.quiet} mr-3`} onClick={() => startEdit(i)} aria-label={`Edit ${i.name}`}>Edit</button>
+                <button type="button" className={buttonClass.quiet} onClick={() => setService(i)} aria-label={`${i.active ? 'Retire' : 'Return to service'} ${i.name}`}>
+                  {i.active ? 'Retire…' : 'Return to service…'}
+                </button>
+              </td>
             </tr>
           ))}
         </tbody>
       </table>
-      <form onSubmit={add} noValidate className="space-y-3">
+      {service && <ServiceDialog instrument={service} onClose={(changed) => { setService(null); if (changed) void mutate(); }} />}
+      <form onSubmit={add} noValidate className="space-y-3" aria-label={editing ? `Edit ${editing.name}` : 'Add an instrument'}>
+        {editing && <p className="text-sm font-semibold">Editing {editing.name} <span className="font-mono font-normal">({editing.code})</span></p>}
         <div className="grid gap-3 sm:grid-cols-2 lg:grid-cols-4">
           {text('name', 'Name', { placeholder: 'Electrolyte analyzer (bench 3)' })}
-          {text('code', 'Code (sent by the bridge)', { placeholder: 'lyte-analyzer' })}
+          {text('code', editing ? 'Code (sent by the bridge; cannot change)' : 'Code (sent by the bridge)', { placeholder: 'lyte-analyzer', readOnly: Boolean(editing) })}
           {text('analytes', 'Tests (comma-separated)', { placeholder: 'Na, K, Cl' })}
           <Field id="instrument-dialect" label="Reads as" error={errors.dialect?.message}>
             <select id="instrument-dialect" className={inputClass} {...register('dialect')}>
@@ -215,8 +261,50 @@ export function InstrumentsPanel() {
             {text('port', 'Port', { inputMode: 'numeric', placeholder: '4001' })}
           </div>
         )}
-        <button type="submit" className={buttonClass.primary} disabled={isSubmitting}>Add instrument</button>
+        <div className="flex flex-wrap gap-2">
+          <button type="submit" className={buttonClass.primary} disabled={isSubmitting}>{editing ? 'Save instrument' : 'Add instrument'}</button>
+          {editing && (
+            <button type="button" className={buttonClass.secondary} onClick={() => { setEditing(null); reset(EMPTY_FORM); }}>Cancel editing</button>
+          )}
+        </div>
       </form>
     </Panel>
+  );
+}
+
+/** Retire (the bridge stops reading it, its readings keep their history) or return to service, with a reason. */
+function ServiceDialog({ instrument, onClose }: { instrument: Instrument; onClose: (changed: boolean) => void }) {
+  const [reason, setReason] = useState('');
+  const [failure, setFailure] = useState<string | null>(null);
+  const retiring = instrument.active;
+  const submit = async (e: React.FormEvent) => {
+    e.preventDefault();
+    setFailure(null);
+    try {
+      await send(`/api/admin/instruments/${instrument.id}/service`, 'POST', { active: !retiring, reason });
+      onClose(true);
+    } catch (error) {
+      setFailure(error instanceof Error ? error.message : 'Could not save.');
+    }
+  };
+  return (
+    <Modal title={`${retiring ? 'Retire' : 'Return to service'}: ${instrument.name}`} onClose={() => onClose(false)}>
+      <form onSubmit={submit} noValidate className="space-y-3 text-sm">
+        <p>
+          {retiring
+            ? 'The bridge stops reading it and it is offered for no new test. Its readings stay where they are, with their history; records still in a bridge’s spool are stored under it.'
+            : 'The bridge reads it again at its next configuration check, and it can be chosen for new tests.'}
+        </p>
+        <Field id="instrument-service-reason" label="Reason (required)" error={failure ?? undefined}>
+          <input id="instrument-service-reason" className={inputClass} value={reason} onChange={(e) => setReason(e.target.value)} autoFocus />
+        </Field>
+        <div className="flex justify-end gap-2">
+          <button type="button" className={buttonClass.secondary} onClick={() => onClose(false)}>Cancel</button>
+          <button type="submit" className={retiring ? buttonClass.danger : buttonClass.primary} disabled={reason.trim().length < 3}>
+            {retiring ? 'Retire instrument' : 'Return to service'}
+          </button>
+        </div>
+      </form>
+    </Modal>
   );
 }

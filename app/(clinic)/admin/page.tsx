@@ -15,9 +15,14 @@ export default async function AdminPage() {
   return (
     <>
       <PageHeader title="Clinic administration">
-        <Link href="/admin/profiles" className={buttonClass.secondary}>
-          Printout profiles
-        </Link>
+        <div className="flex flex-wrap gap-2">
+          <Link href="/admin/audit" className={buttonClass.secondary}>
+            Audit trail
+          </Link>
+          <Link href="/admin/profiles" className={buttonClass.secondary}>
+            Printout profiles
+          </Link>
+        </div>
       </PageHeader>
       <div className="space-y-10">
         <StaffPanel selfId={actor.userId} />

@@ -9,8 +9,17 @@ import { ROLES, roleLabel } from '@/lib/auth/roles';
 import { formatDateTime } from '@/lib/format';
 import { newStaffSchema, type NewStaffInput } from '@/lib/validation/api';
 import { Panel, td, th } from './panel';
+import { ConfirmDialog, TemporaryPasswordDialog } from './staff-dialogs';
 
-type Staff = { id: string; email: string; displayName: string; role: NewStaffInput['role']; active: boolean; lastSignInAt: string | null };
+type Staff = {
+  id: string;
+  email: string;
+  displayName: string;
+  role: NewStaffInput['role'];
+  active: boolean;
+  mustChangePassword: boolean;
+  lastSignInAt: string | null;
+};
 
 export function StaffPanel({ selfId }: { selfId: string }) {
   const { data, mutate } = useSWR<{ staff: Staff[] }>('/api/admin/staff', fetcher);
@@ -32,13 +41,13 @@ export function StaffPanel({ selfId }: { selfId: string }) {
     }
   });
 
-  const setActive = async (person: Staff, active: boolean) => {
-    try {
-      await send(`/api/admin/staff/${person.id}`, 'PATCH', { active });
-      await mutate();
-    } catch (error) {
-      setMessage({ tone: 'error', text: error instanceof Error ? error.message : 'Could not change.' });
-    }
+  const [pending, setPending] = useState<
+    { kind: 'deactivate' | 'reactivate'; person: Staff } | { kind: 'role'; person: Staff; role: Staff['role'] } | { kind: 'password'; person: Staff } | null
+  >(null);
+  const patch = async (person: Staff, change: { active?: boolean; role?: Staff['role'] }, done: string) => {
+    await send(`/api/admin/staff/${person.id}`, 'PATCH', change);
+    setMessage({ tone: 'ok', text: done });
+    await mutate();
   };
 
   return (
@@ -59,19 +68,87 @@ export function StaffPanel({ selfId }: { selfId: string }) {
             <tr key={p.id} className={p.active ? undefined : 'text-ink-500'}>
               <td className={td}>{p.displayName}{!p.active && ' (deactivated)'}</td>
               <td className={td}>{p.email}</td>
-              <td className={td}>{roleLabel[p.role]}</td>
+              <td className={td}>
+                {p.id === selfId || !p.active ? (
+                  roleLabel[p.role]
+                ) : (
+                  <select
+                    aria-label={`Role of ${p.displayName}`}
+                    className={`${inputClass} w-auto py-1`}
+                    value={p.role}
+                    onChange={(e) => setPending({ kind: 'role', person: p, role: e.target.value as Staff['role'] })}
+                  >
+                    {ROLES.map((r) => (
+                      <option key={r} value={r}>{roleLabel[r]}</option>
+                    ))}
+                  </select>
+                )}
+                {p.mustChangePassword && <span className="block text-xs text-signal-600">temporary password</span>}
+              </td>
               <td className={td}>{formatDateTime(p.lastSignInAt)}</td>
               <td className={`${td} text-right`}>
                 {p.id !== selfId && (
-                  <button type="button" className={buttonClass.quiet} onClick={() => setActive(p, !p.active)}>
-                    {p.active ? 'Deactivate' : 'Reactivate'}
-                  </button>
+                  <span className="inline-flex flex-wrap justify-end gap-x-3 gap-y-1">
+                    {p.active && (
+                      <button type="button" className={buttonClass.quiet} onClick={() => setPending({ kind: 'password', person: p })}>
+                        Temporary password…
+                      </button>
+                    )}
+                    <button type="button" className={buttonClass.quiet} onClick={() => setPending({ kind: p.active ? 'deactivate' : 'reactivate', person: p })}>
+                      {p.active ? 'Deactivate…' : 'Reactivate…'}
+                    </button>
+                  </span>
                 )}
               </td>
             </tr>
           ))}
         </tbody>
       </table>
+      {pending?.kind === 'deactivate' && (
+        <ConfirmDialog
+          title={`Deactivate ${pending.person.displayName}?`}
+          confirmLabel="Deactivate"
+          danger
+          onClose={() => setPending(null)}
+          onConfirm={() => patch(pending.person, { active: false }, `${pending.person.displayName} can no longer sign in.`)}
+        >
+          <p>
+            {pending.person.displayName} ({pending.person.email}) is signed out everywhere and can no longer sign in. Their name stays on
+            everything they did. You can reactivate them later.
+          </p>
+        </ConfirmDialog>
+      )}
+      {pending?.kind === 'reactivate' && (
+        <ConfirmDialog
+          title={`Reactivate ${pending.person.displayName}?`}
+          confirmLabel="Reactivate"
+          onClose={() => setPending(null)}
+          onConfirm={() => patch(pending.person, { active: true }, `${pending.person.displayName} can sign in again.`)}
+        >
+          <p>They can sign in again with their password, as {roleLabel[pending.person.role]}.</p>
+        </ConfirmDialog>
+      )}
+      {pending?.kind === 'role' && (
+        <ConfirmDialog
+          title={`Change ${pending.person.displayName}’s role?`}
+          confirmLabel={`Make ${roleLabel[pending.role]}`}
+          onClose={() => setPending(null)}
+          onConfirm={() => patch(pending.person, { role: pending.role }, `${pending.person.displayName} is now ${roleLabel[pending.role]}.`)}
+        >
+          <p>
+            From {roleLabel[pending.person.role]} to {roleLabel[pending.role]}: what they may do changes at their next request.
+          </p>
+        </ConfirmDialog>
+      )}
+      {pending?.kind === 'password' && (
+        <TemporaryPasswordDialog
+          person={pending.person}
+          onClose={(saved) => {
+            setPending(null);
+            if (saved) void mutate();
+          }}
+        />
+      )}
       <form onSubmit={add} noValidate className="grid gap-3 sm:grid-cols-2 lg:grid-cols-5 lg:items-end">
         <Field id="staff-name" label="Name" error={errors.displayName?.message}>
           <input id="staff-name" className={inputClass} aria-invalid={!!errors.displayName} {...register('displayName')} />

@@ -1,15 +1,23 @@
 import type { Metadata } from 'next';
 import { requirePageActor } from '@/lib/auth/current';
-import { PageHeader } from '@/app/components/ui';
+import Link from 'next/link';
+import { allowed } from '@/lib/auth/roles';
+import { PageHeader, buttonClass } from '@/app/components/ui';
 import { PatientSearch } from './patient-search';
 
 export const metadata: Metadata = { title: 'Patients' };
 
 export default async function PatientsPage() {
-  await requirePageActor('readResults');
+  const actor = await requirePageActor('readResults');
   return (
     <>
-      <PageHeader title="Patients" />
+      <PageHeader title="Patients">
+        {allowed(actor.role, 'managePatients') && (
+          <Link href="/patients/new" className={buttonClass.primary}>
+            New patient
+          </Link>
+        )}
+      </PageHeader>
       <PatientSearch />
     </>
   );

@@ -2,7 +2,7 @@
 import Link from 'next/link';
 import { useState } from 'react';
 import useSWR from 'swr';
-import { Notice, buttonClass } from '@/app/components/ui';
+import { Notice, buttonClass, inputClass } from '@/app/components/ui';
 import type { StaffRole } from '@/db/schema';
 import { fetcher, send } from '@/lib/client/fetcher';
 import { formatMeasured } from '@/lib/clinical/evaluate';
@@ -38,6 +38,39 @@ export function ReviewBoard({ role }: { role: StaffRole }) {
   const alerts = useSWR<{ alerts: AlertRow[] }>(`/api/alerts?status=open&mine=${mine ? 1 : 0}`, fetcher);
   const unreviewed = useSWR<{ results: UnreviewedRow[] }>(`/api/reviews/unreviewed?mine=${mine ? 1 : 0}`, fetcher);
   const [failure, setFailure] = useState<string | null>(null);
+  const [selected, setSelected] = useState<Set<string>>(new Set());
+  const [comment, setComment] = useState('');
+  const [signing, setSigning] = useState(false);
+  const [signFailure, setSignFailure] = useState<string | null>(null);
+  const [signed, setSigned] = useState<string | null>(null);
+  const canSign = role === 'veterinarian';
+  const rows = unreviewed.data?.results ?? [];
+  const shown = rows.filter((r) => selected.has(r.id));
+  const allChosen = rows.length > 0 && shown.length === rows.length;
+  const toggle = (id: string) =>
+    setSelected((s) => {
+      const next = new Set(s);
+      if (next.has(id)) next.delete(id);
+      else next.add(id);
+      return next;
+    });
+
+  const signOff = async (ids: string[]) => {
+    setSignFailure(null);
+    setSigned(null);
+    setSigning(true);
+    try {
+      const result = await send<{ signedOff: string[] }>('/api/reviews/sign-off', 'POST', { readingIds: ids, comment: comment.trim() || undefined });
+      setSigned(`Signed off ${result.signedOff.length} result${result.signedOff.length === 1 ? '' : 's'}${comment.trim() ? ' with your comment' : ''}.`);
+      setSelected(new Set());
+      setComment('');
+    } catch (error) {
+      setSignFailure(error instanceof Error ? error.message : 'Could not sign off.');
+    } finally {
+      setSigning(false);
+      void unreviewed.mutate();
+    }
+  };
 
   const acknowledge = async (id: string) => {
     setFailure(null);
@@ -84,23 +117,70 @@ export function ReviewBoard({ role }: { role: StaffRole }) {
         <h2 id="unreviewed-heading" className="mb-3 text-lg font-semibold">
           Not yet reviewed
         </h2>
+        {signed && <Notice tone="ok">{signed}</Notice>}
+        {signFailure && <Notice tone="error">{signFailure}</Notice>}
         {unreviewed.data?.results.length === 0 && <p className="text-sm text-ink-500">Everything is signed off.</p>}
+        {canSign && rows.length > 0 && (
+          <form
+            className="mb-3 flex flex-wrap items-end gap-3 rounded-lg border border-ink-100 bg-white p-3 shadow-sm"
+            aria-label="Sign off the chosen results"
+            onSubmit={(e) => {
+              e.preventDefault();
+              if (shown.length) void signOff(shown.map((r) => r.id));
+            }}
+          >
+            <div className="min-w-0 flex-1 basis-64">
+              <label htmlFor="signoff-comment" className="mb-1 block text-sm font-medium">
+                Comment for the chosen results (optional)
+              </label>
+              <input id="signoff-comment" className={inputClass} value={comment} onChange={(e) => setComment(e.target.value)} maxLength={2000} />
+            </div>
+            <button type="submit" className={buttonClass.primary} disabled={signing || shown.length === 0} data-testid="sign-off-selected">
+              {signing ? 'Signing off…' : shown.length ? `Sign off ${shown.length} chosen` : 'Choose results to sign off'}
+            </button>
+          </form>
+        )}
         {unreviewed.data && unreviewed.data.results.length > 0 && (
           <div className="overflow-x-auto rounded-lg border border-ink-100 bg-white shadow-sm">
             <table className="min-w-full divide-y divide-ink-100 text-sm" data-testid="unreviewed-results">
               <thead className="bg-paper-deep/60 text-left text-xs uppercase tracking-wide text-ink-700">
                 <tr>
+                  {canSign && (
+                    <th scope="col" className="px-4 py-2">
+                      <input
+                        type="checkbox"
+                        aria-label="Choose all results listed"
+                        checked={allChosen}
+                        onChange={() => setSelected(allChosen ? new Set() : new Set(rows.map((r) => r.id)))}
+                      />
+                    </th>
+                  )}
                   <th scope="col" className="px-4 py-2">Patient</th>
                   <th scope="col" className="px-4 py-2">Test</th>
                   <th scope="col" className="px-4 py-2">Result</th>
                   <th scope="col" className="px-4 py-2">Flag</th>
                   <th scope="col" className="px-4 py-2">Measured</th>
                   <th scope="col" className="px-4 py-2">Attending</th>
+                  {canSign && (
+                    <th scope="col" className="px-4 py-2">
+                      <span className="sr-only">Sign off</span>
+                    </th>
+                  )}
                 </tr>
               </thead>
               <tbody className="divide-y divide-ink-100">
                 {unreviewed.data.results.map((r) => (
-                  <tr key={r.id} data-unreviewed-id={r.id}>
+                  <tr key={r.id} data-unreviewed-id={r.id} className={selected.has(r.id) ? 'bg-ink-100/60' : undefined}>
+                    {canSign && (
+                      <td className="px-4 py-2">
+                        <input
+                          type="checkbox"
+                          aria-label={`Choose ${r.analyte} of ${r.patientName}`}
+                          checked={selected.has(r.id)}
+                          onChange={() => toggle(r.id)}
+                        />
+                      </td>
+                    )}
                     <td className="px-4 py-2">
                       <Link href={`/patients/${r.patientId}`} className="font-medium underline-offset-2 hover:underline">
                         {r.patientName}
@@ -114,6 +194,19 @@ export function ReviewBoard({ role }: { role: StaffRole }) {
                     </td>
                     <td className="whitespace-nowrap px-4 py-2">{formatDateTime(r.measuredAt ?? r.receivedAt)}</td>
                     <td className="px-4 py-2">{r.attendingVetName ?? '—'}</td>
+                    {canSign && (
+                      <td className="px-4 py-2 text-right">
+                        <button
+                          type="button"
+                          className={buttonClass.quiet}
+                          disabled={signing}
+                          onClick={() => void signOff([r.id])}
+                          aria-label={`Sign off ${r.analyte} of ${r.patientName}${comment.trim() ? ' with the comment' : ''}`}
+                        >
+                          Sign off
+                        </button>
+                      </td>
+                    )}
                   </tr>
                 ))}
               </tbody>

@@ -29,6 +29,7 @@ const ACTION_LABEL: Record<string, string> = {
   'reading.reviewed': 'Signed off as reviewed',
   'reading.commented': 'Comment',
   'reading.critical-acknowledged': 'Critical result acknowledged',
+  'reading.merged': 'Came with a merged duplicate record',
 };
 
 const METHOD_LABEL: Record<string, string> = {
@@ -62,7 +63,8 @@ export function ResultDetail({
 }) {
   const actor = useActor();
   const detail = useSWR<{ reading: { history: HistoryEntry[]; raw: string; instrumentRange: string | null; resultStatus: string | null } }>(
-    `/api/readings/${result.id}`,
+    // As seen from this chart: another patient's comments and sign-offs stay with that patient.
+    `/api/readings/${result.id}?patientId=${patientId}`,
     fetcher,
   );
   const sent = detail.data?.reading;

@@ -5,9 +5,15 @@ import { signInSchema } from '@/lib/validation/api';
 
 export const POST = apiRoute(async (request) => {
   const { email, password } = await readJson(request, signInSchema, { limit: BODY_LIMITS.small });
-  const user = await authenticate(email, password);
-  if (!user) throw new ApiError(401, 'invalid_credentials', 'That e-mail and password do not match an active account.');
-  const response = json({ user: { id: user.id, displayName: user.displayName, role: user.role } });
+  const result = await authenticate(email, password);
+  if ('refused' in result) {
+    if (result.refused === 'deactivated') {
+      throw new ApiError(403, 'account_deactivated', 'This account is deactivated. Ask your clinic’s administrator to reactivate it.');
+    }
+    throw new ApiError(401, 'invalid_credentials', 'The e-mail address or the password is wrong.');
+  }
+  const { user } = result;
+  const response = json({ user: { id: user.id, displayName: user.displayName, role: user.role, mustChangePassword: user.mustChangePassword } });
   response.cookies.set(await startSession(user));
   return response;
 });
