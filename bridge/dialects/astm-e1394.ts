@@ -12,7 +12,8 @@ import type { Dialect } from './dialect';
 // is the n-th piece when the record is split on the field delimiter. The H record defines the
 // delimiters: H.1 "H", then field, repeat, component and escape delimiter (usually |\^&).
 //   P.3 practice-assigned patient ID (P.4, P.5 lab-assigned / third patient ID as fallbacks)
-//   O.3 specimen ID (O.4 instrument specimen ID as fallback)
+//   O.3 specimen ID (O.4 instrument specimen ID as fallback); O.12 action code, "Q" = treat the specimen
+//   as a quality-control specimen
 //   R.3 universal test ID ^^^local code, R.4 value, R.5 units, R.6 reference range, R.7 abnormal
 //   flags, R.9 result status, R.13 date/time test completed, R.14 instrument identification
 //   H.5 sender name or ID (name^version^serial by common practice)
@@ -177,6 +178,7 @@ function readResult(
     instrumentSerial: record.firstComponent(14) || context.serial,
     referenceRange: record.component(6) || null,
     resultStatus: RESULT_STATUS[status] ?? null,
+    specimenRole: context.order && context.order.component(12).toUpperCase() === 'Q' ? 'control' : undefined,
     raw: context.raw,
   });
   if (reading.success) return reading.data;

@@ -12,6 +12,7 @@ import type { AnswerContext, Dialect } from './dialect';
 // in every other segment SEG-n is the piece after n separators.
 //   PID-3 patient identifier list (PID-2 as fallback) → patientRef
 //   OBR-3 filler order number, else OBR-2 placer order number → sampleId; OBR-7 observation time
+//   SPM-11 specimen role (v2.5 table 0369): "Q" = control specimen; the SPM of an OBR's group may follow its OBXs
 //   OBX-2 value type, OBX-3 observation identifier, OBX-5 value, OBX-6 units (CE/CWE identifier),
 //   OBX-7 reference range, OBX-8 abnormal flags, OBX-11 result status, OBX-14 observation time,
 //   OBX-18 equipment instance identifier → instrumentSerial
@@ -125,26 +126,35 @@ export function parseOru(frame: RecordFrame): ParserOutput[] {
   const outputs: ParserOutput[] = [];
   let pid: Segment | undefined;
   let obr: Segment | undefined;
+  let spm: Segment | undefined;
   for (let i = 0; i < segments.length; i++) {
     const segment = segments[i];
     if (segment.id === 'PID') {
       pid = segment;
       obr = undefined;
+      spm = undefined;
     } else if (segment.id === 'OBR') {
       obr = segment;
+      spm = undefined;
+      for (let j = i + 1; j < segments.length && segments[j].id !== 'OBR' && segments[j].id !== 'PID'; j++) {
+        if (segments[j].id === 'SPM') {
+          spm = segments[j];
+          break;
+        }
+      }
     } else if (segment.id === 'OBX') {
       const notes: Segment[] = [];
       while (segments[i + 1]?.id === 'NTE') notes.push(segments[++i]);
       // A reading's raw: the segments it was read from, in the order sent.
       const raw = rawOf([msh, pid, obr, segment, ...notes].filter((s): s is Segment => !!s).map((s) => s.line));
-      outputs.push(readObservation(segment, { pid, obr, raw }));
+      outputs.push(readObservation(segment, { pid, obr, spm, raw }));
     }
   }
   if (outputs.length === 0) return [fragment(frame.raw, 'message holds no results (no OBX segment)')];
   return outputs;
 }
 
-function readObservation(obx: Segment, context: { pid?: Segment; obr?: Segment; raw: string }): ParserOutput {
+function readObservation(obx: Segment, context: { pid?: Segment; obr?: Segment; spm?: Segment; raw: string }): ParserOutput {
   const seq = obx.get(1) || '?';
   const analyte = obx.get(3, 1) || obx.get(3, 2);
   const fail = (reason: string) => fragment(context.raw, `OBX ${seq}${analyte ? ` ${analyte}` : ''}: ${reason}`);
@@ -188,6 +198,7 @@ function readObservation(obx: Segment, context: { pid?: Segment; obr?: Segment; 
     instrumentSerial: obx.get(18) || null,
     referenceRange: obx.get(7) || null,
     resultStatus: RESULT_STATUS[status] ?? null,
+    specimenRole: context.spm?.get(11, 1).toUpperCase() === 'Q' ? 'control' : undefined,
     raw: context.raw,
   });
   if (reading.success) return reading.data;

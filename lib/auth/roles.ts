@@ -9,6 +9,8 @@ export const can = {
   voidReadings: ['admin', 'veterinarian', 'technician'],
   reviewResults: ['veterinarian'],
   manageClinic: ['admin'],
+  /** Lab quality records: kit lots, the temperature log, control materials, QC runs, verifications. */
+  manageQuality: ['admin', 'technician'],
 } as const satisfies Record<string, readonly StaffRole[]>;
 
 export type Permission = keyof typeof can;

@@ -14,6 +14,7 @@ export const LIVE_EVENT_TYPES = [
   'alert.created',
   'alert.acknowledged',
   'settings.updated',
+  'quality.updated',
 ] as const;
 
 export type LiveEventType = (typeof LIVE_EVENT_TYPES)[number];

@@ -63,3 +63,8 @@ export function temperatureMark(
   if (range.maxC !== null && entry.temperatureC > range.maxC) return `room ${entry.temperatureC} °C, above the instrument's ${range.maxC} °C`;
   return null;
 }
+
+/** The calendar day (YYYY-MM-DD) an instant falls on in a time zone. */
+export function localDay(at: Date, timeZone: string): string {
+  return new Intl.DateTimeFormat('en-CA', { timeZone, year: 'numeric', month: '2-digit', day: '2-digit' }).format(at);
+}

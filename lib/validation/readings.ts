@@ -21,6 +21,8 @@ export const parsedReadingSchema = z.object({
   referenceRange: z.string().trim().max(64).nullable().default(null),
   /** The instrument's own result status (ASTM R.9, HL7 OBX-11); null when it sends none. */
   resultStatus: z.enum(RESULT_STATUSES).nullable().default(null),
+  /** 'control' when the analyzer marks the specimen as QC (ASTM O.12 action code Q, HL7 SPM-11 role Q). */
+  specimenRole: z.enum(['patient', 'control']).optional(),
   raw: z.string().max(65536),
 });
 export type ParsedReading = z.infer<typeof parsedReadingSchema>;
