@@ -22,11 +22,12 @@ export default async function ClinicLayout({ children }: { children: React.React
               <BrandMark />
               Benchwire
             </Link>
-            <nav aria-label="Main" className="flex gap-1">
+            <nav aria-label="Main" className="flex flex-wrap gap-1">
               <NavLink href="/intake">Intake</NavLink>
               <NavLink href="/bench">Bench</NavLink>
               <NavLink href="/patients">Patients</NavLink>
               <NavLink href="/reviews">Review</NavLink>
+              <NavLink href="/qc">QC</NavLink>
               {allowed(actor.role, 'manageClinic') && <NavLink href="/admin">Admin</NavLink>}
             </nav>
             <div className="ml-auto flex items-center gap-4 text-sm">

@@ -10,6 +10,7 @@ import { AssignDialog } from './assign-dialog';
 import { UnparsedCaptures } from './unparsed-captures';
 import { SuggestedMatch } from './suggested-match';
 import { VoidDialog } from './void-dialog';
+import { MarkControlButton } from './mark-control';
 
 type Serialized<T> = { [K in keyof T]: T[K] extends Date ? string : T[K] extends Date | null ? string | null : T[K] };
 export type IntakeReading = Serialized<ReadingView>;
@@ -127,6 +128,13 @@ export function IntakeBoard() {
                         <button type="button" className={buttonClass.secondary} onClick={() => setVoiding(r)}>
                           Void…
                         </button>
+                        <MarkControlButton
+                          readingId={r.id}
+                          onDone={(message) => {
+                            setDone(message);
+                            void readings.mutate();
+                          }}
+                        />
                       </div>
                     </td>
                   </tr>
