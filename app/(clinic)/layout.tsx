@@ -4,6 +4,7 @@ import { allowed, roleLabel } from '@/lib/auth/roles';
 import { BrandMark } from '@/app/components/ui';
 import { ActorProvider } from './actor';
 import { AlertNotifier } from './alert-notifier';
+import { BridgeOfflineNotifier } from './bridge-offline-notifier';
 import { LiveProvider, LiveStatus } from './live';
 import { NavLink } from './nav-link';
 import { SignOutButton } from './sign-out-button';
@@ -40,6 +41,7 @@ export default async function ClinicLayout({ children }: { children: React.React
             </div>
           </div>
         </header>
+        <BridgeOfflineNotifier />
         <main className="mx-auto w-full max-w-7xl flex-1 px-4 py-6">{children}</main>
       </div>
       </ActorProvider>

@@ -15,6 +15,7 @@ export const LIVE_EVENT_TYPES = [
   'alert.acknowledged',
   'settings.updated',
   'quality.updated',
+  'instrument.health',
 ] as const;
 
 export type LiveEventType = (typeof LIVE_EVENT_TYPES)[number];

@@ -83,6 +83,9 @@ export const bridgeHeartbeatSchema = z.object({
         warnings: z.array(z.string().max(200)).max(10).optional(),
         bytesReceived: z.number().int().min(0).optional(),
         lastByteAt: z.iso.datetime({ offset: true }).optional(),
+        /** Frames the instrument had to repeat after a bad checksum, and other broken frames, since the bridge started. */
+        checksumRetransmissions: z.number().int().min(0).optional(),
+        framingErrors: z.number().int().min(0).optional(),
       }),
     )
     .max(64)

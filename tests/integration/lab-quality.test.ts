@@ -13,6 +13,8 @@ import { GET as kitLotsRoute, POST as kitLotRoute } from '@/app/api/quality/kit-
 import { POST as materialRoute } from '@/app/api/quality/materials/route';
 import { POST as establishRoute } from '@/app/api/quality/materials/[materialId]/establish/route';
 import { GET as qcRoute } from '@/app/api/quality/qc/route';
+import { GET as healthRoute } from '@/app/api/quality/health/route';
+import { POST as heartbeatRoute } from '@/app/api/bridge/heartbeat/route';
 import { POST as temperatureRoute } from '@/app/api/quality/temperatures/route';
 import { POST as verificationRoute } from '@/app/api/quality/verifications/route';
 import { POST as assignRoute } from '@/app/api/readings/[readingId]/assign/route';
@@ -218,5 +220,26 @@ describe('reference-interval verification', () => {
     expect((await body(three)).verification.decision).toBe('test-second-set');
     const short = await verificationRoute(request('/api/quality/verifications', { cookie: tech, body: { intervalId: interval.id, values: inside.slice(1) } }), undefined);
     expect(short.status).toBe(400);
+  });
+});
+
+describe('instrument and bridge health', () => {
+  it('shows the heartbeat’s port state and link-error counts, open captures, the last reading, the loaded lot and QC', async () => {
+    const beat = await heartbeatRoute(
+      request('/api/bridge/heartbeat', {
+        token,
+        body: { spoolDepth: 0, sources: [{ instrument: CODE, state: 'open', bytesReceived: 900, lastByteAt: new Date().toISOString(), checksumRetransmissions: 2, framingErrors: 1 }] },
+      }),
+      undefined,
+    );
+    expect(beat.status).toBeLessThan(300);
+    await ingest(token, [{ key: 'labq-unparsed-0001', instrument: CODE, receivedAt: new Date().toISOString(), payload: { kind: 'unparsed', raw: '%%garbled%%', reason: 'no RESULT line' } }]);
+    const health = await body(await healthRoute(request('/api/quality/health', { cookie: tech }), undefined));
+    const row = health.instruments.find((i: { code: string }) => i.code === CODE);
+    expect(row).toMatchObject({ port: 'open', checksumRetransmissions: 2, framingErrors: 1, openCaptures: 1 });
+    expect(row.lastReadingAt).not.toBeNull();
+    expect(row.kitLots.map((l: { lotNumber: string }) => l.lotNumber)).toEqual(expect.arrayContaining(['L-TEST-1', 'L-OLD']));
+    expect(row.qc).toEqual([{ analyte: 'cCRP', status: 'accepted' }]);
+    expect(health.bridges.every((b: { offline: boolean }) => b.offline === false)).toBe(true);
   });
 });
