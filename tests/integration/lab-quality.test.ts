@@ -2,7 +2,7 @@
 // the analyzer's own control marker, by hand in Intake), kit counting (patient, QC and aborted runs),
 // the "QC failed" mark on the next patient result after a 1-3s rejection, room-temperature marks and
 // reference-interval verification. Rule definitions: see tests/unit/quality-*.test.ts for sources.
-import { eq } from 'drizzle-orm';
+import { and, eq } from 'drizzle-orm';
 import { beforeAll, describe, expect, it } from 'vitest';
 import { POST as addInstrumentRoute } from '@/app/api/admin/instruments/route';
 import { GET as chartRoute } from '@/app/api/patients/[patientId]/results/route';
@@ -21,7 +21,7 @@ import { POST as assignRoute } from '@/app/api/readings/[readingId]/assign/route
 import { POST as markControlRoute } from '@/app/api/readings/[readingId]/control/route';
 import { GET as readingsRoute } from '@/app/api/readings/route';
 import type { Database } from '@/db/client';
-import { readings, referenceIntervals } from '@/db/schema';
+import { readings, referenceIntervals, roomTemperatureLogs } from '@/db/schema';
 import { localDay } from '@/lib/quality/kits';
 import { seededDatabase } from '../helpers/db';
 import { params, request, signIn } from '../helpers/http';
@@ -186,6 +186,9 @@ describe('room temperature', () => {
       params({ instrumentId }),
     );
     expect(set.status).toBe(200);
+    // The demo seed logged today's temperature: take it away to start from a day without an entry.
+    const day = localDay(new Date(), 'Europe/London');
+    await database.db.delete(roomTemperatureLogs).where(and(eq(roomTemperatureLogs.clinicId, clinicId), eq(roomTemperatureLogs.day, day)));
     const r = await send({ value: 17 });
     const patient = await patientByRecord(database.db, clinicId, 'FH-1003');
     const assigned = await assignRoute(request(`/api/readings/${r.id}/assign`, { cookie: tech, body: { patientId: patient.id } }), params({ readingId: r.id }));
@@ -196,7 +199,6 @@ describe('room temperature', () => {
       );
     const before = await chart();
     expect(before.quality.map((m: { code: string }) => m.code)).toEqual(['kit-expired', 'room-temperature']);
-    const day = localDay(new Date(), 'UTC');
     const hot = await temperatureRoute(request('/api/quality/temperatures', { cookie: tech, body: { day, temperatureC: 27.5 } }), undefined);
     expect(hot.status).toBe(201);
     expect((await chart()).quality.find((m: { code: string }) => m.code === 'room-temperature').detail).toMatch(/above the instrument's 25 °C/);
@@ -241,5 +243,41 @@ describe('instrument and bridge health', () => {
     expect(row.kitLots.map((l: { lotNumber: string }) => l.lotNumber)).toEqual(expect.arrayContaining(['L-TEST-1', 'L-OLD']));
     expect(row.qc).toEqual([{ analyte: 'cCRP', status: 'accepted' }]);
     expect(health.bridges.every((b: { offline: boolean }) => b.offline === false)).toBe(true);
+  });
+});
+
+describe('the demo clinic’s lab-quality records (seed)', () => {
+  it('has QC for every analyte the demo analyzers send, one rejected CRP run (1-3s) followed by an accepted rerun, and every test accepted now', async () => {
+    const qc = await body(await qcRoute(request('/api/quality/qc', { cookie: tech }), undefined));
+    const demo = qc.status.filter((s: { instrumentId: string }) => s.instrumentId !== instrumentId);
+    const analytes = demo.map((s: { analyte: string }) => s.analyte).sort();
+    expect(analytes).toEqual(['ALB', 'ALP', 'ALT', 'BUN', 'CREA', 'GLU', 'HCT', 'HGB', 'PLT', 'RBC', 'TP', 'WBC', 'cCRP'].sort());
+    for (const s of demo) expect([s.analyte, s.status]).toEqual([s.analyte, 'accepted']);
+    const crp = demo.find((s: { analyte: string }) => s.analyte === 'cCRP');
+    const rejected = crp.rejections.filter((r: { status: string }) => r.status === 'rejected');
+    expect(rejected).toHaveLength(1);
+    expect(rejected[0].violations.map((v: { rule: string }) => v.rule)).toEqual(['1-3s']);
+    const others = demo.filter((s: { analyte: string }) => s.analyte !== 'cCRP').flatMap((s: { rejections: { status: string }[] }) => s.rejections.filter((r) => r.status === 'rejected'));
+    expect(others).toEqual([]);
+    // Sigma for every control of every analyte, each with its TEa source.
+    for (const s of qc.sigma) {
+      expect(s.teaSource).toBeTruthy();
+      for (const m of s.perMaterial) expect(m.sigma).toBeGreaterThan(0);
+    }
+  });
+
+  it('has kit lots loaded for every analyte with tests counted, and a verified CRP interval', async () => {
+    const lots = (await body(await kitLotsRoute(request('/api/quality/kit-lots', { cookie: tech }), undefined))).kitLots;
+    const demoLots = lots.filter((l: { instrumentId: string | null }) => l.instrumentId && l.instrumentId !== instrumentId);
+    expect(demoLots).toHaveLength(13);
+    const crp = demoLots.find((l: { analyte: string }) => l.analyte === 'cCRP');
+    // 5 days × 2 levels + the rerun = 11 QC runs on the current CRP lot of 20 tests; it expires within 30 days.
+    expect(crp.usage.qc).toBe(11);
+    expect(crp.stock.nearExpiry).toBe(true);
+    const { GET } = await import('@/app/api/quality/verifications/route');
+    const list = (await body(await GET(request('/api/quality/verifications', { cookie: tech }), undefined))).verifications;
+    const seeded = list.find((v: { note: string | null }) => v.note?.includes('demo data'));
+    expect(seeded).toMatchObject({ analyte: 'cCRP', decision: 'accepted' });
+    expect(seeded.result.first).toMatchObject({ n: 20, outside: 1 });
   });
 });
