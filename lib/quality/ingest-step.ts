@@ -15,11 +15,7 @@ import { clinicClock, loadedLot, matchControlMaterial } from './store';
 //     a lot past its expiry date on the day of the run marks the reading 'kit-expired'.
 //  3. A patient reading of an analyte whose latest QC run on that instrument was rejected is marked 'qc-failed'.
 
-export const QUALITY_MARKS = {
-  'qc-failed': 'QC failed',
-  'kit-expired': 'Expired kit lot',
-} as const;
-export type QualityMark = keyof typeof QUALITY_MARKS;
+import type { QualityMark } from './labels';
 
 export function isQcSampleId(sampleId: string | null, pattern: string): boolean {
   if (!sampleId || !pattern) return false;

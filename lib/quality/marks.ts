@@ -2,7 +2,7 @@ import 'server-only';
 import { and, eq, inArray } from 'drizzle-orm';
 import type { Executor } from '@/db/client';
 import { instruments, kitLots, roomTemperatureLogs } from '@/db/schema';
-import { QUALITY_MARKS, type QualityMark } from './ingest-step';
+import { QUALITY_MARK_DETAIL, QUALITY_MARKS, type QualityMark } from './labels';
 import { localDay, temperatureMark } from './kits';
 import { clinicClock } from './store';
 
@@ -55,7 +55,7 @@ export async function qualityMarksFor(tx: Executor, clinicId: string, rows: Mark
     const marks: ResultQualityMark[] = [];
     for (const code of row.qualityMarks ?? []) {
       if (code === 'qc-failed') {
-        marks.push({ code, label: QUALITY_MARKS[code], detail: 'QC for this test on this instrument was rejected when the result arrived; verify after an accepted QC run.' });
+        marks.push({ code, label: QUALITY_MARKS[code], detail: QUALITY_MARK_DETAIL[code] });
       } else if (code === 'kit-expired') {
         const lot = row.kitLotId ? lotOf.get(row.kitLotId) : undefined;
         marks.push({ code, label: QUALITY_MARKS[code], detail: lot ? `Kit lot ${lot.lotNumber} expired on ${lot.expiresOn}.` : 'The kit lot had expired.' });

@@ -11,6 +11,8 @@ import { UnparsedCaptures } from './unparsed-captures';
 import { SuggestedMatch } from './suggested-match';
 import { VoidDialog } from './void-dialog';
 import { MarkControlButton } from './mark-control';
+import { QualityMarks } from '@/app/components/quality-marks';
+import { markViews } from '@/lib/quality/labels';
 
 type Serialized<T> = { [K in keyof T]: T[K] extends Date ? string : T[K] extends Date | null ? string | null : T[K] };
 export type IntakeReading = Serialized<ReadingView>;
@@ -99,6 +101,7 @@ export function IntakeBoard() {
                     <td className="px-4 py-3 font-medium">{r.analyte}</td>
                     <td className="whitespace-nowrap px-4 py-3 font-mono text-base font-semibold" data-testid="reading-value">
                       {formatValue(r)}
+                      <QualityMarks marks={markViews(r.qualityMarks)} />
                     </td>
                     <td className="px-4 py-3">
                       {r.sampleId || r.patientRef ? (

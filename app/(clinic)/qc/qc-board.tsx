@@ -29,6 +29,7 @@ export function QcBoard() {
   const { data, error } = useQc();
   const { role } = useActor();
   const canManage = role === 'admin' || role === 'technician';
+  const [only, setOnly] = useState('');
   if (error) return <Notice tone="error">{error.message}</Notice>;
   if (!data) return <p className="text-sm text-ink-500">Loading QC…</p>;
   return (
@@ -39,8 +40,17 @@ export function QcBoard() {
           Controls and Levey-Jennings charts
         </h2>
         {data.controls.length === 0 && <p className="text-sm text-ink-500">No control materials yet.</p>}
+        <div className="flex items-center gap-2 text-sm">
+          <label htmlFor="qc-only">Show controls for</label>
+          <select id="qc-only" className={`${inputClass} w-auto`} value={only} onChange={(e) => setOnly(e.target.value)}>
+            <option value="">every test</option>
+            {[...new Set(data.controls.map((c) => c.analyte))].map((a) => (
+              <option key={a}>{a}</option>
+            ))}
+          </select>
+        </div>
         <div className="grid gap-4 lg:grid-cols-2">
-          {data.controls.map((c) => (
+          {data.controls.filter((c) => !only || c.analyte === only).map((c) => (
             <ControlCard key={c.id} control={c} canManage={canManage} />
           ))}
         </div>
