@@ -52,8 +52,25 @@ describe('LinkHealth', () => {
     health.observe(Buffer.from([0x00, 0x01, 0xff]));
     expect(health.unreadableShare()).toBeUndefined();
     health.note('frame 2: checksum 00 is wrong; NAK');
-    expect(health.status()).toEqual({ warnings: ['1 protocol problem(s) in the last 15 min, last: frame 2: checksum 00 is wrong; NAK'], bytesReceived: 3, lastByteAt: '2026-12-01T14:00:00' + health.status().lastByteAt?.slice(19) });
+    expect(health.status()).toEqual({
+      warnings: ['1 protocol problem(s) in the last 15 min, last: frame 2: checksum 00 is wrong; NAK'],
+      bytesReceived: 3,
+      lastByteAt: '2026-12-01T14:00:00' + health.status().lastByteAt?.slice(19),
+      checksumRetransmissions: 1,
+      framingErrors: 0,
+    });
     now = new Date(now.getTime() + 16 * 60_000);
     expect(health.status().warnings).toEqual([]);
+  });
+
+  it('counts checksum retransmissions and other framing errors since start (E1381: a NAKed frame is repeated by the sender; from memory)', () => {
+    const health = new LinkHealth();
+    health.note('frame 3: checksum 1A is wrong (sum gives 1B); NAK, the sender repeats it');
+    health.note('frame 4 out of sequence (expected 3); NAK, the sender repeats it');
+    health.note('a frame without CR LF after its checksum; NAK, the sender repeats it');
+    health.note('EOT in the middle of a frame');
+    health.note('the instrument is busy (NAK to our ENQ); our answer is not sent');
+    // Only a wrong sum is a checksum retransmission; a missing CR LF, a frame out of sequence and an EOT mid-frame are framing errors.
+    expect(health.status()).toMatchObject({ checksumRetransmissions: 1, framingErrors: 3 });
   });
 });

@@ -33,6 +33,8 @@ export class LinkHealth {
   private continuation = 0;
   private readonly controls: Set<number>;
   private readonly problems: { at: number; message: string }[] = [];
+  private checksumRetransmissions = 0;
+  private framingErrors = 0;
   private readonly now: () => Date;
 
   constructor(private readonly options: LinkHealthOptions = {}) {
@@ -60,6 +62,10 @@ export class LinkHealth {
 
   /** A protocol problem (a NAKed frame, an abandoned session) for the warnings. */
   note(message: string): void {
+    // Counted for the instruments page: a bad checksum makes the sender repeat the frame (E1381 NAK);
+    // any other broken frame (no CR LF, out of sequence, cut off, too long) is a framing error.
+    if (/checksum \S+ is wrong/i.test(message)) this.checksumRetransmissions++;
+    else if (/frame|EOT in the middle/i.test(message)) this.framingErrors++;
     this.problems.push({ at: this.now().getTime(), message });
     if (this.problems.length > 100) this.problems.shift();
   }
@@ -69,7 +75,7 @@ export class LinkHealth {
     return this.filled < (this.options.minBytes ?? 256) ? undefined : this.unreadable / this.filled;
   }
 
-  status(): { warnings: string[]; bytesReceived: number; lastByteAt?: string } {
+  status(): { warnings: string[]; bytesReceived: number; lastByteAt?: string; checksumRetransmissions: number; framingErrors: number } {
     const warnings: string[] = [];
     const share = this.unreadableShare();
     if (share !== undefined && share >= (this.options.threshold ?? 0.2)) {
@@ -81,7 +87,13 @@ export class LinkHealth {
       const last = recent[recent.length - 1].message;
       warnings.push(`${recent.length} protocol problem(s) in the last ${Math.round((this.options.problemMs ?? 15 * 60_000) / 60_000)} min, last: ${last}`.slice(0, 200));
     }
-    return { warnings, bytesReceived: this.received, ...(this.lastByte ? { lastByteAt: isoWithOffset(this.lastByte) } : {}) };
+    return {
+      warnings,
+      bytesReceived: this.received,
+      checksumRetransmissions: this.checksumRetransmissions,
+      framingErrors: this.framingErrors,
+      ...(this.lastByte ? { lastByteAt: isoWithOffset(this.lastByte) } : {}),
+    };
   }
 
   private push(bad: boolean): void {

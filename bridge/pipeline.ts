@@ -160,8 +160,16 @@ export function startInstrument(options: InstrumentOptions): InstrumentPipeline 
     health,
     done: finished,
     status: () => {
-      const { warnings, bytesReceived, lastByteAt } = health.status();
-      return { instrument: options.code, ...source.state(), ...(warnings.length ? { warnings } : {}), bytesReceived, ...(lastByteAt ? { lastByteAt } : {}) };
+      const { warnings, bytesReceived, lastByteAt, checksumRetransmissions, framingErrors } = health.status();
+      return {
+        instrument: options.code,
+        ...source.state(),
+        ...(warnings.length ? { warnings } : {}),
+        bytesReceived,
+        ...(lastByteAt ? { lastByteAt } : {}),
+        checksumRetransmissions,
+        framingErrors,
+      };
     },
     async stop() {
       await source.stop();

@@ -37,7 +37,8 @@ export const patientSex = pgEnum('patient_sex', [
 ]);
 /** 'active' is an open record; a merged record points at the one it was merged into. */
 export const patientStatus = pgEnum('patient_status', ['active', 'deceased', 'archived', 'merged']);
-export const readingStatus = pgEnum('reading_status', ['unassigned', 'assigned', 'voided']);
+/** 'control': a QC reading (recognised by sample ID, by the analyzer, or marked by hand); never on a patient. */
+export const readingStatus = pgEnum('reading_status', ['unassigned', 'assigned', 'voided', 'control']);
 export const captureStatus = pgEnum('capture_status', ['open', 'transcribed', 'dismissed']);
 export const orderStatus = pgEnum('order_status', ['open', 'fulfilled', 'aborted', 'cancelled']);
 export const sampleType = pgEnum('sample_type', ['whole_blood', 'serum', 'plasma', 'urine', 'other']);
@@ -202,6 +203,9 @@ export const instruments = pgTable(
     channels: integer().notNull().default(1),
     /** How the bridge reads it: number format (decimal point or comma) and the name it answers as (HL7 ACK MSH-3/4). */
     readSettings: jsonb().$type<InstrumentReadSettings>().notNull().default(sql`'{}'::jsonb`),
+    /** Lab quality: room temperature the instrument may run at (from its manual), for the daily log. */
+    operatingMinC: doublePrecision(),
+    operatingMaxC: doublePrecision(),
     active: boolean().notNull().default(true),
     createdAt: createdAt(),
   },
@@ -270,6 +274,12 @@ export const readings = pgTable(
     status: readingStatus().notNull().default('unassigned'),
     /** The current assignment, denormalised for listing; result_assignments holds the history. */
     patientId: uuid().references(() => patients.id, { onDelete: 'restrict' }),
+    /** Lab quality: the kit lot loaded in the instrument when it arrived (it used one test of it). */
+    kitLotId: uuid().references((): AnyPgColumn => kitLots.id, { onDelete: 'restrict' }),
+    /** Lab quality: for status 'control', the control material it measured (null until someone picks one). */
+    controlMaterialId: uuid().references((): AnyPgColumn => controlMaterials.id, { onDelete: 'restrict' }),
+    /** Lab quality marks fixed when it arrived: 'qc-failed' (QC for it was rejected), 'kit-expired'. */
+    qualityMarks: text().array().notNull().default(sql`'{}'::text[]`),
   },
   (t) => [
     uniqueIndex('readings_bridge_key').on(t.bridgeId, t.idempotencyKey),
@@ -462,6 +472,8 @@ export const labOrders = pgTable(
     sampleId: text(),
     /** For lab quality later: which kit lot the test came from. */
     kitLot: text(),
+    /** Lab quality: the kit lot loaded for this analyte when the test started (an aborted run uses one test). */
+    kitLotId: uuid().references((): AnyPgColumn => kitLots.id, { onDelete: 'restrict' }),
     orderedBy: uuid()
       .notNull()
       .references(() => staffUsers.id, { onDelete: 'restrict' }),
@@ -590,6 +602,136 @@ export const resultAlerts = pgTable(
     check('result_alerts_kind', sql`${t.kind} in ('critical-low', 'critical-high')`),
   ],
 );
+
+// ───────────── Lab quality: kit lots, operating conditions, control materials, goals, verifications ─────────────
+
+/** A reagent kit lot for one analyte. Tests left = tests per kit × kits − runs that used it (patient, QC, aborted). */
+export const kitLots = pgTable(
+  'kit_lots',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    analyte: text().notNull(),
+    lotNumber: text().notNull(),
+    expiresOn: date({ mode: 'string' }).notNull(),
+    testsPerKit: integer().notNull(),
+    kits: integer().notNull().default(1),
+    openedOn: date({ mode: 'string' }),
+    storageNotes: text(),
+    /** Loaded in this instrument: its readings of the analyte use this lot. */
+    instrumentId: uuid().references(() => instruments.id, { onDelete: 'set null' }),
+    /** Warn when this many tests or fewer are left. */
+    lowAt: integer().notNull().default(5),
+    /** Taken out of use (used up or discarded). */
+    finishedAt: timestamp({ withTimezone: true }),
+    createdBy: uuid().references(() => staffUsers.id, { onDelete: 'set null' }),
+    createdAt: createdAt(),
+  },
+  (t) => [
+    uniqueIndex('kit_lots_clinic_analyte_lot_key').on(t.clinicId, t.analyte, t.lotNumber),
+    index('kit_lots_loaded_idx').on(t.clinicId, t.instrumentId, t.analyte),
+    check('kit_lots_counts_positive', sql`${t.testsPerKit} >= 1 and ${t.kits} >= 1 and ${t.lowAt} >= 0`),
+  ],
+);
+
+/** The lab's room temperature, one entry per day (the clinic's own calendar day). */
+export const roomTemperatureLogs = pgTable(
+  'room_temperature_logs',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    day: date({ mode: 'string' }).notNull(),
+    temperatureC: doublePrecision().notNull(),
+    note: text(),
+    recordedBy: uuid()
+      .notNull()
+      .references(() => staffUsers.id, { onDelete: 'restrict' }),
+    recordedAt: createdAt(),
+  },
+  (t) => [
+    uniqueIndex('room_temperature_logs_clinic_day_key').on(t.clinicId, t.day),
+    check('room_temperature_logs_plausible', sql`${t.temperatureC} between -30 and 60`),
+  ],
+);
+
+/** A control material (one level of one lot) with its target from the insert or from the clinic's own runs. */
+export const controlMaterials = pgTable(
+  'control_materials',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    analyte: text().notNull(),
+    /** Only QC from this instrument counts; null: any instrument. */
+    instrumentId: uuid().references(() => instruments.id, { onDelete: 'set null' }),
+    name: text().notNull(),
+    lotNumber: text().notNull(),
+    level: text().notNull(),
+    /** The sample ID the control is run under (what the analyzer prints or the technician types), if any. */
+    sampleId: text(),
+    unit: text().notNull(),
+    targetMean: doublePrecision().notNull(),
+    targetSd: doublePrecision().notNull(),
+    targetSource: text().$type<'insert' | 'established'>().notNull(),
+    expiresOn: date({ mode: 'string' }),
+    active: boolean().notNull().default(true),
+    createdBy: uuid().references(() => staffUsers.id, { onDelete: 'set null' }),
+    createdAt: createdAt(),
+  },
+  (t) => [
+    uniqueIndex('control_materials_clinic_key').on(t.clinicId, t.analyte, t.lotNumber, t.level),
+    check('control_materials_sd_positive', sql`${t.targetSd} > 0`),
+    check('control_materials_target_source', sql`${t.targetSource} in ('insert', 'established')`),
+  ],
+);
+
+/** Allowable total error per analyte, with where it came from, for the sigma metric. */
+export const qualityGoals = pgTable(
+  'quality_goals',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    analyte: text().notNull(),
+    teaPercent: doublePrecision().notNull(),
+    source: text().notNull(),
+    updatedBy: uuid().references(() => staffUsers.id, { onDelete: 'set null' }),
+    updatedAt: createdAt(),
+  },
+  (t) => [
+    uniqueIndex('quality_goals_clinic_analyte_key').on(t.clinicId, t.analyte),
+    check('quality_goals_tea_positive', sql`${t.teaPercent} > 0`),
+  ],
+);
+
+/** A reference-interval verification with the clinic's own healthy animals; the interval is copied as it stood. */
+export const intervalVerifications = pgTable(
+  'interval_verifications',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    intervalId: uuid().references(() => referenceIntervals.id, { onDelete: 'set null' }),
+    analyte: text().notNull(),
+    species: species().notNull(),
+    unit: text().notNull(),
+    low: doublePrecision(),
+    high: doublePrecision(),
+    intervalSource: text().notNull(),
+    values: doublePrecision().array().notNull(),
+    secondValues: doublePrecision().array(),
+    decision: text().notNull(),
+    note: text(),
+    performedBy: uuid()
+      .notNull()
+      .references(() => staffUsers.id, { onDelete: 'restrict' }),
+    performedAt: createdAt(),
+  },
+  (t) => [index('interval_verifications_clinic_idx').on(t.clinicId, t.analyte, t.species)],
+);
+
+export type KitLot = typeof kitLots.$inferSelect;
+export type RoomTemperatureLog = typeof roomTemperatureLogs.$inferSelect;
+export type ControlMaterial = typeof controlMaterials.$inferSelect;
+export type QualityGoal = typeof qualityGoals.$inferSelect;
+export type IntervalVerification = typeof intervalVerifications.$inferSelect;
 
 export type Clinic = typeof clinics.$inferSelect;
 export type StaffUser = typeof staffUsers.$inferSelect;

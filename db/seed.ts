@@ -19,6 +19,7 @@ import {
   staffUsers,
 } from './schema';
 import { installClinicalDefaults } from '@/lib/clinical/install';
+import { DEMO_QUALITY_TESTS, seedLabQuality } from './seed-quality';
 import { DEFAULT_PROTOCOLS } from '@/lib/clinical/defaults';
 import { dueAt } from '@/lib/clinical/protocols';
 import { hashPassword } from '@/lib/auth/password';
@@ -117,7 +118,7 @@ export async function seedDemoClinic(db: Db): Promise<{ clinicId: string; bridge
       .insert(bridges)
       .values({ clinicId: clinic.id, name: 'Lab PC (bench 1)', tokenHash: token.hash, tokenHint: token.hint, createdBy: admin.id })
       .returning();
-    const [crpReader] = await tx.insert(instruments).values([
+    const [crpReader, chemAnalyzer, hemaAnalyzer] = await tx.insert(instruments).values([
       {
         clinicId: clinic.id,
         code: DEMO_CRP_INSTRUMENT,
@@ -335,6 +336,18 @@ export async function seedDemoClinic(db: Db): Promise<{ clinicId: string; bridge
         details: { patientId: b.patient.id, analyte: 'cCRP', demo: true },
       });
     }
+    await seedLabQuality(tx, {
+      clinicId: clinic.id,
+      timeZone: clinic.timeZone,
+      bridgeId: bridge.id,
+      techId: tech.id,
+      adminId: admin.id,
+      instruments: [
+        { id: crpReader.id, code: crpReader.code, serial: 'SIM-0001', tests: DEMO_QUALITY_TESTS.CRP },
+        { id: chemAnalyzer.id, code: chemAnalyzer.code, serial: 'SIM-0002', tests: DEMO_QUALITY_TESTS.CHEMISTRY },
+        { id: hemaAnalyzer.id, code: hemaAnalyzer.code, serial: 'SIM-0003', tests: DEMO_QUALITY_TESTS.HEMATOLOGY },
+      ],
+    });
     return { clinicId: clinic.id, bridgeToken: token.token };
   });
 }

@@ -6,6 +6,7 @@ import type { Actor } from '@/lib/auth/guards';
 import { newBridgeToken } from '@/lib/auth/tokens';
 import { recordAudit } from '@/lib/audit';
 import { ApiError, notFound } from '@/lib/http';
+import { publish } from '@/lib/live/bus';
 import { isUniqueViolation } from '@/lib/staff';
 import type { BridgeHeartbeat } from '@/lib/validation/readings';
 import type { NewInstrumentInput } from '@/lib/validation/api';
@@ -81,6 +82,8 @@ export async function recordHeartbeat(bridge: Pick<Bridge, 'id' | 'clinicId'>, h
         .set({ health: { ...source, at, bridgeId: bridge.id } })
         .where(and(eq(instruments.clinicId, bridge.clinicId), eq(instruments.code, source.instrument)));
     }
+    // Lab quality: the instruments page shows link health live.
+    await publish(tx, { type: 'instrument.health', clinicId: bridge.clinicId, id: bridge.id });
   });
 }
 

@@ -9,6 +9,7 @@ import { protocolFor } from '@/lib/clinical/config';
 import { dueAt } from '@/lib/clinical/protocols';
 import { ApiError, notFound } from '@/lib/http';
 import { publish } from '@/lib/live/bus';
+import { loadedLot } from '@/lib/quality/store';
 import type { NewOrderInput } from '@/lib/validation/clinical';
 
 // Starting and closing tests is bench work: technicians and veterinarians (the brief), not administrators.
@@ -62,6 +63,8 @@ export async function startOrder(actor: Actor, input: NewOrderInput, now = new D
     if (!protocol) {
       throw new ApiError(409, 'no_protocol', `There is no run protocol for ${input.analyte}; an administrator can add one in Admin.`);
     }
+    // Lab quality: the lot loaded for this test, so an aborted run still counts against it.
+    const lot = await loadedLot(tx, actor.clinicId, input.instrumentId ?? null, input.analyte);
     const [order] = await tx
       .insert(labOrders)
       .values({
@@ -71,7 +74,8 @@ export async function startOrder(actor: Actor, input: NewOrderInput, now = new D
         instrumentId: input.instrumentId ?? null,
         sampleType: input.sampleType,
         sampleId: input.sampleId ?? null,
-        kitLot: input.kitLot ?? null,
+        kitLot: input.kitLot ?? lot?.lotNumber ?? null,
+        kitLotId: lot?.id ?? null,
         orderedBy: orderer.id,
         startedBy: actor.userId,
         startedAt,

@@ -6,6 +6,7 @@ import { allowed, roleLabel } from '@/lib/auth/roles';
 import { BrandMark } from '@/app/components/ui';
 import { ActorProvider } from './actor';
 import { AlertNotifier } from './alert-notifier';
+import { BridgeOfflineNotifier } from './bridge-offline-notifier';
 import { LiveProvider, LiveStatus } from './live';
 import { NavLink } from './nav-link';
 import { SignOutButton } from './sign-out-button';
@@ -25,11 +26,12 @@ export default async function ClinicLayout({ children }: { children: React.React
               <BrandMark />
               Benchwire
             </Link>
-            <nav aria-label="Main" className="flex gap-1">
+            <nav aria-label="Main" className="flex flex-wrap gap-1">
               <NavLink href="/intake">Intake</NavLink>
               <NavLink href="/bench">Bench</NavLink>
               <NavLink href="/patients">Patients</NavLink>
               <NavLink href="/reviews">Review</NavLink>
+              <NavLink href="/qc">QC</NavLink>
               {allowed(actor.role, 'manageClinic') && <NavLink href="/admin">Admin</NavLink>}
             </nav>
             <div className="ml-auto flex items-center gap-4 text-sm">
@@ -42,6 +44,7 @@ export default async function ClinicLayout({ children }: { children: React.React
             </div>
           </div>
         </header>
+        <BridgeOfflineNotifier />
         <main className="mx-auto w-full max-w-7xl flex-1 px-4 py-6">{children}</main>
       </div>
       </ActorProvider>

@@ -25,6 +25,9 @@ export function revalidates(event: LiveEvent): string[] {
   if (family === 'review') keys.push('/api/reviews');
   if (family === 'alert') keys.push('/api/alerts');
   if (family === 'patient') keys.push('/api/patients', '/api/readings', '/api/orders');
+  // Lab quality: kit stock, QC runs and marks, instrument health; QC readings leave Intake.
+  if (family === 'quality') keys.push('/api/quality', '/api/readings', '/api/patients');
+  if (family === 'instrument' || family === 'reading' || family === 'capture') keys.push('/api/quality/health');
   if (family === 'settings') keys.push('/api/admin/clinical', '/api/patients', '/api/readings', '/api/orders');
   if (event.patientId) keys.push(`/api/patients/${event.patientId}`);
   return keys;

@@ -34,6 +34,16 @@ describe('ASTM E1394 dialect', () => {
     expect(getDialect('astm-e1394')).toBe(astmE1394);
   });
 
+  it('O.12 action code "Q" (treat the specimen as quality control; E1394 order record, from memory) marks a control', async () => {
+    // O.6 priority … O.11 collector ID left empty, O.12 action code.
+    const control = record(['O', '1', 'QC-L1', '', '^^^GLU', '', '', '', '', '', '', 'Q']);
+    const out = await parse([testSession([H, P, control, R(1, 'GLU', '5.2', 'mmol/L', 'N'), L])]);
+    expect(out).toEqual([expect.objectContaining({ analyte: 'GLU', sampleId: 'QC-L1', specimenRole: 'control' })]);
+    const added = record(['O', '1', 'S-1', '', '^^^GLU', '', '', '', '', '', '', 'A']);
+    const patient = await parse([testSession([H, P, added, R(1, 'GLU', '5.2', 'mmol/L', 'N'), L])]);
+    expect(patient).toEqual([expect.objectContaining({ specimenRole: undefined })]);
+  });
+
   it('maps P, O and each R record of one message to its own reading', async () => {
     const out = await parse([testSession([H, P, O, R(1, 'GLU', '5.2', 'mmol/L', 'N'), R(2, 'CREA', '<18', 'umol/L', 'L'), L])]);
     expect(out).toEqual([

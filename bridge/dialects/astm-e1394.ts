@@ -13,7 +13,8 @@ import type { Dialect, ParseOptions } from './dialect';
 // is the n-th piece when the record is split on the field delimiter. The H record defines the
 // delimiters: H.1 "H", then field, repeat, component and escape delimiter (usually |\^&).
 //   P.3 practice-assigned patient ID (P.4, P.5 lab-assigned / third patient ID as fallbacks)
-//   O.3 specimen ID (O.4 instrument specimen ID as fallback)
+//   O.3 specimen ID (O.4 instrument specimen ID as fallback); O.12 action code, "Q" = treat the specimen
+//   as a quality-control specimen
 //   R.3 universal test ID ^^^local code, R.4 value, R.5 units, R.6 reference range, R.7 abnormal
 //   flags, R.9 result status, R.13 date/time test completed, R.14 instrument identification
 //   C.3 comment source, C.4 comment text (components joined), C.5 comment type → the result's notes
@@ -196,6 +197,7 @@ function readResult(
     // R.6 lower^upper (LIS2-A2, from memory), written "lower to upper"; a range sent as text stays as sent.
     referenceRange: (record.repeats(6)[0] ?? []).map((c) => c.trim()).filter(Boolean).join(' to ') || null,
     resultStatus: RESULT_STATUS[status] ?? null,
+    specimenRole: context.order && context.order.component(12).toUpperCase() === 'Q' ? 'control' : undefined,
     raw: context.raw,
   });
   if (reading.success) return reading.data;

@@ -40,6 +40,17 @@ describe('HL7 v2 dialect', () => {
     expect(getDialect('hl7v2')).toBe(hl7v2);
   });
 
+  it('SPM-11 specimen role "Q" (control specimen, HL7 v2.5 table 0369, from memory) marks the OBR group as QC', async () => {
+    // SPM-1 set ID, SPM-2 specimen ID, SPM-4 specimen type, … SPM-11 specimen role; it follows the group's OBXs.
+    const spm = seg('SPM', '1', 'QC-2', '', 'BLD', '', '', '', '', '', '', 'Q');
+    const message = [MSH(), PID, OBR, OBX(1, 'NM', 'WBC^White cells', '12.4', '10*9/L'), spm, seg('OBR', '2', 'PL-2', 'S-3002'), OBX(1, 'NM', 'WBC^White cells', '8.1', '10*9/L')];
+    const out = await parse([wrap(message)]);
+    expect(out).toEqual([
+      expect.objectContaining({ value: 12.4, specimenRole: 'control' }),
+      expect.objectContaining({ value: 8.1, sampleId: 'S-3002', specimenRole: undefined }),
+    ]);
+  });
+
   it('maps PID, OBR and each OBX of an ORU^R01 to a reading', async () => {
     const message = [MSH(), PID, OBR, OBX(1, 'NM', 'WBC^White cells', '12.4', '10*9/L^^UCUM', 'N'), OBX(2, 'SN', 'PLT^Platelets', '<^50', '10*9/L', 'L~A')];
     expect(await parse([wrap(message)])).toEqual([

@@ -13,6 +13,7 @@ import type { AnswerContext, Dialect } from './dialect';
 // in every other segment SEG-n is the piece after n separators.
 //   PID-3 patient identifier list (PID-2 as fallback) → patientRef
 //   OBR-3 filler order number, else OBR-2 placer order number → sampleId; OBR-7 observation time
+//   SPM-11 specimen role (v2.5 table 0369): "Q" = control specimen; the SPM of an OBR's group may follow its OBXs
 //   OBX-2 value type, OBX-3 observation identifier, OBX-5 value, OBX-6 units (CE/CWE identifier),
 //   OBX-7 reference range, OBX-8 abnormal flags, OBX-11 result status, OBX-14 observation time,
 //   OBX-18 equipment instance identifier → instrumentSerial
@@ -299,6 +300,7 @@ function readObservation(
     instrumentSerial: obx.get(18) || null,
     referenceRange: obx.get(7) || null,
     resultStatus: RESULT_STATUS[status] ?? null,
+    specimenRole: context.spm?.get(11, 1).toUpperCase() === 'Q' ? 'control' : undefined,
     raw: context.raw,
   });
   if (reading.success) return reading.data;

@@ -11,6 +11,8 @@ export const can = {
   /** Register, edit, close and merge patient records (and their owners). */
   managePatients: ['admin', 'veterinarian', 'technician'],
   manageClinic: ['admin'],
+  /** Lab quality records: kit lots, the temperature log, control materials, QC runs, verifications. */
+  manageQuality: ['admin', 'technician'],
 } as const satisfies Record<string, readonly StaffRole[]>;
 
 export type Permission = keyof typeof can;

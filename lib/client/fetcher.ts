@@ -28,7 +28,7 @@ async function parse<T>(response: Response): Promise<T> {
 
 export const fetcher = <T,>(url: string) => fetch(url, { headers: { accept: 'application/json' } }).then((r) => parse<T>(r));
 
-export function send<T>(url: string, method: 'POST' | 'PATCH' | 'DELETE', body?: unknown): Promise<T> {
+export function send<T>(url: string, method: 'POST' | 'PUT' | 'PATCH' | 'DELETE', body?: unknown): Promise<T> {
   return fetch(url, {
     method,
     headers: { 'content-type': 'application/json', accept: 'application/json' },

@@ -4,6 +4,7 @@ import { db } from '@/db/client';
 import { patients, resultAlerts } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { notFound } from '@/lib/http';
+import { qualityMarksFor } from '@/lib/quality/marks';
 import { patientResults } from '@/lib/readings/queries';
 import { analyteContexts, intervalContexts } from './config';
 import { evaluateResult, pickInterval } from './evaluate';
@@ -25,7 +26,7 @@ export async function patientChart(actor: Actor, patientId: string) {
   if (!patient) throw notFound('The patient');
   const results = await patientResults(actor, patientId);
   const codes = [...new Set(results.map((r) => r.analyte))];
-  const [analytes, intervals, reviews, alerts] = await Promise.all([
+  const [analytes, intervals, reviews, alerts, quality] = await Promise.all([
     analyteContexts(database, actor.clinicId, codes),
     intervalContexts(database, actor.clinicId, codes),
     reviewsFor(actor.clinicId, results.map((r) => r.id)),
@@ -35,6 +36,7 @@ export async function patientChart(actor: Actor, patientId: string) {
           .from(resultAlerts)
           .where(and(inArray(resultAlerts.readingId, results.map((r) => r.id)), eq(resultAlerts.patientId, patientId), isNull(resultAlerts.withdrawnAt)))
       : Promise.resolve([]),
+    qualityMarksFor(database, actor.clinicId, results),
   ]);
 
   const evaluated = results.map((r) => {
@@ -60,6 +62,8 @@ export async function patientChart(actor: Actor, patientId: string) {
     const alert = alerts.find((a) => a.readingId === r.id) ?? null;
     return {
       ...r,
+      /** Lab-quality marks (QC failed, expired kit, room temperature), kept apart from the clinical flags. */
+      quality: quality.get(r.id) ?? [],
       clinical: {
         display: e.display,
         flag: e.flag,

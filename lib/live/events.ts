@@ -15,6 +15,8 @@ export const LIVE_EVENT_TYPES = [
   'alert.acknowledged',
   'settings.updated',
   'patient.updated',
+  'quality.updated',
+  'instrument.health',
 ] as const;
 
 export type LiveEventType = (typeof LIVE_EVENT_TYPES)[number];

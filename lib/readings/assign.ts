@@ -33,6 +33,8 @@ export async function assignReading(
       });
     }
     if (reading.status === 'voided') throw new ApiError(409, 'voided', 'This reading was voided and cannot be assigned.');
+    // Lab quality: a control run is never a patient result.
+    if (reading.status === 'control') throw new ApiError(409, 'control_run', 'This reading is a QC control run and never goes on a patient.');
     const patient = await loadPatientForPlacement(tx, actor.clinicId, patientId);
     const placed = await placeReading(tx, { clinicId: actor.clinicId, userId: actor.userId }, reading, patient, {
       orderId: options.orderId,

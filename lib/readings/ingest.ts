@@ -5,6 +5,7 @@ import { bridges, instruments, readings, unparsedCaptures, type Bridge } from '@
 import { recordAudit } from '@/lib/audit';
 import { publish } from '@/lib/live/bus';
 import type { BridgeBatch, BridgeBatchResult } from '@/lib/validation/readings';
+import { applyQualityOnIngest } from '@/lib/quality/ingest-step';
 import { autoAssignOnIngest } from './suggestions';
 
 /** PostgreSQL text cannot hold U+0000, which line noise often sends; keep it visible as ␀ (U+2400) instead. */
@@ -76,7 +77,7 @@ export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promis
         continue;
       }
 
-      const [row] = await tx
+      const [inserted] = await tx
         .insert(readings)
         .values({
           ...common,
@@ -98,10 +99,12 @@ export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promis
         })
         .onConflictDoNothing({ target: [readings.bridgeId, readings.idempotencyKey] })
         .returning();
-      if (!row) {
+      if (!inserted) {
         results.push({ key: record.key, status: 'duplicate', id: await storedId(tx, readings, bridge.id, record.key) });
         continue;
       }
+      // Lab quality (QC recognition, kit lot, QC-failed mark): a separate step, before anything may place it.
+      const row = await applyQualityOnIngest(tx, inserted, payload);
       await recordAudit(tx, {
         clinicId: bridge.clinicId,
         actorBridgeId: bridge.id,
@@ -112,7 +115,7 @@ export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promis
       });
       await publish(tx, { type: 'reading.created', clinicId: bridge.clinicId, id: row.id });
       // Only the clinic's opt-in exact-ID rule may place a reading without a person; off by default.
-      await autoAssignOnIngest(tx, bridge, row);
+      if (row.status === 'unassigned') await autoAssignOnIngest(tx, bridge, row);
       results.push({ key: record.key, status: 'created', id: row.id });
     }
 

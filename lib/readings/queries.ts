@@ -37,6 +37,9 @@ const readingColumns = {
   patientName: patients.name,
   patientRecordNumber: patients.recordNumber,
   patientSpecies: patients.species,
+  // Lab quality: marks fixed on arrival and the kit lot the run used.
+  qualityMarks: readings.qualityMarks,
+  kitLotId: readings.kitLotId,
 };
 
 export type ReadingView = Awaited<ReturnType<typeof listReadings>>[number];

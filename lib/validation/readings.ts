@@ -40,6 +40,8 @@ export const parsedReadingSchema = z.object({
   referenceRange: z.string().trim().max(64).nullable().default(null),
   /** The instrument's own result status (ASTM R.9, HL7 OBX-11); null when it sends none. */
   resultStatus: z.enum(RESULT_STATUSES).nullable().default(null),
+  /** 'control' when the analyzer marks the specimen as QC (ASTM O.12 action code Q, HL7 SPM-11 role Q). */
+  specimenRole: z.enum(['patient', 'control']).optional(),
   raw: z.string().max(65536),
 });
 export type ParsedReading = z.infer<typeof parsedReadingSchema>;
@@ -100,6 +102,9 @@ export const bridgeHeartbeatSchema = z.object({
         warnings: z.array(z.string().max(200)).max(10).optional(),
         bytesReceived: z.number().int().min(0).optional(),
         lastByteAt: isoDateTime().optional(),
+        /** Frames the instrument had to repeat after a bad checksum, and other broken frames, since the bridge started. */
+        checksumRetransmissions: z.number().int().min(0).optional(),
+        framingErrors: z.number().int().min(0).optional(),
       }),
     )
     .max(64)

@@ -4,6 +4,7 @@ import Link from 'next/link';
 import { PageHeader, buttonClass } from '@/app/components/ui';
 import { BridgesPanel } from './bridges-panel';
 import { ClinicalPanel } from './clinical-panel';
+import { InstrumentHealthPanel } from './instrument-health';
 import { InstrumentsPanel } from './instruments-panel';
 import { MatchingReportPanel } from './matching-report-panel';
 import { StaffPanel } from './staff-panel';
@@ -28,6 +29,7 @@ export default async function AdminPage() {
         <StaffPanel selfId={actor.userId} />
         <BridgesPanel />
         <InstrumentsPanel />
+        <InstrumentHealthPanel />
         <ClinicalPanel />
         <MatchingReportPanel />
       </div>

@@ -10,6 +10,9 @@ import { AssignDialog } from './assign-dialog';
 import { UnparsedCaptures } from './unparsed-captures';
 import { SuggestedMatch } from './suggested-match';
 import { VoidDialog } from './void-dialog';
+import { MarkControlButton } from './mark-control';
+import { QualityMarks } from '@/app/components/quality-marks';
+import { markViews } from '@/lib/quality/labels';
 
 type Serialized<T> = { [K in keyof T]: T[K] extends Date ? string : T[K] extends Date | null ? string | null : T[K] };
 export type IntakeReading = Serialized<ReadingView>;
@@ -113,6 +116,7 @@ export function IntakeBoard() {
                       <span className="whitespace-nowrap font-mono text-base font-semibold" data-testid="reading-value">
                         {formatValue(r)}
                       </span>
+                      <QualityMarks marks={markViews(r.qualityMarks)} />
                       {r.critical && (
                         <p className="mt-1 max-w-56 rounded bg-alarm-100 px-1.5 py-0.5 text-xs font-semibold text-alarm-700" data-testid="critical-before-assignment" role="note">
                           {r.critical.text}
@@ -147,6 +151,13 @@ export function IntakeBoard() {
                         <button type="button" className={buttonClass.secondary} onClick={() => setVoiding(r)}>
                           Void…
                         </button>
+                        <MarkControlButton
+                          readingId={r.id}
+                          onDone={(message) => {
+                            setDone(message);
+                            void readings.mutate();
+                          }}
+                        />
                       </div>
                     </td>
                   </tr>

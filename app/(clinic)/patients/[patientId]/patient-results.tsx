@@ -6,6 +6,7 @@ import { fetcher } from '@/lib/client/fetcher';
 import type { patientChart } from '@/lib/clinical/chart';
 import { formatMeasured } from '@/lib/clinical/evaluate';
 import { FLAG_CODE } from '@/lib/clinical/flags';
+import { QualityMarks } from '@/app/components/quality-marks';
 import { formatDateTime } from '@/lib/format';
 import { ResultDetail } from './result-detail';
 import { TrendChart } from './trend-chart';
@@ -96,6 +97,7 @@ export function PatientResults({ patientId, patientName }: { patientId: string; 
                               Check identity
                             </span>
                           )}
+                          <QualityMarks marks={r.quality} />
                         </td>
                         <td className="whitespace-nowrap px-4 py-2 font-mono text-xs" data-testid="result-change">
                           {r.clinical.change?.text ?? '—'}

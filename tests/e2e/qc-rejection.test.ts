@@ -1,0 +1,64 @@
+// The QC page in a real browser: a control run beyond 3 SD (Westgard 1-3s; Westgard et al., Clin Chem
+// 1981;27:493–501, from memory) arrives from the bridge, the page shows the rejection naming the rule, and
+// the next patient result of that test carries a visible "QC failed" mark in Intake and on the chart.
+import { describe, expect, it } from 'vitest';
+import { appForThisFile, signInAs } from './support';
+
+const running = appForThisFile();
+
+async function post(payload: Record<string, unknown>, key: string) {
+  const response = await fetch(`${running.app.baseUrl}/api/bridge/readings`, {
+    method: 'POST',
+    headers: { 'content-type': 'application/json', authorization: `Bearer ${running.app.bridgeToken}` },
+    body: JSON.stringify({
+      records: [{ key, instrument: 'crp-reader', receivedAt: new Date().toISOString(), payload: { kind: 'reading', analyte: 'cCRP', unit: 'mg/L', raw: `RESULT ${payload.value} mg/L\n`, ...payload } }],
+    }),
+  });
+  expect(response.status).toBe(200);
+  return (await response.json()).results[0].id as string;
+}
+
+describe('QC page', () => {
+  it('shows a 1-3s rejection as it arrives and flags the next patient result', async () => {
+    const tech = await signInAs(running.browser, running.app.baseUrl, 'tech@fernhollow.example');
+    await tech.setViewportSize({ width: 1024, height: 768 });
+    await tech.goto('/qc');
+    const crp = tech.locator('[data-testid=qc-status] li[data-analyte=cCRP]');
+    // The demo's history: accepted now, with one earlier rejected run whose point is marked on the chart.
+    await expect.poll(() => crp.getAttribute('data-status'), { timeout: 30_000 }).toBe('accepted');
+    expect(await tech.locator('[data-testid=lj-point][data-violation="1-3s"]').count()).toBeGreaterThanOrEqual(1);
+
+    // CRP control level 2 has target 62 ± 3.5 mg/L (demo insert): 76 is +4 SD.
+    await post({ value: 76, sampleId: 'QC-cCRP-2' }, 'e2e-qc-13s-000001');
+    await expect.poll(() => crp.getAttribute('data-status'), { timeout: 30_000 }).toBe('rejected');
+    const rejection = crp.locator('[data-testid=qc-rejection]').first();
+    await expect.poll(() => rejection.textContent(), { timeout: 10_000 }).toMatch(/rejected: 1-3s: one control beyond 3 SD/);
+
+    // The next patient reading of cCRP from the reader: Intake shows it marked, never as a plain result.
+    const readingId = await post({ value: 14.2 }, 'e2e-qc-patient-0001');
+    await tech.goto('/intake');
+    const row = tech.locator(`tr[data-reading-id="${readingId}"]`);
+    await row.waitFor({ timeout: 30_000 });
+    expect(await row.locator('[data-testid=quality-mark][data-mark=qc-failed]').textContent()).toContain('QC failed');
+
+    // Put it on a patient and open the chart: the mark is there beside the flag.
+    const patient = await tech.evaluate(async () => (await (await fetch('/api/patients?q=Juniper')).json()).patients[0]);
+    const assigned = await tech.evaluate(
+      async ([id, patientId]) => (await fetch(`/api/readings/${id}/assign`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ patientId }) })).status,
+      [readingId, patient.id] as const,
+    );
+    expect(assigned).toBe(200);
+    await tech.goto(`/patients/${patient.id}`);
+    const mark = tech.locator(`[data-testid=patient-results] tr[data-reading-id="${readingId}"] [data-testid=quality-mark][data-mark=qc-failed]`);
+    await mark.waitFor({ timeout: 30_000 });
+    expect(await mark.textContent()).toContain('QC failed');
+    expect(await mark.isVisible()).toBe(true);
+
+    // At 390 px wide the QC page still shows the status without sideways scrolling of the page itself.
+    await tech.setViewportSize({ width: 390, height: 844 });
+    await tech.goto('/qc');
+    await crp.waitFor();
+    const overflow = await tech.evaluate(() => document.documentElement.scrollWidth - document.documentElement.clientWidth);
+    expect(overflow).toBeLessThanOrEqual(0);
+  });
+});
