@@ -14,7 +14,7 @@ export default async function ClinicLayout({ children }: { children: React.React
   const actor = await requirePageActor();
   return (
     <LiveProvider>
-      <ActorProvider actor={{ userId: actor.userId, role: actor.role, displayName: actor.displayName }}>
+      <ActorProvider actor={{ userId: actor.userId, role: actor.role, displayName: actor.displayName, onDuty: actor.onDuty !== false }}>
       <div className="flex min-h-screen flex-col">
         <header className="bg-ink-900 text-white">
           <div className="mx-auto flex max-w-7xl flex-wrap items-center gap-x-6 gap-y-2 px-4 py-3">

@@ -24,6 +24,8 @@ export function revalidates(event: LiveEvent): string[] {
   if (family === 'order') keys.push('/api/orders', '/api/readings');
   if (family === 'review') keys.push('/api/reviews');
   if (family === 'alert') keys.push('/api/alerts');
+  if (family === 'mail' || family === 'report') keys.push('/api/admin/mail');
+  if (family === 'staff') keys.push('/api/alerts', '/api/admin/staff');
   if (family === 'settings') keys.push('/api/admin/clinical', '/api/patients', '/api/readings', '/api/orders');
   if (event.patientId) keys.push(`/api/patients/${event.patientId}`);
   return keys;

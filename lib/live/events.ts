@@ -13,6 +13,10 @@ export const LIVE_EVENT_TYPES = [
   'review.created',
   'alert.created',
   'alert.acknowledged',
+  'alert.escalated',
+  'mail.updated',
+  'report.sent',
+  'staff.duty-changed',
   'settings.updated',
 ] as const;
 

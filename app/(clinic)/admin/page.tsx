@@ -2,6 +2,7 @@ import type { Metadata } from 'next';
 import { requirePageActor } from '@/lib/auth/current';
 import Link from 'next/link';
 import { PageHeader, buttonClass } from '@/app/components/ui';
+import { AlertsMailPanel } from './alerts-mail-panel';
 import { BridgesPanel } from './bridges-panel';
 import { ClinicalPanel } from './clinical-panel';
 import { InstrumentsPanel } from './instruments-panel';
@@ -23,6 +24,7 @@ export default async function AdminPage() {
         <BridgesPanel />
         <InstrumentsPanel />
         <ClinicalPanel />
+        <AlertsMailPanel />
       </div>
     </>
   );
