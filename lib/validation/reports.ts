@@ -1,0 +1,20 @@
+import { z } from 'zod';
+import { emailAddress } from './api';
+
+// Result reports: which visit, and who receives it.
+
+const visitDate = z.iso.date('Give the visit as a date (YYYY-MM-DD).');
+
+export const reportQuery = z.object({ visit: visitDate.optional() });
+
+export const sendReportSchema = z
+  .object({
+    visitDate: visitDate,
+    recipientKind: z.enum(['owner', 'referring-vet'], 'Choose who receives the report.'),
+    /** Optional for the owner when an owner e-mail is on record. */
+    recipientEmail: emailAddress.optional(),
+    recipientName: z.string().trim().max(200).optional().transform((v) => v || undefined),
+    message: z.string().trim().max(2000).optional().transform((v) => v || undefined),
+  })
+  .refine((v) => v.recipientKind === 'owner' || v.recipientEmail, { message: 'Give the referring veterinarian’s e-mail address.', path: ['recipientEmail'] });
+export type SendReportInput = z.infer<typeof sendReportSchema>;
