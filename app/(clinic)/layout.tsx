@@ -2,6 +2,7 @@ import Link from 'next/link';
 import { requirePageActor } from '@/lib/auth/current';
 import { allowed, roleLabel } from '@/lib/auth/roles';
 import { BrandMark } from '@/app/components/ui';
+import { outboxDir } from '@/lib/mail/outbox';
 import { ActorProvider } from './actor';
 import { AlertNotifier } from './alert-notifier';
 import { LiveProvider, LiveStatus } from './live';
@@ -28,6 +29,7 @@ export default async function ClinicLayout({ children }: { children: React.React
               <NavLink href="/patients">Patients</NavLink>
               <NavLink href="/reviews">Review</NavLink>
               {allowed(actor.role, 'manageClinic') && <NavLink href="/admin">Admin</NavLink>}
+              {outboxDir() && <NavLink href="/outbox">Outbox (demo)</NavLink>}
             </nav>
             <div className="ml-auto flex items-center gap-4 text-sm">
               <AlertNotifier />

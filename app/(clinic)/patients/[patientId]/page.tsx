@@ -8,6 +8,7 @@ import { idParam } from '@/lib/validation/api';
 import { formatAge, sexLabel, speciesLabel } from '@/lib/format';
 import { ClinicalCaution } from '@/app/components/ui';
 import { PatientResults } from './patient-results';
+import { ReportPanel } from './report-panel';
 
 export const metadata: Metadata = { title: 'Patient record' };
 
@@ -50,6 +51,7 @@ export default async function PatientPage({ params }: { params: Promise<{ patien
         </dl>
       </header>
       <PatientResults patientId={patient.id} patientName={patient.name} />
+      <ReportPanel patientId={patient.id} ownerEmail={patient.ownerEmail ?? null} />
       <div className="mt-8">
         <ClinicalCaution />
       </div>
