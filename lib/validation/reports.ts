@@ -18,3 +18,14 @@ export const sendReportSchema = z
   })
   .refine((v) => v.recipientKind === 'owner' || v.recipientEmail, { message: 'Give the referring veterinarian’s e-mail address.', path: ['recipientEmail'] });
 export type SendReportInput = z.infer<typeof sendReportSchema>;
+
+/** Results export: a date range (clinic days, inclusive), a patient, or both. */
+export const exportQuery = z
+  .object({
+    from: visitDate.optional(),
+    to: visitDate.optional(),
+    patientId: z.uuid('Not a valid patient id.').optional(),
+  })
+  .refine((v) => v.patientId || (v.from && v.to), { message: 'Choose a patient or a date range (from and to).', path: ['from'] })
+  .refine((v) => !v.from || !v.to || v.from <= v.to, { message: 'The range ends before it starts.', path: ['to'] });
+export type ExportQuery = z.infer<typeof exportQuery>;

@@ -1,6 +1,7 @@
 import type { Metadata } from 'next';
 import { requirePageActor } from '@/lib/auth/current';
 import { PageHeader } from '@/app/components/ui';
+import { ExportForm } from './export-form';
 import { PatientSearch } from './patient-search';
 
 export const metadata: Metadata = { title: 'Patients' };
@@ -11,6 +12,7 @@ export default async function PatientsPage() {
     <>
       <PageHeader title="Patients" />
       <PatientSearch />
+      <ExportForm />
     </>
   );
 }

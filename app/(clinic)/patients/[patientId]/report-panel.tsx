@@ -48,9 +48,14 @@ export function ReportPanel({ patientId, ownerEmail }: { patientId: string; owne
   if (!data || data.visits.length === 0) return null;
   return (
     <section aria-labelledby="reports-heading" className="mt-8 space-y-3" data-testid="report-panel">
-      <h2 id="reports-heading" className="text-lg font-semibold">
-        Reports
-      </h2>
+      <div className="flex flex-wrap items-baseline gap-3">
+        <h2 id="reports-heading" className="text-lg font-semibold">
+          Reports
+        </h2>
+        <a className={buttonClass.quiet} href={`/api/results/export?patientId=${patientId}`} download>
+          All results as CSV
+        </a>
+      </div>
       {notice && <Notice tone="ok">{notice}</Notice>}
       <ul className="divide-y divide-ink-100 rounded-lg border border-ink-100 bg-white text-sm shadow-sm">
         {data.visits.map((v) => {
