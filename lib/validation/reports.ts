@@ -29,3 +29,23 @@ export const exportQuery = z
   .refine((v) => v.patientId || (v.from && v.to), { message: 'Choose a patient or a date range (from and to).', path: ['from'] })
   .refine((v) => !v.from || !v.to || v.from <= v.to, { message: 'The range ends before it starts.', path: ['to'] });
 export type ExportQuery = z.infer<typeof exportQuery>;
+
+/** The form fields that come with a patient CSV upload (multipart/form-data). */
+export const patientImportForm = z.object({
+  step: z.enum(['preview', 'confirm'], 'Say whether to preview or to import.'),
+  duplicates: z.enum(['update', 'skip'], 'Choose what to do with record numbers already in Benchwire.'),
+  dateFormat: z.enum(['YYYY-MM-DD', 'DD/MM/YYYY', 'MM/DD/YYYY']).default('YYYY-MM-DD'),
+  mapping: z
+    .string()
+    .optional()
+    .transform((s, ctx) => {
+      if (!s) return undefined;
+      try {
+        return z.record(z.string(), z.number().int().min(0).nullable()).parse(JSON.parse(s));
+      } catch {
+        ctx.addIssue({ code: 'custom', message: 'The column mapping is not valid.' });
+        return z.NEVER;
+      }
+    }),
+  skipInvalid: z.enum(['true', 'false']).default('false'),
+});
