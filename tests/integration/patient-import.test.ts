@@ -29,7 +29,7 @@ const CSV = [
   'PM-5003,Bad Date,cat,,,31/02/2021,,,,',
 ].join('\r\n');
 
-function upload(fields: Record<string, string>, content: string | Uint8Array = CSV, cookie = admin) {
+function upload(fields: Record<string, string>, content: string | Uint8Array<ArrayBuffer> = CSV, cookie = admin) {
   const form = new FormData();
   form.set('file', new File([content], 'practice-export.csv', { type: 'text/csv' }));
   for (const [k, v] of Object.entries(fields)) form.set(k, v);

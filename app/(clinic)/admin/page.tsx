@@ -6,6 +6,7 @@ import { AlertsMailPanel } from './alerts-mail-panel';
 import { BridgesPanel } from './bridges-panel';
 import { ClinicalPanel } from './clinical-panel';
 import { InstrumentsPanel } from './instruments-panel';
+import { PatientImportPanel } from './patient-import-panel';
 import { StaffPanel } from './staff-panel';
 
 export const metadata: Metadata = { title: 'Admin' };
@@ -25,6 +26,7 @@ export default async function AdminPage() {
         <InstrumentsPanel />
         <ClinicalPanel />
         <AlertsMailPanel />
+        <PatientImportPanel />
       </div>
     </>
   );
