@@ -32,7 +32,8 @@ const securityHeaders = [
 
 const nextConfig: NextConfig = {
   // PGlite ships WebAssembly and serialport a native binding: load them from node_modules as they are.
-  serverExternalPackages: ['@electric-sql/pglite', 'serialport', '@serialport/bindings-cpp', 'pg'],
+  // pdfkit reads its font metrics from its own folder at run time.
+  serverExternalPackages: ['@electric-sql/pglite', 'serialport', '@serialport/bindings-cpp', 'pg', 'pdfkit', 'fontkit', 'mailparser', 'nodemailer'],
   env: { BENCHWIRE_VERSION: pkg.version },
   poweredByHeader: false,
   typedRoutes: false,

@@ -32,6 +32,8 @@ async function main() {
   // The hub reaches next/server, which needs the environment Next sets up in prepare(): load it after.
   const { createLiveHub, LIVE_PATH } = await import('@/lib/live/hub');
   const hub = await createLiveHub();
+  const { startBackgroundWork } = await import('@/lib/background');
+  const stopBackground = startBackgroundWork();
 
   const server = createServer((req, res) => {
     handle(req, res).catch((error) => {
@@ -56,6 +58,7 @@ async function main() {
     closing = true;
     console.log(`[benchwire] ${signal}: shutting down`);
     server.close();
+    stopBackground();
     await hub.close().catch(() => {});
     await app.close().catch(() => {});
     await database.close().catch(() => {});

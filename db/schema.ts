@@ -68,6 +68,8 @@ export const staffUsers = pgTable(
     active: boolean().notNull().default(true),
     /** Set when an administrator gave a temporary password: the person chooses their own at next sign-in. */
     mustChangePassword: boolean().notNull().default(false),
+    /** Veterinarians on duty see every open critical result live, not only their own patients'. */
+    onDuty: boolean().notNull().default(true),
     createdAt: createdAt(),
     lastSignInAt: timestamp({ withTimezone: true }),
   },
@@ -595,6 +597,9 @@ export const resultAlerts = pgTable(
     acknowledgeNote: text(),
     /** Set when the reading left this patient (reassigned or voided): the alert no longer applies. */
     withdrawnAt: timestamp({ withTimezone: true }),
+    /** When nobody had acknowledged it in time and it was e-mailed to the clinic's escalation list. */
+    escalatedAt: timestamp({ withTimezone: true }),
+    escalationMailId: uuid().references((): AnyPgColumn => outboundMail.id, { onDelete: 'set null' }),
   },
   (t) => [
     uniqueIndex('result_alerts_assignment_key').on(t.assignmentId),
@@ -733,6 +738,82 @@ export type ControlMaterial = typeof controlMaterials.$inferSelect;
 export type QualityGoal = typeof qualityGoals.$inferSelect;
 export type IntervalVerification = typeof intervalVerifications.$inferSelect;
 
+export const mailStatus = pgEnum('mail_status', ['queued', 'sent', 'failed']);
+
+export interface MailAttachment {
+  filename: string;
+  contentType: string;
+  /** The bytes, base64: attachments are small (a report PDF) and must survive a restart until sent. */
+  contentBase64: string;
+}
+
+/**
+ * Every e-mail Benchwire sends, queued in the sender's transaction and delivered by the mail worker with
+ * retries and backoff. A message that could not be delivered stays here as 'failed', never dropped.
+ */
+export const outboundMail = pgTable(
+  'outbound_mail',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    /** Why it was sent: 'report', 'alert-escalation', 'invitation', 'password-reset'. */
+    purpose: text().notNull(),
+    toAddresses: text().array().notNull(),
+    subject: text().notNull(),
+    textBody: text().notNull(),
+    htmlBody: text(),
+    attachments: jsonb().$type<MailAttachment[]>().notNull().default([]),
+    status: mailStatus().notNull().default('queued'),
+    attempts: integer().notNull().default(0),
+    maxAttempts: integer().notNull().default(6),
+    nextAttemptAt: timestamp({ withTimezone: true }).notNull().defaultNow(),
+    lastError: text(),
+    lastAttemptAt: timestamp({ withTimezone: true }),
+    sentAt: timestamp({ withTimezone: true }),
+    /** The Message-ID the SMTP server accepted. */
+    messageId: text(),
+    patientId: uuid().references(() => patients.id, { onDelete: 'restrict' }),
+    createdBy: uuid().references(() => staffUsers.id, { onDelete: 'set null' }),
+    createdAt: createdAt(),
+  },
+  (t) => [
+    index('outbound_mail_due_idx').on(t.status, t.nextAttemptAt),
+    index('outbound_mail_patient_idx').on(t.patientId, t.createdAt),
+    check('outbound_mail_has_recipient', sql`cardinality(${t.toAddresses}) > 0`),
+  ],
+);
+
+/** A result report for one patient and visit day, sent by a veterinarian; its delivery is its mail row. */
+export const resultReports = pgTable(
+  'result_reports',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    patientId: uuid()
+      .notNull()
+      .references(() => patients.id, { onDelete: 'restrict' }),
+    /** The visit: the calendar day (clinic time zone) the results were measured. */
+    visitDate: date({ mode: 'string' }).notNull(),
+    /** The results the report held when sent. */
+    readingIds: uuid().array().notNull(),
+    recipientKind: text().$type<'owner' | 'referring-vet'>().notNull(),
+    recipientName: text(),
+    recipientEmail: text().notNull(),
+    message: text(),
+    mailId: uuid()
+      .notNull()
+      .references(() => outboundMail.id, { onDelete: 'restrict' }),
+    sentBy: uuid()
+      .notNull()
+      .references(() => staffUsers.id, { onDelete: 'restrict' }),
+    createdAt: createdAt(),
+  },
+  (t) => [
+    index('result_reports_patient_idx').on(t.patientId, t.createdAt),
+    check('result_reports_recipient_kind', sql`${t.recipientKind} in ('owner', 'referring-vet')`),
+  ],
+);
+
 export type Clinic = typeof clinics.$inferSelect;
 export type StaffUser = typeof staffUsers.$inferSelect;
 export type StaffSession = typeof staffSessions.$inferSelect;
@@ -752,6 +833,8 @@ export type LabOrder = typeof labOrders.$inferSelect;
 export type ReferenceInterval = typeof referenceIntervals.$inferSelect;
 export type ResultReview = typeof resultReviews.$inferSelect;
 export type ResultAlert = typeof resultAlerts.$inferSelect;
+export type OutboundMail = typeof outboundMail.$inferSelect;
+export type ResultReport = typeof resultReports.$inferSelect;
 export type PatientStatus = (typeof patientStatus.enumValues)[number];
 export type Species = (typeof species.enumValues)[number];
 export type SampleType = (typeof sampleType.enumValues)[number];

@@ -93,7 +93,12 @@ export async function seedDemoClinic(db: Db): Promise<{ clinicId: string; bridge
   return db.transaction(async (tx) => {
     const [clinic] = await tx
       .insert(clinics)
-      .values({ name: 'Fernhollow Animal Clinic', timeZone: 'Europe/London' })
+      .values({
+        name: 'Fernhollow Animal Clinic',
+        timeZone: 'Europe/London',
+        // Demo only: unacknowledged criticals go to an invented duty mailbox (kept by the local mail sink).
+        settings: { criticalEscalationMinutes: 10, escalationEmails: ['duty-phone@fernhollow.example'] },
+      })
       .returning();
     const staff = await tx
       .insert(staffUsers)

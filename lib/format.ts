@@ -1,5 +1,9 @@
 // Display helpers shared by server and client components.
 
+/** The cautions every screen, report and e-mail that shows results carries. */
+export const CLINICAL_CAUTION_TEXT =
+  'Results support, and never replace, a veterinarian’s clinical judgement. Verify unexpected values (repeat the test, check the sample and the patient’s identity) before acting on them, and follow local regulations and licensed practice.';
+
 export function formatValue(r: { value: number | null; comparator: string | null; unit: string | null }): string {
   if (r.value === null) return '—';
   const number = Number.isInteger(r.value) ? String(r.value) : String(Number(r.value.toFixed(4)));

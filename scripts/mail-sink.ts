@@ -16,11 +16,14 @@ export function startMailSink(options: { port: number; dir: string; host?: strin
       const file = path.join(options.dir, `${new Date().toISOString().replace(/[:.]/g, '-')}-${++counter}.eml`);
       const out = fs.createWriteStream(file);
       stream.pipe(out);
-      stream.on('end', () => {
-        console.log(`[mail-sink] kept a message from ${session.envelope.mailFrom || '(unknown)'} in ${file}`);
+      // Answer 250 only once the file is complete on disk, so whoever reads the folder next sees it whole.
+      out.on('finish', () => {
+        const from = session.envelope.mailFrom ? session.envelope.mailFrom.address : '(unknown)';
+        console.log(`[mail-sink] kept a message from ${from} in ${file}`);
         callback();
       });
       stream.on('error', callback);
+      out.on('error', callback);
     },
   });
   server.on('error', (error) => console.error('[mail-sink] error', error.message));

@@ -73,10 +73,16 @@ process.on('SIGTERM', () => stop());
 async function main() {
   buildIfNeeded();
   fs.mkdirSync(dataDir, { recursive: true });
-  run('web app', bin('tsx'), ['--tsconfig', 'tsconfig.server.json', 'server.ts', '--seed-demo']);
+  // The sink first, so the app's mail queue finds it; the app sends to it over SMTP like to any server.
+  const mailDir = path.join(dataDir, 'mail');
+  await startMailSink({ port: mailPort, dir: mailDir });
+  run('web app', bin('tsx'), ['--tsconfig', 'tsconfig.server.json', 'server.ts', '--seed-demo'], {
+    SMTP_URL: process.env.SMTP_URL ?? `smtp://127.0.0.1:${mailPort}`,
+    // Demo only: the Outbox page reads what the sink kept.
+    MAIL_SINK_DIR: mailDir,
+    APP_URL: process.env.APP_URL ?? `http://localhost:${port}`,
+  });
   await waitForHealth(120_000);
-
-  await startMailSink({ port: mailPort, dir: path.join(dataDir, 'mail') });
 
   const tokenFile = path.join(dataDir, 'demo-bridge-token');
   if (!fs.existsSync(tokenFile)) {

@@ -7,6 +7,8 @@ export interface ClientActor {
   userId: string;
   role: StaffRole;
   displayName: string;
+  /** Veterinarians: on duty, every open critical result reaches them live. */
+  onDuty: boolean;
 }
 
 const ActorContext = createContext<ClientActor | null>(null);

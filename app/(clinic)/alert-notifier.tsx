@@ -1,10 +1,12 @@
 'use client';
-// Critical results reach the attending veterinarian at once: a count in the header, and a notice that
-// stays until dismissed when one arrives live. The list on Review stays until someone acknowledges.
+// Critical results reach every veterinarian on duty at once (and the attending one in any case): a count
+// in the header, and a notice that stays until dismissed when one arrives live. The list on Review stays
+// until someone acknowledges; unacknowledged past the clinic's set time, it is e-mailed to the escalation list.
 import Link from 'next/link';
+import { useRouter } from 'next/navigation';
 import { useEffect, useState } from 'react';
 import useSWR from 'swr';
-import { fetcher } from '@/lib/client/fetcher';
+import { fetcher, send } from '@/lib/client/fetcher';
 import type { AlertView } from '@/lib/clinical/review';
 import { useActor } from './actor';
 import { useLive } from './live';
@@ -14,18 +16,31 @@ type Alert = Omit<AlertView, 'createdAt' | 'acknowledgedAt' | 'withdrawnAt'> & {
 export function AlertNotifier() {
   const actor = useActor();
   const { listen } = useLive();
-  const { data } = useSWR<{ alerts: Alert[] }>('/api/alerts?status=open&mine=1', fetcher, { refreshInterval: 120_000 });
+  const router = useRouter();
+  const { data, mutate } = useSWR<{ alerts: Alert[] }>('/api/alerts?status=open&mine=duty', fetcher, { refreshInterval: 60_000 });
   const [arrived, setArrived] = useState<string[]>([]);
+  const [dutyError, setDutyError] = useState<string | null>(null);
 
   useEffect(
     () =>
       listen((event) => {
-        if (event.type === 'alert.created' && (!event.userId || event.userId === actor.userId)) {
+        if (event.type === 'alert.created' && (actor.onDuty || !event.userId || event.userId === actor.userId)) {
           setArrived((ids) => [...ids, event.id]);
         }
       }),
-    [listen, actor.userId],
+    [listen, actor.userId, actor.onDuty],
   );
+
+  const toggleDuty = async () => {
+    setDutyError(null);
+    try {
+      await send('/api/auth/me/duty', 'POST', { onDuty: !actor.onDuty });
+      router.refresh();
+      void mutate();
+    } catch (error) {
+      setDutyError(error instanceof Error ? error.message : 'Could not change duty.');
+    }
+  };
 
   // Nothing until the list has loaded: a "0" before then would be a false all-clear.
   if (actor.role !== 'veterinarian' || !data) return null;
@@ -33,6 +48,17 @@ export function AlertNotifier() {
   const fresh = open.filter((a) => arrived.includes(a.id));
   return (
     <>
+      <button
+        type="button"
+        onClick={toggleDuty}
+        aria-pressed={actor.onDuty}
+        title={actor.onDuty ? 'On duty: every open critical result reaches you. Select to go off duty.' : 'Off duty: only your own patients’ critical results. Select to go on duty.'}
+        className={`rounded-md border px-2 py-1 text-xs ${actor.onDuty ? 'border-moss-100 bg-moss-700 text-white' : 'border-ink-500 text-ink-300'}`}
+        data-testid="duty-toggle"
+      >
+        {actor.onDuty ? 'On duty' : 'Off duty'}
+      </button>
+      {dutyError && <span role="alert" className="text-xs text-alarm-100">{dutyError}</span>}
       <Link
         href="/reviews"
         className={`rounded-md px-2 py-1 text-xs font-semibold ${open.length ? 'bg-alarm-700 text-white' : 'text-ink-300'}`}

@@ -4,6 +4,7 @@ import { requirePageActor } from '@/lib/auth/current';
 import { mustChangePassword } from '@/lib/staff';
 import { allowed, roleLabel } from '@/lib/auth/roles';
 import { BrandMark } from '@/app/components/ui';
+import { outboxDir } from '@/lib/mail/outbox';
 import { ActorProvider } from './actor';
 import { AlertNotifier } from './alert-notifier';
 import { BridgeOfflineNotifier } from './bridge-offline-notifier';
@@ -18,7 +19,7 @@ export default async function ClinicLayout({ children }: { children: React.React
   if (await mustChangePassword(actor.userId)) redirect('/change-password');
   return (
     <LiveProvider>
-      <ActorProvider actor={{ userId: actor.userId, role: actor.role, displayName: actor.displayName }}>
+      <ActorProvider actor={{ userId: actor.userId, role: actor.role, displayName: actor.displayName, onDuty: actor.onDuty !== false }}>
       <div className="flex min-h-screen flex-col">
         <header className="bg-ink-900 text-white">
           <div className="mx-auto flex max-w-7xl flex-wrap items-center gap-x-6 gap-y-2 px-4 py-3">
@@ -33,6 +34,7 @@ export default async function ClinicLayout({ children }: { children: React.React
               <NavLink href="/reviews">Review</NavLink>
               <NavLink href="/qc">QC</NavLink>
               {allowed(actor.role, 'manageClinic') && <NavLink href="/admin">Admin</NavLink>}
+              {outboxDir() && <NavLink href="/outbox">Outbox (demo)</NavLink>}
             </nav>
             <div className="ml-auto flex items-center gap-4 text-sm">
               <AlertNotifier />

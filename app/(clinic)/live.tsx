@@ -28,6 +28,8 @@ export function revalidates(event: LiveEvent): string[] {
   // Lab quality: kit stock, QC runs and marks, instrument health; QC readings leave Intake.
   if (family === 'quality') keys.push('/api/quality', '/api/readings', '/api/patients');
   if (family === 'instrument' || family === 'reading' || family === 'capture') keys.push('/api/quality/health');
+  if (family === 'mail' || family === 'report') keys.push('/api/admin/mail');
+  if (family === 'staff') keys.push('/api/alerts', '/api/admin/staff');
   if (family === 'settings') keys.push('/api/admin/clinical', '/api/patients', '/api/readings', '/api/orders');
   if (event.patientId) keys.push(`/api/patients/${event.patientId}`);
   return keys;

@@ -1,5 +1,6 @@
 // Small shared pieces of Benchwire's look. Plain Tailwind classes; no component library.
 import type { ComponentProps, ReactNode } from 'react';
+import { CLINICAL_CAUTION_TEXT } from '@/lib/format';
 
 export const buttonClass = {
   primary:
@@ -81,10 +82,6 @@ export function PageHeader({ title, children }: { title: string; children?: Reac
 /** The cautions every screen that shows results carries. */
 export function ClinicalCaution() {
   return (
-    <p className="text-xs leading-relaxed text-ink-500">
-      Results support, and never replace, a veterinarian’s clinical judgement. Verify unexpected values (repeat the test,
-      check the sample and the patient’s identity) before acting on them, and follow local regulations and licensed
-      practice.
-    </p>
+    <p className="text-xs leading-relaxed text-ink-500">{CLINICAL_CAUTION_TEXT}</p>
   );
 }

@@ -14,6 +14,8 @@ export interface Actor {
   role: StaffRole;
   displayName: string;
   email: string;
+  /** Veterinarians on duty see every open critical result, not only their own patients'. */
+  onDuty?: boolean;
 }
 
 /** Resolves a sealed session cookie to an active staff member, re-reading role and status from the database. */
@@ -36,7 +38,7 @@ export async function actorFromSeal(seal: string | null | undefined): Promise<Ac
     );
   const user = row?.user;
   if (!user || !user.active) return null;
-  return { userId: user.id, clinicId: user.clinicId, role: user.role, displayName: user.displayName, email: user.email };
+  return { userId: user.id, clinicId: user.clinicId, role: user.role, displayName: user.displayName, email: user.email, onDuty: user.onDuty };
 }
 
 export function actorFromRequest(request: Request): Promise<Actor | null> {

@@ -154,8 +154,15 @@ export async function unreviewedResults(actor: Actor, mine: boolean) {
   });
 }
 
-/** Critical-result alerts: open ones (not acknowledged, still on that patient), or all recent ones. */
-export async function listAlerts(actor: Actor, filter: { status: 'open' | 'all'; mine: boolean }) {
+/** Whether this staff member is a veterinarian on duty (sees every open critical result live). */
+export const seesEveryCritical = (actor: Actor) => actor.role === 'veterinarian' && actor.onDuty !== false;
+
+/**
+ * Critical-result alerts: open ones (not acknowledged, still on that patient), or all recent ones.
+ * `mine: 'duty'` is the header's view: every alert for a veterinarian on duty, otherwise their own.
+ */
+export async function listAlerts(actor: Actor, filter: { status: 'open' | 'all'; mine: boolean | 'duty' }) {
+  const mine = filter.mine === 'duty' ? !seesEveryCritical(actor) : filter.mine;
   const database = await db();
   const acknowledger = staffUsers;
   const rows = await database
@@ -173,6 +180,7 @@ export async function listAlerts(actor: Actor, filter: { status: 'open' | 'all';
       acknowledgedByName: acknowledger.displayName,
       acknowledgeNote: resultAlerts.acknowledgeNote,
       withdrawnAt: resultAlerts.withdrawnAt,
+      escalatedAt: resultAlerts.escalatedAt,
     })
     .from(resultAlerts)
     .innerJoin(patients, eq(patients.id, resultAlerts.patientId))
@@ -182,7 +190,7 @@ export async function listAlerts(actor: Actor, filter: { status: 'open' | 'all';
         eq(resultAlerts.clinicId, actor.clinicId),
         filter.status === 'open' ? and(isNull(resultAlerts.acknowledgedAt), isNull(resultAlerts.withdrawnAt)) : undefined,
         // "Mine": for me, or for nobody in particular (the patient had no attending veterinarian).
-        filter.mine ? sql`(${resultAlerts.recipientId} = ${actor.userId} or ${resultAlerts.recipientId} is null)` : undefined,
+        mine ? sql`(${resultAlerts.recipientId} = ${actor.userId} or ${resultAlerts.recipientId} is null)` : undefined,
       ),
     )
     .orderBy(desc(resultAlerts.createdAt))

@@ -7,7 +7,7 @@ import { profileDefinitionSchema } from './profile';
 // Request shapes shared by the forms in app/ and the route handlers.
 
 /** Trimmed and lower-cased first, then checked: a pasted address with spaces is still an address. */
-const emailAddress = z.string().trim().toLowerCase().max(200).pipe(z.email('Enter a valid e-mail address.'));
+export const emailAddress = z.string().trim().toLowerCase().max(200).pipe(z.email('Enter a valid e-mail address.'));
 
 export const signInSchema = z.object({
   email: emailAddress,

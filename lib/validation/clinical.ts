@@ -1,6 +1,7 @@
 import { z } from 'zod';
 import { text, isoDateTime } from './text';
 import { sampleType, species } from '@/db/schema';
+import { emailAddress } from './api';
 
 // Request shapes for orders, matching, review, alerts and the clinic's clinical settings.
 
@@ -65,20 +66,43 @@ export const acknowledgeSchema = z.object({ note: optionalText(500, true) });
 
 export const alertsQuery = z.object({
   status: z.enum(['open', 'all']).default('open'),
-  mine: z.enum(['1', '0']).default('0'),
+  /** '1': my patients (and patients with no attending); 'duty': everything while I am on duty, else mine. */
+  mine: z.enum(['1', '0', 'duty']).default('0'),
 });
 
 export const unreviewedQuery = z.object({ mine: z.enum(['1', '0']).default('1') });
+
+const escalationMinutes = z
+  .number('Give the minutes as a number.')
+  .int('Give whole minutes.')
+  .min(1, 'At least 1 minute.')
+  .max(240, 'At most 240 minutes (4 hours).');
+const escalationEmails = z
+  .array(emailAddress)
+  .max(20, 'At most 20 addresses.');
 
 /** Clinic-wide switches, kept in clinics.settings. */
 export const clinicalSettingsSchema = z.object({
   /** Off unless an administrator turns it on: auto-assign on an exact sample ID to one open order. */
   autoAssignExactId: z.boolean().default(false),
+  /** A critical result nobody acknowledged within this many minutes is e-mailed to the escalation list. */
+  criticalEscalationMinutes: escalationMinutes.default(10),
+  /** Who gets those e-mails (a duty phone's mailbox, the practice manager…); empty means none is sent. */
+  escalationEmails: escalationEmails.default([]),
 });
 export type ClinicalSettings = z.infer<typeof clinicalSettingsSchema>;
 
 /** A change to some switches; no defaults here, so an omitted switch keeps its value. */
-export const clinicalSettingsPatchSchema = z.object({ autoAssignExactId: z.boolean().optional() }).strict();
+export const clinicalSettingsPatchSchema = z
+  .object({
+    autoAssignExactId: z.boolean().optional(),
+    criticalEscalationMinutes: escalationMinutes.optional(),
+    escalationEmails: escalationEmails.optional(),
+  })
+  .strict();
+
+/** A veterinarian going on or off duty (on duty: sees every open critical result live). */
+export const dutySchema = z.object({ onDuty: z.boolean() });
 
 const limit = z.number().finite().nullable();
 
@@ -140,3 +164,5 @@ export const protocolSchema = z.object({
   source: text(1000, { min: 3, minMessage: 'Say where the timings come from.' }),
 });
 export type ProtocolInput = z.infer<typeof protocolSchema>;
+
+export const mailQuery = z.object({ status: z.enum(['queued', 'sent', 'failed']).optional() });

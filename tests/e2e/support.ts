@@ -48,7 +48,7 @@ export interface RunningApp {
   stop(): Promise<void>;
 }
 
-export async function startApp(): Promise<RunningApp> {
+export async function startApp(extraEnv: Record<string, string> = {}): Promise<RunningApp> {
   if (!fs.existsSync(path.join(root, '.next', 'BUILD_ID'))) {
     throw new Error('No production build: run `npx next build` first (npm test does).');
   }
@@ -56,7 +56,7 @@ export async function startApp(): Promise<RunningApp> {
   const dataDir = fs.mkdtempSync(path.join(os.tmpdir(), 'benchwire-e2e-'));
   let output = '';
   const children: ChildProcess[] = [];
-  const env = { ...process.env, PORT: String(port), DATA_DIR: dataDir, NODE_ENV: 'production' as const, HOST: '127.0.0.1', NEXT_TELEMETRY_DISABLED: '1' };
+  const env = { ...process.env, PORT: String(port), DATA_DIR: dataDir, NODE_ENV: 'production' as const, HOST: '127.0.0.1', NEXT_TELEMETRY_DISABLED: '1', ...extraEnv };
   const track = (child: ChildProcess, name: string) => {
     child.stdout?.on('data', (d) => (output += `[${name}] ${d}`));
     child.stderr?.on('data', (d) => (output += `[${name}] ${d}`));
@@ -115,12 +115,15 @@ export async function signInAs(browser: Browser, baseUrl: string, email: string,
   return page;
 }
 
-/** One server and one browser for a test file, started before its tests and stopped after them. */
-export function appForThisFile(): { readonly app: RunningApp; readonly browser: Browser } {
+/**
+ * One server and one browser for a test file, started before its tests and stopped after them.
+ * `prepare` runs first and may return extra environment for the server (e.g. a mail sink's SMTP_URL).
+ */
+export function appForThisFile(options: { prepare?: () => Promise<Record<string, string>> } = {}): { readonly app: RunningApp; readonly browser: Browser } {
   let app: RunningApp | undefined;
   let browser: Browser | undefined;
   beforeAll(async () => {
-    app = await startApp();
+    app = await startApp((await options.prepare?.()) ?? {});
     browser = await launchBrowser();
   }, 180_000);
   afterAll(async () => {

@@ -11,7 +11,7 @@ import { speciesLabel } from '@/lib/format';
 import { Panel, td, th } from './panel';
 
 interface Config {
-  settings: { autoAssignExactId: boolean };
+  settings: { autoAssignExactId: boolean; criticalEscalationMinutes: number; escalationEmails: string[] };
   analytes: AnalyteSetting[];
   intervals: ReferenceInterval[];
   protocols: RunProtocol[];

@@ -2,11 +2,13 @@ import type { Metadata } from 'next';
 import { requirePageActor } from '@/lib/auth/current';
 import Link from 'next/link';
 import { PageHeader, buttonClass } from '@/app/components/ui';
+import { AlertsMailPanel } from './alerts-mail-panel';
 import { BridgesPanel } from './bridges-panel';
 import { ClinicalPanel } from './clinical-panel';
 import { InstrumentHealthPanel } from './instrument-health';
 import { InstrumentsPanel } from './instruments-panel';
 import { MatchingReportPanel } from './matching-report-panel';
+import { PatientImportPanel } from './patient-import-panel';
 import { StaffPanel } from './staff-panel';
 
 export const metadata: Metadata = { title: 'Admin' };
@@ -32,6 +34,8 @@ export default async function AdminPage() {
         <InstrumentHealthPanel />
         <ClinicalPanel />
         <MatchingReportPanel />
+        <AlertsMailPanel />
+        <PatientImportPanel />
       </div>
     </>
   );

@@ -3,6 +3,7 @@ import { requirePageActor } from '@/lib/auth/current';
 import Link from 'next/link';
 import { allowed } from '@/lib/auth/roles';
 import { PageHeader, buttonClass } from '@/app/components/ui';
+import { ExportForm } from './export-form';
 import { PatientSearch } from './patient-search';
 
 export const metadata: Metadata = { title: 'Patients' };
@@ -19,6 +20,7 @@ export default async function PatientsPage() {
         )}
       </PageHeader>
       <PatientSearch />
+      <ExportForm />
     </>
   );
 }

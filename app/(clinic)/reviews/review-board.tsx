@@ -8,6 +8,14 @@ import { fetcher, send } from '@/lib/client/fetcher';
 import { formatMeasured } from '@/lib/clinical/evaluate';
 import { FLAG_CODE, type FlagResult } from '@/lib/clinical/flags';
 import { formatDateTime } from '@/lib/format';
+import { useNow } from '../use-now';
+
+/** "12 min", "1 h 05 min": how long a critical result has waited for acknowledgement. */
+export function waitedFor(fromIso: string, now: number): string {
+  const minutes = Math.max(0, Math.floor((now - new Date(fromIso).getTime()) / 60_000));
+  if (minutes < 60) return `${minutes} min`;
+  return `${Math.floor(minutes / 60)} h ${String(minutes % 60).padStart(2, '0')} min`;
+}
 
 interface AlertRow {
   id: string;
@@ -17,6 +25,7 @@ interface AlertRow {
   message: string;
   createdAt: string;
   recipientId: string | null;
+  escalatedAt: string | null;
 }
 
 interface UnreviewedRow {
@@ -35,7 +44,9 @@ interface UnreviewedRow {
 
 export function ReviewBoard({ role }: { role: StaffRole }) {
   const [mine, setMine] = useState(role === 'veterinarian');
-  const alerts = useSWR<{ alerts: AlertRow[] }>(`/api/alerts?status=open&mine=${mine ? 1 : 0}`, fetcher);
+  // On duty, "mine" still shows every open critical result: they are everyone's until acknowledged.
+  const alerts = useSWR<{ alerts: AlertRow[] }>(`/api/alerts?status=open&mine=${mine ? 'duty' : 0}`, fetcher);
+  const now = useNow(30_000);
   const unreviewed = useSWR<{ results: UnreviewedRow[] }>(`/api/reviews/unreviewed?mine=${mine ? 1 : 0}`, fetcher);
   const [failure, setFailure] = useState<string | null>(null);
   const [selected, setSelected] = useState<Set<string>>(new Set());
@@ -100,7 +111,13 @@ export function ReviewBoard({ role }: { role: StaffRole }) {
             <li key={a.id} data-alert-id={a.id} className="flex flex-wrap items-center gap-3 rounded-lg border border-alarm-700/40 bg-alarm-100 p-3 text-sm">
               <span className="font-semibold text-alarm-700">Critical</span>
               <span className="flex-1">{a.message}</span>
-              <span className="text-xs text-ink-700">{formatDateTime(a.createdAt)}</span>
+              <span className="text-xs text-ink-700">
+                {formatDateTime(a.createdAt)} ·{' '}
+                <strong className="text-alarm-700" data-testid="alert-waiting">
+                  waiting {waitedFor(a.createdAt, now)}
+                </strong>
+                {a.escalatedAt && <> · e-mailed to the escalation list {formatDateTime(a.escalatedAt)}</>}
+              </span>
               <Link className={buttonClass.secondary} href={`/patients/${a.patientId}`}>
                 Open chart
               </Link>

@@ -6,5 +6,5 @@ import { alertsQuery } from '@/lib/validation/clinical';
 export const GET = apiRoute(async (request) => {
   const actor = await requireActor(request, 'readResults');
   const { status, mine } = readQuery(request, alertsQuery);
-  return json({ alerts: await listAlerts(actor, { status, mine: mine === '1' }) });
+  return json({ alerts: await listAlerts(actor, { status, mine: mine === 'duty' ? 'duty' : mine === '1' }) });
 });

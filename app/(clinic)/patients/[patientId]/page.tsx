@@ -10,6 +10,7 @@ import { ClinicalCaution, Notice } from '@/app/components/ui';
 import { PatientResults } from './patient-results';
 import { RecordActions } from './record-actions';
 import { TakenOffResults } from './taken-off-results';
+import { ReportPanel } from './report-panel';
 
 export const metadata: Metadata = { title: 'Patient record' };
 
@@ -89,6 +90,7 @@ export default async function PatientPage({ params }: { params: Promise<{ patien
       </header>
       <PatientResults patientId={patient.id} patientName={patient.name} />
       <TakenOffResults patientId={patient.id} />
+      <ReportPanel patientId={patient.id} ownerEmail={patient.ownerEmail ?? null} />
       <div className="mt-8">
         <ClinicalCaution />
       </div>
