@@ -1,5 +1,5 @@
 import 'server-only';
-import { and, asc, eq, ilike, or, sql } from 'drizzle-orm';
+import { and, asc, eq, ilike, inArray, sql } from 'drizzle-orm';
 import { db } from '@/db/client';
 import { owners, patients, staffUsers } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
@@ -29,8 +29,13 @@ const likeTerm = (q: string) => `%${q.replace(/[\\%_]/g, (c) => `\\${c}`)}%`;
 export async function searchPatients(actor: Actor, q: string, limit = 50) {
   const database = await db();
   const term = likeTerm(q);
+  // Each arm can use its trigram index (migration 0008); an OR across the joined owners table could not.
   const matches = q
-    ? or(ilike(patients.name, term), ilike(patients.recordNumber, term), ilike(owners.name, term))
+    ? inArray(
+        patients.id,
+        sql`(select ${patients.id} from ${patients} where ${patients.clinicId} = ${actor.clinicId} and (${ilike(patients.name, term)} or ${ilike(patients.recordNumber, term)})
+             union select ${patients.id} from ${patients} join ${owners} on ${owners.id} = ${patients.ownerId} where ${owners.clinicId} = ${actor.clinicId} and ${ilike(owners.name, term)})`,
+      )
     : undefined;
   return database
     .select(patientColumns)

@@ -1,5 +1,5 @@
 import 'server-only';
-import { and, eq, inArray } from 'drizzle-orm';
+import { and, eq, inArray, or, sql } from 'drizzle-orm';
 import { db, type Executor, type Tx } from '@/db/client';
 import { analyteSettings, clinics, instruments, labOrders, patients, readings, runProtocols, type Bridge, type Reading } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
@@ -28,12 +28,18 @@ async function matchContext(tx: Executor, clinicId: string, analytes: string[], 
   ]);
   const patientIds = [...new Set(orders.map((o) => o.order.patientId))];
   const lowerIds = [...new Set(namedIds.map((id) => id.trim().toLowerCase()).filter(Boolean))];
-  const patientRows = await tx
-    .select({ id: patients.id, name: patients.name, recordNumber: patients.recordNumber, species: patients.species })
-    .from(patients)
-    .where(and(eq(patients.clinicId, clinicId), eq(patients.active, true)));
-  // Patients with an open order, plus any whose record number is printed on a reading.
-  const wanted = patientRows.filter((p) => patientIds.includes(p.id) || lowerIds.includes(p.recordNumber.toLowerCase()));
+  // Patients with an open order, plus any whose record number is printed on a reading: chosen in SQL
+  // (indexed), never by loading every patient of the clinic into JavaScript.
+  const named = [
+    patientIds.length ? inArray(patients.id, patientIds) : undefined,
+    lowerIds.length ? inArray(sql`lower(${patients.recordNumber})`, lowerIds) : undefined,
+  ].filter((c) => c !== undefined);
+  const wanted = named.length
+    ? await tx
+        .select({ id: patients.id, name: patients.name, recordNumber: patients.recordNumber, species: patients.species })
+        .from(patients)
+        .where(and(eq(patients.clinicId, clinicId), eq(patients.active, true), or(...named)))
+    : [];
   return {
     orders: orders.map(({ order, earlySeconds, lateSeconds }) => ({
       ...order,
