@@ -16,3 +16,9 @@ export interface AuditEntry {
 export async function recordAudit(tx: Executor, entry: AuditEntry): Promise<void> {
   await tx.insert(auditEvents).values({ ...entry, details: entry.details ?? {} });
 }
+
+/** Appends many entries in one multi-row INSERT (a bridge's batch); same rules as recordAudit. */
+export async function recordAudits(tx: Executor, entries: AuditEntry[]): Promise<void> {
+  if (!entries.length) return;
+  await tx.insert(auditEvents).values(entries.map((entry) => ({ ...entry, details: entry.details ?? {} })));
+}

@@ -109,29 +109,41 @@ export async function suggestionsForUnassigned(actor: Actor, perReading = 3) {
 }
 
 /**
- * The clinic's opt-in rule, applied inside the ingest transaction: a reading whose exact sample ID (or
- * record number) names exactly one open order goes on that order's patient. Off unless switched on.
+ * The clinic's opt-in rule, applied inside the ingest transaction to a batch's new readings: a reading
+ * whose exact sample ID (or record number) names exactly one open order goes on that order's patient.
+ * Off unless switched on. The setting and the open orders are looked up once for the whole batch.
  */
-export async function autoAssignOnIngest(tx: Tx, bridge: Bridge, reading: Reading): Promise<boolean> {
-  if (!reading.sampleId && !reading.patientRef) return false;
+export async function autoAssignBatchOnIngest(tx: Tx, bridge: Bridge, created: Reading[]): Promise<number> {
+  const named = created.filter((r) => r.sampleId || r.patientRef);
+  if (!named.length) return 0;
   const settings = await clinicalSettings(tx, bridge.clinicId);
-  if (!settings.autoAssignExactId) return false;
-  const context = await matchContext(tx, bridge.clinicId, [reading.analyte], [reading.sampleId, reading.patientRef].filter((x): x is string => !!x));
-  const target = autoAssignTarget(inputFor(reading, context));
-  if (!target) return false;
-  try {
-    // A savepoint: if the order was taken meanwhile, the reading stays in Intake and the upload still succeeds.
-    await tx.transaction(async (sp) => {
-      const patient = await loadPatientForPlacement(sp, bridge.clinicId, target.patientId);
-      await placeReading(sp, { clinicId: bridge.clinicId, userId: null, bridgeId: bridge.id }, reading, patient, {
-        orderId: target.orderId,
-        method: 'auto-sample-id',
-        details: { rule: 'exact sample ID to one open order (clinic setting)', reason: target.reason },
+  if (!settings.autoAssignExactId) return 0;
+  const context = await matchContext(
+    tx,
+    bridge.clinicId,
+    [...new Set(named.map((r) => r.analyte))],
+    named.flatMap((r) => [r.sampleId, r.patientRef]).filter((x): x is string => !!x),
+  );
+  let placed = 0;
+  for (const reading of named) {
+    const target = autoAssignTarget(inputFor(reading, context));
+    if (!target) continue;
+    try {
+      // A savepoint: if the order was taken meanwhile, the reading stays in Intake and the upload still succeeds.
+      await tx.transaction(async (sp) => {
+        const patient = await loadPatientForPlacement(sp, bridge.clinicId, target.patientId);
+        await placeReading(sp, { clinicId: bridge.clinicId, userId: null, bridgeId: bridge.id }, reading, patient, {
+          orderId: target.orderId,
+          method: 'auto-sample-id',
+          details: { rule: 'exact sample ID to one open order (clinic setting)', reason: target.reason },
+        });
       });
-    });
-    return true;
-  } catch (error) {
-    if (error instanceof ApiError) return false;
-    throw error;
+      placed += 1;
+      // As a fresh lookup would now see it: that order has its reading.
+      context.orders = context.orders.filter((o) => o.id !== target.orderId);
+    } catch (error) {
+      if (!(error instanceof ApiError)) throw error;
+    }
   }
+  return placed;
 }
