@@ -27,34 +27,41 @@ const report = new Report();
 const started = Date.now();
 const step = (what: string) => console.log(`\n[bench] ── ${what} (${Math.round((Date.now() - started) / 1000)} s in)`);
 
-if (wanted('parser')) {
-  step('parsers');
-  await benchParsers(report, quick ? 2 : Number(process.env.BENCH_PARSER_MB ?? 12.5));
-}
+try {
+  if (wanted('db') || wanted('server')) {
+    if (!datasetReady(datasetDir)) {
+      step(`building the data set into ${datasetDir} (once; npm run bench:data rebuilds it)`);
+      await buildDataset(datasetDir);
+    }
+    // Work on a copy, so every run starts from the same data set.
+    const work = fs.mkdtempSync(path.join(os.tmpdir(), 'benchwire-bench-'));
+    fs.cpSync(datasetDir, work, { recursive: true });
+    try {
+      let rawRate = NaN;
+      if (wanted('db')) {
+        step('in-process: read-path SQL with EXPLAIN, ingest against raw INSERT');
+        ({ rawRate } = await benchInProcess(report, work, quick ? 3 : 10));
+      }
+      if (wanted('server')) {
+        step('production build (only when sources changed)');
+        buildIfNeeded(process.env, '[bench]');
+        step('the real server on the loaded data set');
+        await benchServer(report, work, { rawRate, batches: quick ? 4 : 20, fanOutBatches: quick ? 2 : 10, slips: quick ? 20 : 60 });
+      }
+    } finally {
+      fs.rmSync(work, { recursive: true, force: true });
+    }
+  }
 
-if (wanted('db') || wanted('server')) {
-  if (!datasetReady(datasetDir)) {
-    step(`building the data set into ${datasetDir} (once; npm run bench:data rebuilds it)`);
-    await buildDataset(datasetDir);
+  if (wanted('parser')) {
+    step('parsers');
+    await benchParsers(report, quick ? 2 : Number(process.env.BENCH_PARSER_MB ?? 12.5));
   }
-  // Work on a copy, so every run starts from the same data set.
-  const work = fs.mkdtempSync(path.join(os.tmpdir(), 'benchwire-bench-'));
-  fs.cpSync(datasetDir, work, { recursive: true });
-  try {
-    let rawRate = NaN;
-    if (wanted('db')) {
-      step('in-process: read-path SQL with EXPLAIN, ingest against raw INSERT');
-      ({ rawRate } = await benchInProcess(report, work, quick ? 3 : 10));
-    }
-    if (wanted('server')) {
-      step('production build (only when sources changed)');
-      buildIfNeeded(process.env, '[bench]');
-      step('the real server on the loaded data set');
-      await benchServer(report, work, { rawRate, batches: quick ? 4 : 20, fanOutBatches: quick ? 2 : 10, slips: quick ? 20 : 120 });
-    }
-  } finally {
-    fs.rmSync(work, { recursive: true, force: true });
-  }
+} catch (error) {
+  // Whatever was measured is still printed and written, with the failure noted.
+  console.error('[bench] a section failed:', error);
+  report.notes.push(`a section failed: ${error instanceof Error ? error.message : String(error)}`);
+  process.exitCode = 1;
 }
 
 if (wanted('vitest')) {

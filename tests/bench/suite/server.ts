@@ -67,6 +67,14 @@ export async function startServer(dataDir: string): Promise<Server> {
   };
 }
 
+/** Like Promise.all, but waits for every member before failing, so none is left unhandled. */
+async function settleAll<T>(promises: Promise<T>[]): Promise<T[]> {
+  const settled = await Promise.allSettled(promises);
+  const failed = settled.find((s): s is PromiseRejectedResult => s.status === 'rejected');
+  if (failed) throw failed.reason;
+  return settled.map((s) => (s as PromiseFulfilledResult<T>).value);
+}
+
 export async function signIn(url: string, email: string): Promise<string> {
   const response = await fetch(`${url}/api/auth/sign-in`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ email, password: 'demo-only-pass' }) });
   if (!response.ok) throw new Error(`sign-in failed: ${response.status} ${await response.text()}`);
@@ -160,7 +168,13 @@ async function ptyLatency(report: Report, server: Server, cookie: string, token:
   const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'benchwire-bench-pty-'));
   const socat = await startPtyPair(path.join(dir, 'analyzer'), path.join(dir, 'lab-pc'));
   const reader = createReader({ seed: 5 });
-  const texts = Array.from({ length: slips }, () => reader.next().text);
+  // Result slips without a printer notice: each makes exactly one reading (a failed run or a notice
+  // would make an unparsed capture, and the timing below waits for reading.created).
+  const texts: string[] = [];
+  while (texts.length < slips) {
+    const slip = reader.next();
+    if (slip.kind === 'result' && slip.notice === null) texts.push(slip.text);
+  }
   let bridge: ChildProcess | undefined;
   let analyzer: Awaited<ReturnType<typeof openAnalyzerEnd>> | undefined;
   let labPc: Awaited<ReturnType<typeof openAnalyzerEnd>> | undefined;
@@ -207,6 +221,12 @@ async function ptyLatency(report: Report, server: Server, cookie: string, token:
       analyzer.write(texts[0]);
       await Promise.race([warm, sleep(2000)]);
     }
+    // The warm-up may have sent the first slip more than once: let those readings arrive before timing.
+    let lastHeard = Date.now();
+    const quiet = (data: Buffer) => announced(JSON.parse(String(data))) > 0 && (lastHeard = Date.now());
+    ws.on('message', quiet);
+    while (Date.now() - lastHeard < 3000) await sleep(200);
+    ws.off('message', quiet);
     const latencies: number[] = [];
     let bridgeRss = 0;
     for (const text of texts.slice(1)) {
@@ -322,7 +342,7 @@ export async function benchServer(report: Report, dataDir: string, options: { ra
     }
     const per = Math.max(1, Math.floor(options.batches / 4));
     t = now();
-    await Promise.all(tokens.map(async (tk, b) => {
+    await settleAll(tokens.map(async (tk, b) => {
       for (let n = 0; n < per; n++) await postBatch(server.url, tk, benchBatch(`http4-${b}`, n));
     }));
     const fourRate = (4 * per * BATCH) / (ms(t) / 1000);
@@ -349,7 +369,7 @@ export async function benchServer(report: Report, dataDir: string, options: { ra
 
     await intakeTab(report, server, token);
   } catch (error) {
-    console.error(server.output().slice(-3000));
+    console.error(`[bench] the server said:\n${server.output().slice(-4000)}`);
     throw error;
   } finally {
     await server.stop();
