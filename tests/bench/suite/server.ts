@@ -152,7 +152,8 @@ async function firstLoadJs(server: Server, cookie: string, pages: string[]) {
   };
   const perPage = new Map<string, Set<string>>();
   for (const page of pages) {
-    const response = await fetch(`${server.url}${page}`, { headers: { cookie }, redirect: 'manual' });
+    // The sign-in page is what a signed-out browser loads (signed in, it redirects to Intake).
+    const response = await fetch(`${server.url}${page}`, { headers: page === '/sign-in' ? {} : { cookie }, redirect: 'manual' });
     const html = await response.text();
     if (!response.ok) throw new Error(`${page}: HTTP ${response.status}`);
     const scripts = new Set([...html.matchAll(/(?:src|href)="(\/_next\/static\/[^"?]+\.js)[^"]*"/g)].map((m) => m[1]));
@@ -296,6 +297,16 @@ async function intakeTab(report: Report, server: Server, token: string) {
   }
 }
 
+/** One part of the server run; a failure is noted and the other parts still run. */
+async function part(report: Report, name: string, run: () => Promise<void>) {
+  try {
+    await run();
+  } catch (error) {
+    console.error(`[bench] ${name} failed:`, error);
+    report.notes.push(`${name} failed: ${error instanceof Error ? error.message : String(error)}`);
+  }
+}
+
 export async function benchServer(report: Report, dataDir: string, options: { rawRate: number; batches: number; fanOutBatches: number; slips: number }) {
   const token = fs.readFileSync(path.join(dataDir, 'demo-bridge-token'), 'utf8').trim();
   // Baseline for start-up: node itself with tsx's loader and nothing else.
@@ -361,13 +372,15 @@ export async function benchServer(report: Report, dataDir: string, options: { ra
     const bridgeRss = await ptyLatency(report, server, vet, token, options.slips);
     report.add({ section: 'memory', name: 'bridge RSS while streaming (max)', value: bridgeRss, unit: 'MB', baseline: 'server RSS idle', baselineValue: idleRss });
 
+    await part(report, 'first-load JS', async () => {
     const pages = ['/sign-in', '/intake', '/bench', '/patients', `/patients/${ids.heavyPatientId}`, '/reviews', '/admin', '/admin/profiles'];
     const js = await firstLoadJs(server, vet, pages);
     for (const { page, kB } of js.perPage) {
       report.add({ section: 'first-load JS', name: page.replace(ids.heavyPatientId, '[patientId]'), value: kB, unit: 'kB gzip', baseline: 'shared by every page', baselineValue: js.sharedKB, target: '< 250 kB', met: kB < 250 });
     }
+    });
 
-    await intakeTab(report, server, token);
+    await part(report, 'Intake tab', () => intakeTab(report, server, token));
   } catch (error) {
     console.error(`[bench] the server said:\n${server.output().slice(-4000)}`);
     throw error;
