@@ -2,6 +2,7 @@ import 'server-only';
 import fs from 'node:fs';
 import path from 'node:path';
 import { PGlite } from '@electric-sql/pglite';
+import { pg_trgm } from '@electric-sql/pglite/contrib/pg_trgm';
 import { drizzle, type PgliteDatabase } from 'drizzle-orm/pglite';
 import { migrate } from 'drizzle-orm/pglite/migrator';
 import * as schema from './schema';
@@ -28,7 +29,8 @@ const MIGRATIONS = path.join(/*turbopackIgnore: true*/ process.cwd(), 'db', 'mig
  */
 export async function openDatabase(dir?: string): Promise<Database> {
   if (dir) fs.mkdirSync(dir, { recursive: true, mode: 0o700 });
-  const pg = await PGlite.create(dir);
+  // pg_trgm: substring search (patient names, record numbers, owners) through trigram indexes.
+  const pg = await PGlite.create(dir, { extensions: { pg_trgm } });
   const db = drizzle({ client: pg, schema, casing: 'snake_case' });
   await migrate(db, { migrationsFolder: MIGRATIONS });
   return {

@@ -137,10 +137,14 @@ export const patients = pgTable(
   },
   (t) => [
     uniqueIndex('patients_clinic_record_key').on(t.clinicId, t.recordNumber),
+    // Record numbers printed on readings are matched case-insensitively (Intake, the exact-ID rule).
+    index('patients_clinic_record_lower_idx').on(t.clinicId, sql`lower(${t.recordNumber})`),
     index('patients_clinic_name_idx').on(t.clinicId, sql`lower(${t.name})`),
     index('patients_owner_idx').on(t.ownerId),
+    // Trigram indexes for substring search on name and record number (and owners' names) are
+    // hand-written in migration 0013: they need the pg_trgm extension created first.
     check('patients_weight_positive', sql`${t.weightKg} is null or ${t.weightKg} > 0`),
-    // Hand-written in migration 0008 (after existing rows are brought in line): active = (status = 'active'),
+    // Hand-written in migration 0010 (after existing rows are brought in line): active = (status = 'active'),
     // and status 'merged' exactly when merged_into_id is set; an insert with only active = false becomes 'archived'.
   ],
 );
@@ -349,12 +353,18 @@ export const resultAssignments = pgTable(
     endedAt: timestamp({ withTimezone: true }),
     endedBy: uuid().references(() => staffUsers.id, { onDelete: 'restrict' }),
     endReason: text(),
+    /** First sign-off of this assignment; kept by a trigger on result_reviews, so Review's list is an index range. */
+    reviewedAt: timestamp({ withTimezone: true }),
   },
   (t) => [
     // One reading is on at most one patient at a time; history rows keep ended_at.
     uniqueIndex('result_assignments_one_current')
       .on(t.readingId)
       .where(sql`${t.endedAt} is null`),
+    // Review: current assignments nobody has signed off yet, newest first.
+    index('result_assignments_unreviewed_idx')
+      .on(t.clinicId, t.assignedAt)
+      .where(sql`${t.endedAt} is null and ${t.reviewedAt} is null`),
     index('result_assignments_patient_idx').on(t.patientId),
     check('result_assignments_by_person_or_rule', sql`${t.assignedBy} is not null or ${t.method} = 'auto-sample-id'`),
     check('result_assignments_end_reason', sql`${t.endedAt} is null or ${t.endReason} is not null`),

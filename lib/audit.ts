@@ -99,3 +99,9 @@ export async function auditActions(clinicId: string) {
   const rows = await database.selectDistinct({ action: auditEvents.action }).from(auditEvents).where(eq(auditEvents.clinicId, clinicId)).orderBy(asc(auditEvents.action));
   return rows.map((r) => r.action);
 }
+
+/** Appends many entries in one multi-row INSERT (a bridge's batch); same rules as recordAudit. */
+export async function recordAudits(tx: Executor, entries: AuditEntry[]): Promise<void> {
+  if (!entries.length) return;
+  await tx.insert(auditEvents).values(entries.map((entry) => ({ ...entry, details: entry.details ?? {} })));
+}

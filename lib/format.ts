@@ -1,4 +1,11 @@
-// Display helpers shared by server and client components.
+// Display helpers shared by server and client components. Keep this module free of heavy imports
+// (units/ucum-lhc, the matcher): every page that formats a value ships it.
+
+/** Rounds for display with the analyte's decimals, keeping the comparator: "<5.0 mg/L". */
+export function formatMeasured(m: { value: number | null; comparator: '<' | '>' | null; unit: string | null }, decimals = 1): string {
+  if (m.value === null) return '—';
+  return `${m.comparator ?? ''}${m.value.toFixed(decimals)}${m.unit ? ` ${m.unit}` : ''}`;
+}
 
 /** The cautions every screen, report and e-mail that shows results carries. */
 export const CLINICAL_CAUTION_TEXT =

@@ -51,8 +51,13 @@ export interface PatientFilter {
 export async function searchPatients(actor: Actor, q: string, limit = 50, filter: PatientFilter = {}) {
   const database = await db();
   const term = likeTerm(q);
+  // Each arm can use its trigram index (migration 0008); an OR across the joined owners table could not.
   const matches = q
-    ? or(ilike(patients.name, term), ilike(patients.recordNumber, term), ilike(owners.name, term), ilike(owners.phone, term))
+    ? inArray(
+        patients.id,
+        sql`(select ${patients.id} from ${patients} where ${patients.clinicId} = ${actor.clinicId} and (${ilike(patients.name, term)} or ${ilike(patients.recordNumber, term)})
+             union select ${patients.id} from ${patients} join ${owners} on ${owners.id} = ${patients.ownerId} where ${owners.clinicId} = ${actor.clinicId} and (${ilike(owners.name, term)} or ${ilike(owners.phone, term)}))`,
+      )
     : undefined;
   const status = filter.status ?? 'open';
   return database

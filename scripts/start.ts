@@ -1,9 +1,10 @@
 // `npm start`: builds if needed, then runs the demo clinic end to end on embedded PGlite:
 // the web app with its live feed (migrates and seeds on first start), a local mail sink,
 // three simulated analyzers and a real bridge reading them.
-import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
+import { spawn, type ChildProcess } from 'node:child_process';
 import fs from 'node:fs';
 import path from 'node:path';
+import { buildIfNeeded } from './build-if-needed';
 import { startMailSink } from './mail-sink';
 
 const root = process.cwd();
@@ -12,29 +13,6 @@ const dataDir = path.resolve(process.env.DATA_DIR ?? path.join(root, '.data'));
 const mailPort = Number(process.env.MAIL_PORT ?? 2525);
 const env = { ...process.env, DATA_DIR: dataDir, PORT: String(port), NODE_ENV: 'production' as const };
 const bin = (name: string) => path.join(root, 'node_modules', '.bin', name);
-
-const SOURCES = ['app', 'lib', 'db', 'public', 'next.config.ts', 'package.json', 'postcss.config.mjs', 'tsconfig.json'];
-
-function newestSourceTime(entry: string): number {
-  const full = path.join(root, entry);
-  if (!fs.existsSync(full)) return 0;
-  const stat = fs.statSync(full);
-  if (!stat.isDirectory()) return stat.mtimeMs;
-  return Math.max(stat.mtimeMs, ...fs.readdirSync(full).map((name) => newestSourceTime(path.join(entry, name))));
-}
-
-/** Builds when there is no build yet or a source file changed since the last one. */
-export function buildIfNeeded() {
-  const buildId = path.join(root, '.next', 'BUILD_ID');
-  const built = fs.existsSync(buildId) ? fs.statSync(buildId).mtimeMs : 0;
-  if (built && Math.max(...SOURCES.map(newestSourceTime)) < built) return;
-  console.log('[start] building the web app (first start or sources changed)…');
-  const result = spawnSync(bin('next'), ['build'], { stdio: 'inherit', env: { ...env, NEXT_TELEMETRY_DISABLED: '1' } });
-  if (result.status !== 0) {
-    console.error('[start] the build failed; see above.');
-    process.exit(result.status ?? 1);
-  }
-}
 
 async function waitForHealth(timeoutMs: number) {
   const deadline = Date.now() + timeoutMs;
@@ -71,7 +49,7 @@ process.on('SIGINT', () => stop());
 process.on('SIGTERM', () => stop());
 
 async function main() {
-  buildIfNeeded();
+  buildIfNeeded(env, '[start]');
   fs.mkdirSync(dataDir, { recursive: true });
   // The sink first, so the app's mail queue finds it; the app sends to it over SMTP like to any server.
   const mailDir = path.join(dataDir, 'mail');

@@ -1,9 +1,14 @@
 'use client';
-// The live feed: one WebSocket per tab. Each event revalidates the SWR data it concerns;
-// after a reconnect everything is revalidated, since events may have been missed meanwhile.
+// The live feed: one WebSocket per tab. Events mark the SWR data they concern stale, and a burst of
+// them is coalesced into one refetch per list (lib/live/coalesce.ts); after a reconnect everything is
+// revalidated, since events may have been missed meanwhile.
 import { createContext, useContext, useEffect, useRef, useState } from 'react';
 import { useSWRConfig } from 'swr';
+import { StaleKeys } from '@/lib/live/coalesce';
 import type { LiveEvent } from '@/lib/live/events';
+
+/** How long a burst of events may gather before the lists it touched are refetched. */
+const COALESCE_MS = 150;
 
 type Listener = (event: LiveEvent) => void;
 type LiveState = 'connecting' | 'live' | 'offline';
@@ -13,13 +18,14 @@ const LiveContext = createContext<{ state: LiveState; listen: (fn: Listener) => 
   listen: () => () => {},
 });
 
-const startsWith = (prefix: string) => (key: unknown) => typeof key === 'string' && key.startsWith(prefix);
-
 /** Which SWR keys (by prefix) an event makes stale. Suggestions live under /api/readings and depend on orders. */
 export function revalidates(event: LiveEvent): string[] {
   const family = event.type.split('.')[0];
   const keys: string[] = [];
-  if (family === 'reading') keys.push('/api/readings', '/api/reviews', '/api/alerts', '/api/orders');
+  // A new reading is unassigned: it changes Intake (list and suggestions) and nothing on a record, a
+  // review list, an alert or a test (placing it by the exact-ID rule sends reading.assigned as well).
+  if (event.type === 'reading.created') keys.push('/api/readings');
+  else if (family === 'reading') keys.push('/api/readings', '/api/reviews', '/api/alerts', '/api/orders');
   if (family === 'capture') keys.push('/api/captures');
   if (family === 'order') keys.push('/api/orders', '/api/readings');
   if (family === 'review') keys.push('/api/reviews');
@@ -39,12 +45,18 @@ export function LiveProvider({ children }: { children: React.ReactNode }) {
   const { mutate } = useSWRConfig();
   const [state, setState] = useState<LiveState>('connecting');
   const listeners = useRef(new Set<Listener>());
+  const stale = useRef<StaleKeys | null>(null);
 
   useEffect(() => {
     let socket: WebSocket | null = null;
     let retry: ReturnType<typeof setTimeout> | undefined;
     let attempts = 0;
     let stopped = false;
+    let flushTimer: ReturnType<typeof setTimeout> | undefined;
+    stale.current = new StaleKeys(
+      (flush) => (flushTimer = setTimeout(flush, COALESCE_MS)),
+      (isStale) => void mutate(isStale),
+    );
 
     const connect = () => {
       const url = `${location.protocol === 'https:' ? 'wss' : 'ws'}://${location.host}/api/live`;
@@ -62,7 +74,7 @@ export function LiveProvider({ children }: { children: React.ReactNode }) {
           return;
         }
         if (!('clinicId' in event)) return;
-        for (const prefix of revalidates(event)) void mutate(startsWith(prefix));
+        stale.current?.mark(revalidates(event));
         for (const listener of listeners.current) listener(event);
       };
       socket.onclose = () => {
@@ -77,6 +89,7 @@ export function LiveProvider({ children }: { children: React.ReactNode }) {
     return () => {
       stopped = true;
       clearTimeout(retry);
+      clearTimeout(flushTimer);
       socket?.close();
     };
   }, [mutate]);

@@ -119,3 +119,34 @@ describe('profile dialect on a byte stream', () => {
     );
   });
 });
+
+describe('a start-only profile whose fields are all read once', () => {
+  // Our profile format (lib/validation/profile.ts): without an end line a record ends at the next start
+  // or when the line goes quiet. When every field it defines has been read and none repeats, nothing
+  // more can belong to the record, so it ends at that line. The longest quiet time the format allows
+  // makes any wait visible: the reading must come from the bytes alone.
+  const single = profileDefinitionSchema.parse({
+    analyzer: 'Invented single-test lactate printer',
+    record: { start: '^LACTATE TEST', idleMs: 600_000 },
+    fields: [
+      { label: 'Sample', pattern: '^SAMPLE\\s+(?<sampleId>\\S+)' },
+      { label: 'Result', pattern: '^(?<analyte>LAC)\\s+(?<value>[\\d.]+)\\s+(?<unit>mmol/L)$' },
+    ],
+  });
+
+  it('ends the record at its last field, without waiting for the next start or the quiet time', async () => {
+    const stages = createParsingStages(profileDialect(single), {});
+    const first = stages[0];
+    const last = stages[stages.length - 1];
+    for (let i = 0; i + 1 < stages.length; i++) stages[i].pipe(stages[i + 1]);
+    const reading = new Promise<ParserOutput>((resolve) => last.once('data', resolve));
+    first.write(Buffer.from('LACTATE TEST\r\nSAMPLE L-7\r\nLAC   2.4 mmol/L\r\n', 'latin1'));
+    expect(await reading).toMatchObject({ kind: 'reading', analyte: 'LAC', value: 2.4, unit: 'mmol/L', sampleId: 'L-7' });
+    for (const stage of stages) stage.destroy();
+  });
+
+  it('a profile with a repeating field still waits (more results may follow)', () => {
+    const framing = profileDialect(profileDefinitionSchema.parse({ ...single, fields: [...single.fields, { label: 'More', pattern: '^X (?<value>\\d+)', repeats: true }] })).framing;
+    expect(framing?.complete).toBeUndefined();
+  });
+});

@@ -60,7 +60,14 @@ export function profileFraming(definition: ProfileDefinition): RecordFraming {
   const start = r.start ? new RegExp(r.start, 'u') : undefined;
   const end = r.end ? new RegExp(r.end, 'u') : undefined;
   const gapMs = r.idleMs ?? (!end && !r.formFeed ? START_ONLY_GAP_MS : undefined);
-  return { start, end, formFeed: r.formFeed, gapMs, idleMs: gapMs === undefined ? GIVE_UP_MS : undefined, maxLines: r.maxLines };
+  // Without an end line or form feed, a record whose every field is read once (none repeats) is whole
+  // at the line that completes it: nothing more can belong to it, so it need not wait for the gap.
+  const patterns = definition.fields.map((f) => new RegExp(f.pattern, 'u'));
+  const complete =
+    !end && !r.formFeed && definition.fields.length > 0 && !definition.fields.some((f) => f.repeats)
+      ? (lines: readonly Line[]) => patterns.every((p) => lines.some((line) => p.test(line.text)))
+      : undefined;
+  return { start, end, formFeed: r.formFeed, complete, gapMs, idleMs: gapMs === undefined ? GIVE_UP_MS : undefined, maxLines: r.maxLines };
 }
 
 /** Which line matched which field, for the preview. */

@@ -109,6 +109,32 @@ describe('LineSplitter', () => {
     splitter.destroy();
   });
 
+  it('on a link that has shown CR-only line ends, a trailing CR ends the line at once, without the quiet time', async () => {
+    // Some printers end lines with CR alone (common practice, no source). An hour-long quiet time makes
+    // any wait visible: the line must come from the write itself.
+    const splitter = new LineSplitter({ releaseCrAfterMs: 3_600_000 });
+    const seen: Line[] = [];
+    splitter.on('data', (line: Line) => seen.push(line));
+    splitter.write(Buffer.from('SAMPLE 4\rK 5.9\r'));
+    await new Promise((resolve) => setImmediate(resolve));
+    expect(seen.map((l) => l.raw)).toEqual(['SAMPLE 4\r', 'K 5.9\r']);
+    splitter.write(Buffer.from('== END ==\r'));
+    await new Promise((resolve) => setImmediate(resolve));
+    expect(seen.map((l) => l.raw)).toEqual(['SAMPLE 4\r', 'K 5.9\r', '== END ==\r']);
+    splitter.destroy();
+  });
+
+  it('a CRLF link keeps holding a trailing CR for its LF, so CRLF split across reads is one line end', async () => {
+    const splitter = new LineSplitter({ releaseCrAfterMs: 3_600_000 });
+    const seen: Line[] = [];
+    splitter.on('data', (line: Line) => seen.push(line));
+    splitter.write(Buffer.from('ONE\r\nTWO\r'));
+    splitter.write(Buffer.from('\nTHREE\r\n'));
+    await new Promise((resolve) => setImmediate(resolve));
+    expect(seen.map((l) => l.raw)).toEqual(['ONE\r\n', 'TWO\r\n', 'THREE\r\n']);
+    splitter.destroy();
+  });
+
   it('decodes latin1 when asked', async () => {
     const out = await lines([Buffer.from([0x35, 0x20, 0xb5, 0x6d, 0x6f, 0x6c, 0x0d, 0x0a])], { encoding: 'latin1' });
     expect(out).toEqual([{ raw: '5 µmol\r\n', text: '5 µmol', overlong: false }]);

@@ -132,6 +132,8 @@ export class LineSplitter extends Transform {
   private readonly cutter: LineCutter;
   private readonly releaseCrAfterMs: number | undefined;
   private crTimer: NodeJS.Timeout | undefined;
+  /** This link has ended a line with a lone CR before: a trailing CR is a line end, not half of CRLF. */
+  private crOnly = false;
 
   constructor(options: LineSplitterOptions = {}) {
     super({ readableObjectMode: true });
@@ -146,11 +148,16 @@ export class LineSplitter extends Transform {
 
   override _transform(chunk: Buffer, _encoding: BufferEncoding, callback: TransformCallback): void {
     this.clearTimer();
-    for (const line of this.cutter.push(chunk)) this.push(line);
-    if (this.cutter.holdingCr && this.releaseCrAfterMs !== undefined) {
+    for (const line of this.cutter.push(chunk)) this.emitLine(line);
+    // Live links only: once the printer has shown it ends lines with CR alone, its last line (often a
+    // record's end line) goes on at once instead of after the quiet time. Should an LF still follow,
+    // it becomes a blank line of its own: raw stays exact, and blank lines are spacing.
+    if (this.cutter.holdingCr && this.releaseCrAfterMs !== undefined && this.crOnly) {
+      for (const line of this.cutter.end()) this.emitLine(line);
+    } else if (this.cutter.holdingCr && this.releaseCrAfterMs !== undefined) {
       this.crTimer = setTimeout(() => {
         this.crTimer = undefined;
-        for (const line of this.cutter.end()) this.push(line);
+        for (const line of this.cutter.end()) this.emitLine(line);
       }, this.releaseCrAfterMs);
     }
     callback();
@@ -165,6 +172,12 @@ export class LineSplitter extends Transform {
   override _destroy(error: Error | null, callback: (error?: Error | null) => void): void {
     this.clearTimer();
     callback(error);
+  }
+
+  private emitLine(line: Line): void {
+    if (line.raw.endsWith('\r')) this.crOnly = true;
+    else if (line.raw.endsWith('\r\n')) this.crOnly = false;
+    this.push(line);
   }
 
   private clearTimer(): void {

@@ -24,6 +24,11 @@ export interface RecordFraming {
   end?: RegExp;
   /** A form feed (page eject) ends a record. */
   formFeed?: boolean;
+  /**
+   * Formats without an end line whose dialect can still tell a record is whole from its lines (every
+   * field a profile defines has been read): the record ends at that line, with no quiet time to wait for.
+   */
+  complete?(lines: readonly Line[]): boolean;
   /** The line going quiet this long ends a record normally (live links only). */
   gapMs?: number;
   /** A record longer than this (start and end line included) is cut short. */
@@ -137,7 +142,11 @@ export class RecordGrouper {
   }
 
   private ends(line: Line): boolean {
-    return (this.endPattern?.test(line.text) ?? false) || (this.formFeed && line.raw.endsWith('\f'));
+    return (
+      (this.endPattern?.test(line.text) ?? false) ||
+      (this.formFeed && line.raw.endsWith('\f')) ||
+      (this.record !== null && (this.framing.complete?.(this.record) ?? false))
+    );
   }
 
   private drain(): FramerOutput[] {

@@ -44,10 +44,21 @@ export async function patientChart(actor: Actor, patientId: string) {
     return { r, e, at: new Date(r.measuredAt ?? r.receivedAt) };
   });
 
+  // Results are newest first: the previous result of the same test is the next one down with a value in
+  // the same unit. One pass from the oldest keeps that linear for a long record.
+  const previousOf = new Array<(typeof evaluated)[number] | undefined>(evaluated.length);
+  const lastWithValue = new Map<string, (typeof evaluated)[number]>();
+  for (let i = evaluated.length - 1; i >= 0; i--) {
+    const x = evaluated[i];
+    const key = `${x.r.analyte}\u0000${x.e.display.unit}`;
+    previousOf[i] = lastWithValue.get(key);
+    if (x.e.display.value !== null) lastWithValue.set(key, x);
+  }
+  const alertByReading = new Map(alerts.map((a) => [a.readingId, a]));
+
   const enriched = evaluated.map(({ r, e, at }, index) => {
     const analyte = analytes.get(r.analyte);
-    // Results are newest first: the previous result of the same test is the next one down with a value.
-    const previous = evaluated.slice(index + 1).find((x) => x.r.analyte === r.analyte && x.e.display.value !== null && x.e.display.unit === e.display.unit);
+    const previous = previousOf[index];
     const change = previous ? changeBetween(previous.e.display, e.display, analyte?.decimals ?? 1, e.display.unit ?? '') : null;
     const delta =
       previous && analyte
@@ -59,7 +70,7 @@ export async function patientChart(actor: Actor, patientId: string) {
         : null;
     const review = reviews.get(r.id) ?? [];
     const signoff = review.find((x) => x.kind === 'reviewed') ?? null;
-    const alert = alerts.find((a) => a.readingId === r.id) ?? null;
+    const alert = alertByReading.get(r.id) ?? null;
     return {
       ...r,
       /** Lab-quality marks (QC failed, expired kit, room temperature), kept apart from the clinical flags. */

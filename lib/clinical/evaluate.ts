@@ -228,11 +228,8 @@ export function evaluateResult(
   return { display, interval, flag, band, analyzerFlag, qualitative: null, unitNote: unitCheck.ok ? (unitCheck.note ?? null) : null, problems, speciesWarning: warning };
 }
 
-/** Rounds for display with the analyte's decimals, keeping the comparator: "<5.0 mg/L". */
-export function formatMeasured(m: { value: number | null; comparator: Comparator; unit: string | null }, decimals = 1): string {
-  if (m.value === null) return '—';
-  return `${m.comparator ?? ''}${m.value.toFixed(decimals)}${m.unit ? ` ${m.unit}` : ''}`;
-}
+// Display formatting lives with the other client-safe helpers: this module reaches ucum-lhc (units.ts).
+export { formatMeasured } from '@/lib/format';
 
 /**
  * Before a reading is on a patient: whether it is critical for a species the clinic has an interval for,

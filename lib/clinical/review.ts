@@ -106,7 +106,6 @@ export async function reviewsFor(clinicId: string, readingIds: string[]) {
 /** Results on patients' records that no veterinarian has signed off yet; `mine`: my patients only. */
 export async function unreviewedResults(actor: Actor, mine: boolean) {
   const database = await db();
-  const signedOff = sql`exists (select 1 from ${resultReviews} where ${resultReviews.assignmentId} = ${resultAssignments.id} and ${resultReviews.kind} = 'reviewed')`;
   const rows = await database
     .select({
       id: readings.id,
@@ -138,9 +137,11 @@ export async function unreviewedResults(actor: Actor, mine: boolean) {
     .leftJoin(instruments, eq(instruments.id, readings.instrumentId))
     .where(
       and(
+        eq(resultAssignments.clinicId, actor.clinicId),
         eq(readings.clinicId, actor.clinicId),
         eq(readings.status, 'assigned'),
-        sql`not ${signedOff}`,
+        // Kept by a trigger on result_reviews; the partial index makes this a range read, newest first.
+        isNull(resultAssignments.reviewedAt),
         mine ? eq(patients.attendingVetId, actor.userId) : undefined,
       ),
     )

@@ -15,8 +15,24 @@ export function tidyUnit(printed: string): string {
   return printed.trim().replace(/[µμ]/g, 'u').replace(/\s+/g, '');
 }
 
+/**
+ * Parsing a unit string is the costly part of UCUM and a clinic prints a handful of units, so the answer
+ * per string is kept (it depends on the string alone); bounded, so odd input cannot grow it for ever.
+ */
+const checked = new Map<string, UnitCheck>();
+const MAX_CHECKED = 2000;
+
 export function checkUnit(printed: string | null | undefined): UnitCheck {
   if (!printed || !printed.trim()) return { ok: false, message: 'No unit was printed.' };
+  const known = checked.get(printed);
+  if (known) return known;
+  const answer = parseUnit(printed);
+  if (checked.size >= MAX_CHECKED) checked.clear();
+  checked.set(printed, answer);
+  return answer;
+}
+
+function parseUnit(printed: string): UnitCheck {
   const tidy = tidyUnit(printed);
   // Capitals only: the instrument writes UCUM's case-insensitive form (MG/L is mg/L, not megagauss per litre).
   if (/[A-Z]/.test(tidy) && !/[a-z]/.test(tidy)) {

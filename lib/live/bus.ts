@@ -13,6 +13,21 @@ export async function publish(tx: Executor, event: Omit<LiveEvent, 'at'> & { at?
   await tx.execute(sql`select pg_notify(${LIVE_CHANNEL}, ${JSON.stringify(full)})`);
 }
 
+/**
+ * PostgreSQL refuses a NOTIFY payload of 8,000 bytes or more; 150 UUIDs (5.9 kB) leave room for the rest,
+ * so a full 200-record batch goes out as two notifications, a smaller one as one.
+ */
+export const IDS_PER_NOTIFY = 150;
+
+/** One event for many new rows of one kind (a bridge's batch), published like publish(). */
+export async function publishBatch(tx: Executor, event: Pick<LiveEvent, 'type' | 'clinicId'>, ids: string[]): Promise<void> {
+  const at = new Date().toISOString();
+  for (let i = 0; i < ids.length; i += IDS_PER_NOTIFY) {
+    const chunk = ids.slice(i, i + IDS_PER_NOTIFY);
+    await publish(tx, { ...event, id: chunk[0], ids: chunk, at });
+  }
+}
+
 export function parseLiveEvent(payload: string): LiveEvent | null {
   try {
     const event = JSON.parse(payload) as LiveEvent;

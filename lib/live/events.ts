@@ -30,6 +30,11 @@ export interface LiveEvent {
   clinicId: string;
   id: string;
   at: string;
+  /**
+   * A bridge's batch: every new id (id is the first of them). One event per batch instead of one per
+   * reading; a client that only reads `id` still refetches correctly, since events say what changed, not what it is.
+   */
+  ids?: string[];
   /** Present when the change concerns one patient's record (so open charts know to refresh). */
   patientId?: string;
   /** Present when one staff member should be told (a critical result for the attending veterinarian). */

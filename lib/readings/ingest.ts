@@ -2,11 +2,11 @@ import 'server-only';
 import { and, eq, inArray } from 'drizzle-orm';
 import { db, type Tx } from '@/db/client';
 import { bridges, instruments, readings, unparsedCaptures, type Bridge } from '@/db/schema';
-import { recordAudit } from '@/lib/audit';
-import { publish } from '@/lib/live/bus';
-import type { BridgeBatch, BridgeBatchResult } from '@/lib/validation/readings';
+import { recordAudits, type AuditEntry } from '@/lib/audit';
+import { publishBatch } from '@/lib/live/bus';
+import type { BridgeBatch, BridgeBatchResult, BridgeRecord } from '@/lib/validation/readings';
+import { autoAssignBatchOnIngest } from './suggestions';
 import { applyQualityOnIngest } from '@/lib/quality/ingest-step';
-import { autoAssignOnIngest } from './suggestions';
 
 /** PostgreSQL text cannot hold U+0000, which line noise often sends; keep it visible as ␀ (U+2400) instead. */
 export function storable<T>(value: T): T {
@@ -18,18 +18,25 @@ export function storable<T>(value: T): T {
   return value;
 }
 
-/** The id a resent record was stored under the first time (same bridge, same key). */
-async function storedId(tx: Tx, table: typeof readings | typeof unparsedCaptures, bridgeId: string, key: string): Promise<string> {
-  const [existing] = await tx
-    .select({ id: table.id })
+/** The ids resent records were stored under the first time (same bridge, same keys), in one query. */
+async function storedIds(tx: Tx, table: typeof readings | typeof unparsedCaptures, bridgeId: string, keys: string[]): Promise<Map<string, string>> {
+  if (!keys.length) return new Map();
+  const rows = await tx
+    .select({ id: table.id, key: table.idempotencyKey })
     .from(table)
-    .where(and(eq(table.bridgeId, bridgeId), eq(table.idempotencyKey, key)));
-  return existing.id;
+    .where(and(eq(table.bridgeId, bridgeId), inArray(table.idempotencyKey, keys)));
+  return new Map(rows.map((r) => [r.key, r.id]));
 }
 
+type ReadingRecord = BridgeRecord & { payload: Extract<BridgeRecord['payload'], { kind: 'reading' }> };
+type CaptureRecord = BridgeRecord & { payload: Extract<BridgeRecord['payload'], { kind: 'unparsed' }> };
+
 /**
- * Stores a bridge's batch in one transaction. A record whose key this bridge already sent is
- * acknowledged as a duplicate and not stored again, so the bridge can resend freely.
+ * Stores a bridge's batch in one transaction, set-wise: one multi-row INSERT for its readings and one for
+ * its unparsed captures (ON CONFLICT DO NOTHING on (bridge, key)), one for their audit events, one NOTIFY
+ * per kind carrying the new ids, and the clinic's exact-ID rule looked up once for the whole batch.
+ * A record whose key this bridge already sent is acknowledged as a duplicate and not stored again, so the
+ * bridge can resend freely.
  */
 export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promise<BridgeBatchResult> {
   const batch = storable(received);
@@ -41,83 +48,98 @@ export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promis
       .from(instruments)
       .where(and(eq(instruments.clinicId, bridge.clinicId), inArray(instruments.code, codes)));
     const instrumentByCode = new Map(known.map((i) => [i.code, i.id]));
+    const common = (record: BridgeRecord) => ({
+      clinicId: bridge.clinicId,
+      bridgeId: bridge.id,
+      idempotencyKey: record.key,
+      instrumentId: instrumentByCode.get(record.instrument) ?? null,
+      instrumentCode: record.instrument,
+      receivedAt: new Date(record.receivedAt),
+      raw: record.payload.raw,
+    });
 
-    const results: BridgeBatchResult['results'] = [];
-    for (const record of batch.records) {
-      const common = {
-        clinicId: bridge.clinicId,
-        bridgeId: bridge.id,
-        idempotencyKey: record.key,
-        instrumentId: instrumentByCode.get(record.instrument) ?? null,
-        instrumentCode: record.instrument,
-        receivedAt: new Date(record.receivedAt),
-        raw: record.payload.raw,
-      };
-      const payload = record.payload;
-      if (payload.kind === 'unparsed') {
-        const [row] = await tx
+    const readingRecords = batch.records.filter((r): r is ReadingRecord => r.payload.kind === 'reading');
+    const captureRecords = batch.records.filter((r): r is CaptureRecord => r.payload.kind === 'unparsed');
+
+    const createdReadings = readingRecords.length
+      ? await tx
+          .insert(readings)
+          .values(
+            readingRecords.map((record) => {
+              const p = record.payload;
+              return {
+                ...common(record),
+                instrumentSerial: p.instrumentSerial,
+                instrumentRange: p.referenceRange,
+                resultStatus: p.resultStatus,
+                analyte: p.analyte,
+                value: p.value,
+                // A result is a number, a code or text (lib/validation/readings.ts), with the notes sent beside it.
+                valueCode: p.code,
+                valueText: p.text,
+                notes: p.notes,
+                comparator: p.comparator,
+                unit: p.unit,
+                flags: p.flags,
+                sampleId: p.sampleId,
+                patientRef: p.patientRef,
+                measuredAt: p.measuredAt ? new Date(p.measuredAt) : null,
+              };
+            }),
+          )
+          .onConflictDoNothing({ target: [readings.bridgeId, readings.idempotencyKey] })
+          .returning()
+      : [];
+    const createdCaptures = captureRecords.length
+      ? await tx
           .insert(unparsedCaptures)
-          .values({ ...common, reason: payload.reason })
+          .values(captureRecords.map((record) => ({ ...common(record), reason: record.payload.reason })))
           .onConflictDoNothing({ target: [unparsedCaptures.bridgeId, unparsedCaptures.idempotencyKey] })
-          .returning({ id: unparsedCaptures.id });
-        if (!row) {
-          results.push({ key: record.key, status: 'duplicate', id: await storedId(tx, unparsedCaptures, bridge.id, record.key) });
-          continue;
-        }
-        await recordAudit(tx, {
+          .returning({ id: unparsedCaptures.id, key: unparsedCaptures.idempotencyKey })
+      : [];
+
+    const newReading = new Map(createdReadings.map((r) => [r.idempotencyKey, r.id]));
+    const newCapture = new Map(createdCaptures.map((r) => [r.key, r.id]));
+    const earlierReadings = await storedIds(tx, readings, bridge.id, readingRecords.filter((r) => !newReading.has(r.key)).map((r) => r.key));
+    const earlierCaptures = await storedIds(tx, unparsedCaptures, bridge.id, captureRecords.filter((r) => !newCapture.has(r.key)).map((r) => r.key));
+
+    // In the batch's order; a key sent twice in one batch is created once and a duplicate after that.
+    const results: BridgeBatchResult['results'] = [];
+    const audits: AuditEntry[] = [];
+    const announced = new Set<string>();
+    for (const record of batch.records) {
+      const isReading = record.payload.kind === 'reading';
+      const createdId = (isReading ? newReading : newCapture).get(record.key);
+      if (createdId && !announced.has(createdId)) {
+        announced.add(createdId);
+        results.push({ key: record.key, status: 'created', id: createdId });
+        audits.push({
           clinicId: bridge.clinicId,
           actorBridgeId: bridge.id,
-          action: 'capture.received',
-          entityType: 'unparsed_capture',
-          entityId: row.id,
-          details: { instrument: record.instrument, reason: payload.reason },
+          ...(record.payload.kind === 'reading'
+            ? {
+                action: 'reading.received',
+                entityType: 'reading',
+                entityId: createdId,
+                details: { instrument: record.instrument, analyte: record.payload.analyte, sampleId: record.payload.sampleId },
+              }
+            : { action: 'capture.received', entityType: 'unparsed_capture', entityId: createdId, details: { instrument: record.instrument, reason: record.payload.reason } }),
         });
-        await publish(tx, { type: 'capture.created', clinicId: bridge.clinicId, id: row.id });
-        results.push({ key: record.key, status: 'created', id: row.id });
         continue;
       }
-
-      const [inserted] = await tx
-        .insert(readings)
-        .values({
-          ...common,
-          instrumentSerial: payload.instrumentSerial,
-          instrumentRange: payload.referenceRange,
-          resultStatus: payload.resultStatus,
-          analyte: payload.analyte,
-          value: payload.value,
-          // A result is a number, a code or text (lib/validation/readings.ts), with the notes sent beside it.
-          valueCode: payload.code,
-          valueText: payload.text,
-          notes: payload.notes,
-          comparator: payload.comparator,
-          unit: payload.unit,
-          flags: payload.flags,
-          sampleId: payload.sampleId,
-          patientRef: payload.patientRef,
-          measuredAt: payload.measuredAt ? new Date(payload.measuredAt) : null,
-        })
-        .onConflictDoNothing({ target: [readings.bridgeId, readings.idempotencyKey] })
-        .returning();
-      if (!inserted) {
-        results.push({ key: record.key, status: 'duplicate', id: await storedId(tx, readings, bridge.id, record.key) });
-        continue;
-      }
-      // Lab quality (QC recognition, kit lot, QC-failed mark): a separate step, before anything may place it.
-      const row = await applyQualityOnIngest(tx, inserted, payload);
-      await recordAudit(tx, {
-        clinicId: bridge.clinicId,
-        actorBridgeId: bridge.id,
-        action: 'reading.received',
-        entityType: 'reading',
-        entityId: row.id,
-        details: { instrument: record.instrument, analyte: payload.analyte, sampleId: payload.sampleId },
-      });
-      await publish(tx, { type: 'reading.created', clinicId: bridge.clinicId, id: row.id });
-      // Only the clinic's opt-in exact-ID rule may place a reading without a person; off by default.
-      if (row.status === 'unassigned') await autoAssignOnIngest(tx, bridge, row);
-      results.push({ key: record.key, status: 'created', id: row.id });
+      const id = createdId ?? (isReading ? earlierReadings : earlierCaptures).get(record.key);
+      if (!id) throw new Error(`ingest: record ${record.key} was neither stored nor found stored`);
+      results.push({ key: record.key, status: 'duplicate', id });
     }
+    await recordAudits(tx, audits);
+    await publishBatch(tx, { type: 'reading.created', clinicId: bridge.clinicId }, createdReadings.map((r) => r.id));
+    await publishBatch(tx, { type: 'capture.created', clinicId: bridge.clinicId }, createdCaptures.map((r) => r.id));
+    // Lab quality (QC recognition, kit lot, QC-failed mark): a separate step, before anything may place a reading.
+    const payloadByKey = new Map(readingRecords.map((r) => [r.key, r.payload]));
+    const checked = [];
+    for (const row of createdReadings) checked.push(await applyQualityOnIngest(tx, row, payloadByKey.get(row.idempotencyKey) ?? {}));
+    // Only the clinic's opt-in exact-ID rule may place a reading without a person; off by default.
+    await autoAssignBatchOnIngest(tx, bridge, checked.filter((r) => r.status === 'unassigned'));
 
     await tx.update(bridges).set({ lastSeenAt: new Date() }).where(eq(bridges.id, bridge.id));
     return { results };

@@ -1,5 +1,5 @@
 import 'server-only';
-import { and, desc, eq, gte, inArray, isNotNull } from 'drizzle-orm';
+import { and, desc, eq, gte, inArray, isNotNull, or, sql } from 'drizzle-orm';
 import { db, type Executor, type Tx } from '@/db/client';
 import { analyteSettings, clinics, instruments, labOrders, patients, readings, runProtocols, type Bridge, type Reading } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
@@ -66,12 +66,20 @@ async function matchContext(tx: Executor, clinicId: string, analytes: string[], 
       .orderBy(desc(labOrders.fulfilledAt))
       .limit(RECENT),
   ]);
-  const patientIds = new Set(orders.map((o) => o.order.patientId));
-  const lowerIds = new Set(namedIds.map((id) => id.trim().toLowerCase()).filter(Boolean));
-  const patientRows = await tx
-    .select({ id: patients.id, name: patients.name, recordNumber: patients.recordNumber, species: patients.species })
-    .from(patients)
-    .where(and(eq(patients.clinicId, clinicId), eq(patients.active, true)));
+  const patientIds = [...new Set(orders.map((o) => o.order.patientId))];
+  const lowerIds = [...new Set(namedIds.map((id) => id.trim().toLowerCase()).filter(Boolean))];
+  // Patients with an open order, plus any whose record number is printed on a reading: chosen in SQL
+  // (indexed), never by loading every patient of the clinic into JavaScript.
+  const named = [
+    patientIds.length ? inArray(patients.id, patientIds) : undefined,
+    lowerIds.length ? inArray(sql`lower(${patients.recordNumber})`, lowerIds) : undefined,
+  ].filter((c) => c !== undefined);
+  const wanted = named.length
+    ? await tx
+        .select({ id: patients.id, name: patients.name, recordNumber: patients.recordNumber, species: patients.species })
+        .from(patients)
+        .where(and(eq(patients.clinicId, clinicId), eq(patients.active, true), or(...named)))
+    : [];
   return {
     orders: orders.map(({ order, stages }) => ({
       id: order.id,
@@ -84,7 +92,7 @@ async function matchContext(tx: Executor, clinicId: string, analytes: string[], 
       status: order.status,
     })),
     // Patients with an open order, plus any whose record number is printed on a reading.
-    patients: patientRows.filter((p) => patientIds.has(p.id) || lowerIds.has(p.recordNumber.toLowerCase())),
+    patients: wanted,
     instruments: instrumentRows,
     analytes: analyteRows,
     placed: placedRows.flatMap((p) => (p.instrumentId ? [{ instrumentId: p.instrumentId, arrivedAt: p.arrivedAt, startedAt: p.startedAt }] : [])),
@@ -149,29 +157,41 @@ export async function suggestionsForUnassigned(actor: Actor, perReading = 3): Pr
 }
 
 /**
- * The clinic's opt-in rule, applied inside the ingest transaction: a reading whose exact sample ID (or
- * record number) names exactly one open order goes on that order's patient. Off unless switched on.
+ * The clinic's opt-in rule, applied inside the ingest transaction to a batch's new readings: a reading
+ * whose exact sample ID (or record number) names exactly one open order goes on that order's patient.
+ * Off unless switched on. The setting and the open orders are looked up once for the whole batch.
  */
-export async function autoAssignOnIngest(tx: Tx, bridge: Bridge, reading: Reading): Promise<boolean> {
-  if (!reading.sampleId && !reading.patientRef) return false;
+export async function autoAssignBatchOnIngest(tx: Tx, bridge: Bridge, created: Reading[]): Promise<number> {
+  const named = created.filter((r) => r.sampleId || r.patientRef);
+  if (!named.length) return 0;
   const settings = await clinicalSettings(tx, bridge.clinicId);
-  if (!settings.autoAssignExactId) return false;
-  const context = await matchContext(tx, bridge.clinicId, [reading.analyte], [reading.sampleId, reading.patientRef].filter((x): x is string => !!x));
-  const target = autoAssignTarget({ ...context, reading: toMatchReading(reading) });
-  if (!target) return false;
-  try {
-    // A savepoint: if the order was taken meanwhile, the reading stays in Intake and the upload still succeeds.
-    await tx.transaction(async (sp) => {
-      const patient = await loadPatientForPlacement(sp, bridge.clinicId, target.patientId);
-      await placeReading(sp, { clinicId: bridge.clinicId, userId: null, bridgeId: bridge.id }, reading, patient, {
-        orderId: target.orderId,
-        method: 'auto-sample-id',
-        details: { rule: 'exact sample ID to one open order (clinic setting)', reason: target.reason },
+  if (!settings.autoAssignExactId) return 0;
+  const context = await matchContext(
+    tx,
+    bridge.clinicId,
+    [...new Set(named.map((r) => r.analyte))],
+    named.flatMap((r) => [r.sampleId, r.patientRef]).filter((x): x is string => !!x),
+  );
+  let placed = 0;
+  for (const reading of named) {
+    const target = autoAssignTarget({ ...context, reading: toMatchReading(reading) });
+    if (!target) continue;
+    try {
+      // A savepoint: if the order was taken meanwhile, the reading stays in Intake and the upload still succeeds.
+      await tx.transaction(async (sp) => {
+        const patient = await loadPatientForPlacement(sp, bridge.clinicId, target.patientId);
+        await placeReading(sp, { clinicId: bridge.clinicId, userId: null, bridgeId: bridge.id }, reading, patient, {
+          orderId: target.orderId,
+          method: 'auto-sample-id',
+          details: { rule: 'exact sample ID to one open order (clinic setting)', reason: target.reason },
+        });
       });
-    });
-    return true;
-  } catch (error) {
-    if (error instanceof ApiError) return false;
-    throw error;
+      placed += 1;
+      // As a fresh lookup would now see it: that order has its reading.
+      context.orders = context.orders.filter((o) => o.id !== target.orderId);
+    } catch (error) {
+      if (!(error instanceof ApiError)) throw error;
+    }
   }
+  return placed;
 }

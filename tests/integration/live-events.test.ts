@@ -9,6 +9,7 @@ import {
   ingest,
   ingestOne,
   patientByRecord,
+  readingRecord,
   unparsedRecord,
   waitForEvent,
 } from './support';
@@ -59,6 +60,29 @@ describe('the live bus', () => {
     const event = await waitForEvent(events, (e) => e.id === id);
     expect(event).toMatchObject({ type: 'reading.created', clinicId, id });
     expect(Number.isNaN(Date.parse(event.at))).toBe(false);
+  });
+
+  it('a full 200-record batch is announced in two notifications that carry every new id', async () => {
+    // PostgreSQL docs, NOTIFY: the payload "must be shorter than 8000 bytes" — from memory, verify;
+    // 200 UUIDs do not fit in one, so the batch is split (lib/live/bus.ts IDS_PER_NOTIFY).
+    const records = Array.from({ length: 200 }, (_, i) => readingRecord(`live-batch-${String(i).padStart(4, '0')}`));
+    const { results } = await body(await ingest(token, records));
+    const ids = new Set(results.map((r: { id: string }) => r.id));
+    const heard = new Set<string>();
+    let notifications = 0;
+    await vi.waitFor(() => {
+      notifications = 0;
+      heard.clear();
+      for (const e of events) {
+        if (e.type !== 'reading.created' || !e.ids?.some((x) => ids.has(x))) continue;
+        notifications += 1;
+        expect(e.id).toBe(e.ids[0]);
+        for (const x of e.ids) heard.add(x);
+      }
+      expect(heard.size).toBe(200);
+    });
+    expect([...heard].every((x) => ids.has(x))).toBe(true);
+    expect(notifications).toBe(2);
   });
 
   it('an unparsed fragment publishes capture.created', async () => {

@@ -5,9 +5,8 @@ import useSWR from 'swr';
 import { Notice, buttonClass, inputClass } from '@/app/components/ui';
 import type { StaffRole } from '@/db/schema';
 import { fetcher, send } from '@/lib/client/fetcher';
-import { formatMeasured } from '@/lib/clinical/evaluate';
 import { FLAG_CODE, type FlagResult } from '@/lib/clinical/flags';
-import { formatDateTime } from '@/lib/format';
+import { formatMeasured, formatDateTime } from '@/lib/format';
 import { useNow } from '../use-now';
 
 /** "12 min", "1 h 05 min": how long a critical result has waited for acknowledgement. */

@@ -1,15 +1,20 @@
 'use client';
+import dynamic from 'next/dynamic';
 import { Fragment, useState } from 'react';
 import useSWR from 'swr';
 import { Notice } from '@/app/components/ui';
 import { fetcher } from '@/lib/client/fetcher';
 import type { patientChart } from '@/lib/clinical/chart';
-import { formatMeasured } from '@/lib/clinical/evaluate';
 import { FLAG_CODE } from '@/lib/clinical/flags';
 import { QualityMarks } from '@/app/components/quality-marks';
-import { formatDateTime } from '@/lib/format';
+import { formatMeasured, formatDateTime } from '@/lib/format';
 import { ResultDetail } from './result-detail';
-import { TrendChart } from './trend-chart';
+
+// The chart library is loaded only when a chart is drawn (a record with results), not with the page.
+const TrendChart = dynamic(() => import('./trend-chart').then((m) => m.TrendChart), {
+  ssr: false,
+  loading: () => <div className="h-56 rounded-lg border border-ink-100 bg-white shadow-sm" aria-busy="true" aria-label="Loading the trend chart" />,
+});
 
 type Chart = Awaited<ReturnType<typeof patientChart>>;
 type Json<T> = T extends Date ? string : T extends (infer U)[] ? Json<U>[] : T extends object ? { [K in keyof T]: Json<T[K]> } : T;

@@ -2,7 +2,7 @@
 // One analyte's results over time, with the reference band. A value printed with a comparator is drawn
 // as a triangle pointing the way the true value lies (▼ for "<5", ▲ for ">200"), never as a plain point.
 import { CartesianGrid, ComposedChart, Line, ReferenceArea, ReferenceLine, ResponsiveContainer, Tooltip, XAxis, YAxis } from 'recharts';
-import { formatMeasured } from '@/lib/clinical/evaluate';
+import { formatMeasured } from '@/lib/format';
 import type { ChartAnalyte, ChartResult } from './patient-results';
 
 interface Point {

@@ -1,0 +1,162 @@
+// In-process figures on a copy of the loaded data set: the SQL each read path runs (with EXPLAIN ANALYZE
+// of its main query and the query count, which shows an N+1), and ingest through lib/readings/ingest
+// against a raw multi-row INSERT of the same rows into the same database.
+import { PGlite } from '@electric-sql/pglite';
+import { pg_trgm } from '@electric-sql/pglite/contrib/pg_trgm';
+import { sql } from 'drizzle-orm';
+import { drizzle } from 'drizzle-orm/pglite';
+import { installDatabase, schema } from '@/db/client';
+import type { Bridge } from '@/db/schema';
+import type { Actor } from '@/lib/auth/guards';
+import type { BridgeBatch } from '@/lib/validation/readings';
+import { HEAVY_PATIENT } from './dataset';
+import { readPaths } from './paths';
+import { ms, now, percentile, type Report } from './report';
+
+export const BATCH = 200;
+
+/** A full bridge batch of invented CRP readings; every third carries a sample ID (as the issue measured). */
+export function benchBatch(prefix: string, n: number, instrument = 'crp-reader'): BridgeBatch {
+  const at = new Date().toISOString();
+  return {
+    records: Array.from({ length: BATCH }, (_, i) => {
+      const value = ((n * BATCH + i) % 900) / 10 + 0.5;
+      return {
+        key: `${prefix}-${n}-${i}`,
+        instrument,
+        receivedAt: at,
+        payload: {
+          kind: 'reading' as const,
+          analyte: 'cCRP',
+          value,
+          code: null,
+          text: null,
+          notes: [],
+          comparator: null,
+          unit: 'mg/L',
+          flags: [],
+          sampleId: i % 3 === 0 ? `NX-${prefix}-${n}-${i}` : null,
+          patientRef: null,
+          measuredAt: at,
+          instrumentSerial: 'SIM-0001',
+          referenceRange: null,
+          resultStatus: null,
+          raw: `RESULT    ${value} mg/L\r\n`,
+        },
+      };
+    }),
+  };
+}
+
+interface Logged {
+  sql: string;
+  params: unknown[];
+}
+
+/** The raw baseline: the same rows as one multi-row INSERT per batch, nothing else. */
+export async function rawInsert(pg: PGlite, ids: { clinicId: string; bridgeId: string; instrumentId: string }, batch: BridgeBatch) {
+  const params: unknown[] = [];
+  const values = batch.records.map((r) => {
+    const p = r.payload as Extract<typeof r.payload, { kind: 'reading' }>;
+    const row = [ids.clinicId, ids.bridgeId, r.key, ids.instrumentId, r.instrument, p.instrumentSerial, p.analyte, p.value, p.unit, p.sampleId, p.measuredAt, r.receivedAt, p.raw];
+    const start = params.length;
+    params.push(...row);
+    return `(${row.map((_, i) => `$${start + i + 1}`).join(',')})`;
+  });
+  await pg.query(
+    `insert into readings (clinic_id, bridge_id, idempotency_key, instrument_id, instrument_code, instrument_serial, analyte, value, unit, sample_id, measured_at, received_at, raw)
+     values ${values.join(',')} on conflict do nothing`,
+    params,
+  );
+}
+
+export async function benchInProcess(report: Report, dataDir: string, batches: number) {
+  const pg = await PGlite.create(`${dataDir}/pgdata`, { extensions: { pg_trgm } });
+  const log: Logged[] = [];
+  let capturing = false;
+  const db = drizzle({ client: pg, schema, casing: 'snake_case', logger: { logQuery: (q, p) => capturing && log.push({ sql: q, params: p }) } });
+  installDatabase({ db, listen: (c, f) => pg.listen(c, f), close: () => pg.close() });
+  const first = async <T>(q: string, p: unknown[] = []) => (await pg.query<T>(q, p)).rows[0];
+  const clinic = await first<{ id: string }>(`select id from clinics order by created_at limit 1`);
+  const tech = await first<Actor>(`select id as "userId", clinic_id as "clinicId", role, display_name as "displayName", email from staff_users where email = 'vet@fernhollow.example'`);
+  const heavy = await first<{ id: string }>(`select id from patients where record_number = $1`, [HEAVY_PATIENT]);
+  const ids = { heavyPatientId: heavy.id };
+
+  for (const path of await readPaths()) {
+    await path.call(tech, ids); // warm
+    const times: number[] = [];
+    for (let i = 0; i < 15; i++) {
+      const t = now();
+      await path.call(tech, ids);
+      times.push(ms(t));
+    }
+    log.length = 0;
+    capturing = true;
+    await path.call(tech, ids);
+    capturing = false;
+    // EXPLAIN ANALYZE every statement; the slowest is the path's main query.
+    let main = { sql: '', plan: '', ms: -1 };
+    for (const q of log) {
+      const rows = (await pg.query<{ 'QUERY PLAN': string }>(`explain (analyze, costs off, timing on, summary on) ${q.sql}`, q.params)).rows;
+      const plan = rows.map((r) => r['QUERY PLAN']).join('\n');
+      const exec = Number(/Execution Time: ([\d.]+) ms/.exec(plan)?.[1] ?? 0);
+      if (exec > main.ms) main = { sql: q.sql, plan, ms: exec };
+    }
+    report.explains.push({ query: `${path.name} (${log.length} quer${log.length === 1 ? 'y' : 'ies'})`, sql: main.sql, plan: main.plan });
+    report.add({
+      section: 'read (in-process)',
+      name: `${path.name} p95 (${log.length} SQL quer${log.length === 1 ? 'y' : 'ies'})`,
+      value: percentile(times, 95),
+      unit: 'ms',
+      baseline: 'its main query in PostgreSQL (EXPLAIN ANALYZE)',
+      baselineValue: main.ms,
+    });
+  }
+
+  // Ingest, lib against raw, alternating so both see the same neighbours on the shared cores.
+  const bridge = await first<Bridge>(`select id, clinic_id as "clinicId", name from bridges where clinic_id = $1 limit 1`, [clinic.id]);
+  const instrument = await first<{ id: string }>(`select id from instruments where clinic_id = $1 and code = 'crp-reader'`, [clinic.id]);
+  const { ingestBatch } = await import('@/lib/readings/ingest');
+  let rawMs = 0;
+  let libMs = 0;
+  for (let n = 0; n < batches; n++) {
+    let t = now();
+    await rawInsert(pg, { clinicId: clinic.id, bridgeId: bridge.id, instrumentId: instrument.id }, benchBatch('raw', n));
+    rawMs += ms(t);
+    t = now();
+    await ingestBatch(bridge, benchBatch('lib', n));
+    libMs += ms(t);
+  }
+  const rawRate = (batches * BATCH) / (rawMs / 1000);
+  report.add({
+    section: 'ingest (in-process)',
+    name: `lib ingestBatch, ${batches} × ${BATCH} readings`,
+    value: (batches * BATCH) / (libMs / 1000),
+    unit: 'readings/s',
+    baseline: 'raw multi-row INSERT',
+    baselineValue: rawRate,
+  });
+
+  // The clinic's exact-ID rule switched on: each reading with a sample ID is looked up against open tests.
+  await pg.query(`update clinics set settings = settings || '{"autoAssignExactId": true}' where id = $1`, [clinic.id]);
+  let autoMs = 0;
+  const autoBatches = Math.max(2, Math.floor(batches / 4));
+  for (let n = 0; n < autoBatches; n++) {
+    const t = now();
+    await ingestBatch(bridge, benchBatch('auto', n));
+    autoMs += ms(t);
+  }
+  await pg.query(`update clinics set settings = settings - 'autoAssignExactId' where id = $1`, [clinic.id]);
+  report.add({
+    section: 'ingest (in-process)',
+    name: `lib ingestBatch with the exact-ID rule on, ${autoBatches} × ${BATCH}`,
+    value: (autoBatches * BATCH) / (autoMs / 1000),
+    unit: 'readings/s',
+    baseline: 'raw multi-row INSERT',
+    baselineValue: rawRate,
+  });
+  await pg.query(`select 1`);
+  await db.execute(sql`select 1`);
+  await pg.close();
+  return { rawRate };
+}

@@ -1,0 +1,29 @@
+// The read paths the issue measures, as HTTP requests and as the lib calls behind them.
+import type { Actor } from '@/lib/auth/guards';
+
+export interface ReadPath {
+  name: string;
+  url: (ids: { heavyPatientId: string }) => string;
+  /** The lib call the route handler makes (for the in-process run that captures its SQL). */
+  call: (actor: Actor, ids: { heavyPatientId: string }) => Promise<unknown>;
+}
+
+export const PATIENT_QUERY = 'keeper 123';
+
+export async function readPaths(): Promise<ReadPath[]> {
+  const { suggestionsForUnassigned } = await import('@/lib/readings/suggestions');
+  const { patientChart } = await import('@/lib/clinical/chart');
+  const { unreviewedResults } = await import('@/lib/clinical/review');
+  const { searchPatients } = await import('@/lib/patients');
+  const { listReadings } = await import('@/lib/readings/queries');
+  const { db } = await import('@/db/client');
+  const { sql } = await import('drizzle-orm');
+  return [
+    { name: 'Intake suggestions', url: () => '/api/readings/suggestions', call: (a) => suggestionsForUnassigned(a) },
+    { name: '1,000-result chart', url: (i) => `/api/patients/${i.heavyPatientId}/results`, call: (a, i) => patientChart(a, i.heavyPatientId) },
+    { name: 'Review list', url: () => '/api/reviews/unreviewed', call: (a) => unreviewedResults(a, false) },
+    { name: 'patient search', url: () => `/api/patients?q=${encodeURIComponent(PATIENT_QUERY)}`, call: (a) => searchPatients(a, PATIENT_QUERY) },
+    { name: 'Intake list', url: () => '/api/readings?status=unassigned', call: (a) => listReadings(a, { status: 'unassigned', limit: 100 }) },
+    { name: 'health', url: () => '/api/health', call: async () => (await db()).execute(sql`select 1`) },
+  ];
+}
