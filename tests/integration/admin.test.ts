@@ -145,7 +145,10 @@ describe('staff', () => {
     const response = await patch(vet2.id, { active: false });
     expect(response.status).toBe(200);
     expect((await body(response)).staff).toMatchObject({ id: vet2.id, active: false });
-    expect((await signInWith('vet2@fernhollow.example', DEMO_PASSWORD)).status).toBe(401);
+    // 403 account_deactivated: the sign-in form says the account is deactivated (issue 8).
+    const refused = await signInWith('vet2@fernhollow.example', DEMO_PASSWORD);
+    expect(refused.status).toBe(403);
+    expect((await body(refused)).error.code).toBe('account_deactivated');
   });
 
   it('a role change takes effect (200)', async () => {

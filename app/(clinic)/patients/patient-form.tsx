@@ -138,10 +138,10 @@ export function PatientForm({
         <legend className="mb-2 text-base font-semibold">Age</legend>
         <div className="flex flex-wrap gap-4 text-sm" role="radiogroup" aria-label="How the age is known">
           <label className="flex items-center gap-2">
-            <input type="radio" name="birth-mode" checked={birthMode === 'date'} onChange={() => setBirthMode('date')} /> Date of birth known
+            <input id="birth-mode-date" type="radio" name="birth-mode" checked={birthMode === 'date'} onChange={() => setBirthMode('date')} /> Date of birth known
           </label>
           <label className="flex items-center gap-2">
-            <input type="radio" name="birth-mode" checked={birthMode === 'age'} onChange={() => setBirthMode('age')} /> Estimated age
+            <input id="birth-mode-age" type="radio" name="birth-mode" checked={birthMode === 'age'} onChange={() => setBirthMode('age')} /> Estimated age
           </label>
         </div>
         {birthMode === 'date' ? (
@@ -177,11 +177,12 @@ export function PatientForm({
         <legend className="mb-2 text-base font-semibold">Owner</legend>
         <div className="flex flex-wrap gap-4 text-sm" role="radiogroup" aria-label="Owner">
           <label className="flex items-center gap-2">
-            <input type="radio" name="owner-mode" checked={ownerMode === 'new'} onChange={() => setOwnerMode('new')} />
+            <input id="owner-mode-new" type="radio" name="owner-mode" checked={ownerMode === 'new'} onChange={() => setOwnerMode('new')} />
             {editing ? 'This owner (edit contact)' : 'New owner'}
           </label>
           <label className="flex items-center gap-2">
             <input
+              id="owner-mode-existing"
               type="radio"
               name="owner-mode"
               checked={ownerMode === 'existing'}
@@ -234,7 +235,7 @@ export function PatientForm({
       </fieldset>
 
       <div className="flex flex-wrap gap-3">
-        <button type="submit" className={buttonClass.primary} disabled={isSubmitting}>
+        <button id="patient-submit" type="submit" className={buttonClass.primary} disabled={isSubmitting}>
           {isSubmitting ? 'Saving…' : editing ? 'Save changes' : 'Register patient'}
         </button>
         <button type="button" className={buttonClass.secondary} onClick={() => router.back()}>
