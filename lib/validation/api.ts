@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { DECIMAL_MARKS } from './numbers';
+import { DECIMAL_MARKS, readNumber } from './numbers';
 import { ROLES } from '@/lib/auth/roles';
 import { profileDefinitionSchema } from './profile';
 
@@ -137,12 +137,28 @@ export const dismissCaptureSchema = z.object({
   reason: z.string().trim().min(3, 'Say why this capture can be dismissed.').max(500),
 });
 
-/** A result typed by a person from an unparsed capture (read against the instrument's display or slip). */
+/**
+ * A result typed by a person from an unparsed capture (read against the instrument's display or slip).
+ * The test comes from the clinic's list and the unit from that test's units (checked on the server too);
+ * the value may be written with a decimal point or a decimal comma, never with digit grouping.
+ */
 export const transcribeCaptureSchema = z.object({
-  analyte: z.string().trim().min(1, 'Enter the test.').max(64),
-  value: z.coerce.number({ message: 'Enter the number as printed.' }).finite(),
+  analyte: z.string().trim().min(1, 'Choose the test.').max(64),
+  value: z.union([z.number().finite(), z.string()], { message: 'Enter the value as printed.' }).transform((v, ctx) => {
+    if (typeof v === 'number') return v;
+    if (/^\s*[<>]/.test(v)) {
+      ctx.addIssue({ code: 'custom', message: 'Choose “below” or “above” in the comparator field and enter the number alone.' });
+      return z.NEVER;
+    }
+    const read = readNumber(v, 'either');
+    if (!read.ok) {
+      ctx.addIssue({ code: 'custom', message: read.reason === 'holds no number' ? 'Enter the value as printed.' : `The value ${read.reason}.` });
+      return z.NEVER;
+    }
+    return read.value;
+  }),
   comparator: z.enum(['<', '>']).nullable().default(null),
-  unit: z.string().trim().max(32).nullable().default(null),
+  unit: z.string({ message: 'Choose the unit.' }).trim().min(1, 'Choose the unit.').max(32),
   measuredAt: z.iso.datetime({ offset: true, message: 'Enter when it was measured.' }).nullable().default(null),
   sampleId: z.string().trim().max(64).nullable().default(null),
   note: z.string().trim().max(500).optional(),

@@ -40,6 +40,9 @@ export const parsedReadingSchema = z.object({
   /** The instrument's own result status (ASTM R.9, HL7 OBX-11); null when it sends none. */
   resultStatus: z.enum(RESULT_STATUSES).nullable().default(null),
   raw: z.string().max(65536),
+}).refine((r) => [r.value !== null, r.code !== null, r.text !== null].filter(Boolean).length <= 1, {
+  path: ['value'],
+  message: 'a result is a number, a code or text, not more than one',
 });
 export type ParsedReading = z.infer<typeof parsedReadingSchema>;
 

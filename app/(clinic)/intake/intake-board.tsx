@@ -2,7 +2,7 @@
 import { useEffect, useRef, useState } from 'react';
 import useSWR from 'swr';
 import { fetcher } from '@/lib/client/fetcher';
-import { formatDateTime, formatValue, timeAgo } from '@/lib/format';
+import { formatDateTime, formatValue, instrumentFlagsText, timeAgo } from '@/lib/format';
 import type { ReadingView } from '@/lib/readings/queries';
 import { Notice, buttonClass } from '@/app/components/ui';
 import type { Candidate } from '@/lib/clinical/matching';
@@ -98,6 +98,14 @@ export function IntakeBoard() {
                     <td className="px-4 py-3 font-medium">{r.analyte}</td>
                     <td className="whitespace-nowrap px-4 py-3 font-mono text-base font-semibold" data-testid="reading-value">
                       {formatValue(r)}
+                      {instrumentFlagsText(r.flags) && (
+                        <span className="ml-2 rounded bg-alarm-100 px-1.5 py-0.5 font-sans text-xs font-semibold text-alarm-700" data-testid="analyzer-flag" title="Flag sent by the analyzer">
+                          {instrumentFlagsText(r.flags)}
+                        </span>
+                      )}
+                      {r.instrumentRange && <span className="block font-sans text-xs font-normal text-ink-500">analyzer range {r.instrumentRange}</span>}
+                      {r.enteredByName && <span className="block font-sans text-xs font-normal text-signal-600">typed in by {r.enteredByName}</span>}
+                      {r.notes.length > 0 && <span className="block max-w-xs whitespace-normal font-sans text-xs font-normal text-ink-700">Note: {r.notes.join(' · ')}</span>}
                     </td>
                     <td className="px-4 py-3">
                       {r.sampleId || r.patientRef ? (
