@@ -22,7 +22,7 @@ const astm = testSession([
 const hl7 = Buffer.concat([
   Buffer.from([0x0b]),
   Buffer.from(
-    ['MSH|^~\\&|HEMASIM|BENCH3|LIS|CLINIC|20261201140500||ORU^R01^ORU_R01|E2E1|P|2.5', 'OBR|1||S-E2E-2|PARVO', 'OBX|1|CWE|PARVO^Parvovirus antigen||POS^Positive^L||||A|||F|||20261201140322'].join('\r') + '\r',
+    ['MSH|^~\\&|HEMASIM|BENCH3|LIS|CLINIC|20261201140500||ORU^R01^ORU_R01|E2E1|P|2.5', 'OBR|1||S-E2E-2|PARVO', 'OBX|1|CWE|PARVO^Parvovirus antigen||POS^Positive^L|||A|||F|||20261201140322'].join('\r') + '\r',
   ),
   Buffer.from([0x1c, 0x0d]),
 ]);
@@ -79,5 +79,5 @@ describe('analyzer flags and qualitative results on the chart', () => {
     expect(await vet.locator('[data-testid=trend-chart][data-analyte=PARVO]').count()).toBe(0);
     await vet.setViewportSize({ width: 390, height: 800 });
     await vet.screenshot({ path: path.join(dir, 'chart-390.png'), fullPage: true });
-  });
+  }, 240_000);
 });
