@@ -1,12 +1,30 @@
 import 'server-only';
 import { and, eq } from 'drizzle-orm';
 import { db, type Tx } from '@/db/client';
-import { readings, unparsedCaptures } from '@/db/schema';
+import { analyteSettings, readings, unparsedCaptures } from '@/db/schema';
 import { requirePermission, type Actor } from '@/lib/auth/guards';
 import { recordAudit } from '@/lib/audit';
 import { ApiError, notFound } from '@/lib/http';
 import { publish } from '@/lib/live/bus';
+import { sameUnit } from '@/lib/clinical/units';
 import type { TranscribeCaptureInput } from '@/lib/validation/api';
+
+/** The units a test may be typed in: the one its intervals are kept in and the one the clinic reads it in. */
+export function unitsOf(analyte: { unit: string; displayUnit: string }): string[] {
+  return [...new Set([analyte.unit, analyte.displayUnit])];
+}
+
+/** The clinic's tests with their units, for the typed-in result form. */
+export async function typableAnalytes(actor: Actor) {
+  requirePermission(actor, 'assignReadings');
+  const database = await db();
+  const rows = await database
+    .select({ code: analyteSettings.code, name: analyteSettings.name, unit: analyteSettings.unit, displayUnit: analyteSettings.displayUnit })
+    .from(analyteSettings)
+    .where(eq(analyteSettings.clinicId, actor.clinicId))
+    .orderBy(analyteSettings.code);
+  return rows.map((r) => ({ code: r.code, name: r.name, units: unitsOf(r) }));
+}
 
 async function lockOpenCapture(tx: Tx, actor: Actor, captureId: string) {
   requirePermission(actor, 'assignReadings');
@@ -52,6 +70,19 @@ export async function transcribeCapture(actor: Actor, captureId: string, input: 
   const database = await db();
   return database.transaction(async (tx) => {
     const capture = await lockOpenCapture(tx, actor, captureId);
+    // The same tests and units as everywhere else, so the same intervals and flags apply to a typed result.
+    const [analyte] = await tx
+      .select()
+      .from(analyteSettings)
+      .where(and(eq(analyteSettings.clinicId, actor.clinicId), eq(analyteSettings.code, input.analyte)));
+    if (!analyte) {
+      throw new ApiError(400, 'invalid_request', 'Choose a test from the clinic’s list.', [{ path: 'analyte', message: `"${input.analyte}" is not one of the clinic’s tests.` }]);
+    }
+    const units = unitsOf(analyte);
+    const unit = units.find((u) => sameUnit(u, input.unit));
+    if (!unit) {
+      throw new ApiError(400, 'invalid_request', `Choose the unit ${analyte.code} is reported in.`, [{ path: 'unit', message: `Use ${units.join(' or ')}.` }]);
+    }
     const [reading] = await tx
       .insert(readings)
       .values({
@@ -63,8 +94,9 @@ export async function transcribeCapture(actor: Actor, captureId: string, input: 
         analyte: input.analyte,
         value: input.value,
         comparator: input.comparator,
-        unit: input.unit,
+        unit,
         flags: ['transcribed'],
+        enteredBy: actor.userId,
         sampleId: input.sampleId,
         measuredAt: input.measuredAt ? new Date(input.measuredAt) : null,
         receivedAt: capture.receivedAt,

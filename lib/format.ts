@@ -11,7 +11,16 @@ export function formatMeasured(m: { value: number | null; comparator: '<' | '>' 
 export const CLINICAL_CAUTION_TEXT =
   'Results support, and never replace, a veterinarian’s clinical judgement. Verify unexpected values (repeat the test, check the sample and the patient’s identity) before acting on them, and follow local regulations and licensed practice.';
 
-export function formatValue(r: { value: number | null; comparator: string | null; unit: string | null }): string {
+export function formatValue(r: {
+  value: number | null;
+  comparator: string | null;
+  unit: string | null;
+  valueCode?: { code: string; display: string | null } | null;
+  valueText?: string | null;
+}): string {
+  // A coded or text result is shown as sent, never as a number.
+  if (r.valueCode) return r.valueCode.display ? `${r.valueCode.display} (${r.valueCode.code})` : r.valueCode.code;
+  if (r.valueText != null) return r.valueText;
   if (r.value === null) return '—';
   const number = Number.isInteger(r.value) ? String(r.value) : String(Number(r.value.toFixed(4)));
   return `${r.comparator ?? ''}${number}${r.unit ? ` ${r.unit}` : ''}`;
@@ -60,3 +69,9 @@ export const sexLabel: Record<string, string> = {
   female_spayed: 'female, spayed',
   unknown: 'sex unknown',
 };
+
+/** The analyzer's own flags among a reading's flags, for a row: "H", "L, A"; '' when it sent none. */
+export function instrumentFlagsText(flags: readonly string[] | undefined): string {
+  const own = (flags ?? []).filter((f) => !['preliminary', 'corrected', 'questionable', 'transcribed'].includes(f));
+  return own.join(', ');
+}

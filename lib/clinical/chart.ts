@@ -79,6 +79,12 @@ export async function patientChart(actor: Actor, patientId: string) {
         display: e.display,
         flag: e.flag,
         band: e.band,
+        /** Whose interval the flag and band come from: the clinic's, or the range the analyzer sent. */
+        interval: e.interval ? { origin: e.interval.origin, source: e.interval.source, low: e.interval.low, high: e.interval.high } : null,
+        analyzerFlag: e.analyzerFlag,
+        qualitative: e.qualitative,
+        unitNote: e.unitNote,
+        typedInBy: r.enteredByName,
         problems: e.problems,
         speciesWarning: e.speciesWarning,
         change: change ? { ...change, previousId: previous!.r.id } : null,
@@ -94,6 +100,8 @@ export async function patientChart(actor: Actor, patientId: string) {
     codes.map((code) => {
       const a = analytes.get(code);
       const interval = pickInterval(intervals, code, patient.species, null);
+      // Without a clinic interval, the chart draws the latest range the analyzer sent for this test, labelled as such.
+      const fromAnalyzer = interval ? null : enriched.find((x) => x.analyte === code && x.clinical.interval?.origin === 'analyzer')?.clinical.interval ?? null;
       const toDisplay = (v: number | null) => {
         if (v === null || !interval || !a) return v;
         const c = convert(v, interval.unit, a.displayUnit);
@@ -115,8 +123,13 @@ export async function patientChart(actor: Actor, patientId: string) {
                 criticalLow: toDisplay(interval.criticalLow),
                 criticalHigh: toDisplay(interval.criticalHigh),
                 source: interval.source,
+                origin: 'clinic' as const,
               }
-            : null,
+            : fromAnalyzer
+              ? { low: fromAnalyzer.low, high: fromAnalyzer.high, criticalLow: null, criticalHigh: null, source: fromAnalyzer.source, origin: 'analyzer' as const }
+              : null,
+          /** Coded or text results: shown as a timeline of values, not a line plot. */
+          qualitative: enriched.some((x) => x.analyte === code && x.clinical.qualitative !== null),
         },
       ];
     }),

@@ -151,7 +151,16 @@ export async function unreviewedResults(actor: Actor, mine: boolean) {
   const [analytes, intervals] = await Promise.all([analyteContexts(database, actor.clinicId, codes), intervalContexts(database, actor.clinicId, codes)]);
   return rows.map((r) => {
     const e = evaluateResult(r, { name: r.patientName, species: r.patientSpecies }, analytes.get(r.analyte), intervals);
-    return { ...r, display: e.display, flag: e.flag, decimals: analytes.get(r.analyte)?.decimals ?? 1 };
+    return {
+      ...r,
+      display: e.display,
+      flag: e.flag,
+      band: e.band,
+      analyzerFlag: e.analyzerFlag,
+      qualitative: e.qualitative,
+      intervalOrigin: e.interval?.origin ?? null,
+      decimals: analytes.get(r.analyte)?.decimals ?? 1,
+    };
   });
 }
 

@@ -1,6 +1,6 @@
 import { z } from 'zod';
 import { text, isoDateTime } from './text';
-import { DECIMAL_MARKS } from './numbers';
+import { DECIMAL_MARKS, readNumber } from './numbers';
 import { ROLES } from '@/lib/auth/roles';
 import { profileDefinitionSchema } from './profile';
 
@@ -157,12 +157,28 @@ export const dismissCaptureSchema = z.object({
   reason: text(500, { min: 3, minMessage: 'Say why this capture can be dismissed.', multiline: true }),
 });
 
-/** A result typed by a person from an unparsed capture (read against the instrument's display or slip). */
+/**
+ * A result typed by a person from an unparsed capture (read against the instrument's display or slip).
+ * The test comes from the clinic's list and the unit from that test's units (checked on the server too);
+ * the value may be written with a decimal point or a decimal comma, never with digit grouping.
+ */
 export const transcribeCaptureSchema = z.object({
-  analyte: text(64, { min: 1, minMessage: 'Enter the test.' }),
-  value: z.coerce.number({ message: 'Enter the number as printed.' }).finite(),
+  analyte: text(64, { min: 1, minMessage: 'Choose the test.' }),
+  value: z.union([z.number().finite(), z.string()], { message: 'Enter the value as printed.' }).transform((v, ctx) => {
+    if (typeof v === 'number') return v;
+    if (/^\s*[<>]/.test(v)) {
+      ctx.addIssue({ code: 'custom', message: 'Choose “below” or “above” in the comparator field and enter the number alone.' });
+      return z.NEVER;
+    }
+    const read = readNumber(v, 'either');
+    if (!read.ok) {
+      ctx.addIssue({ code: 'custom', message: read.reason === 'holds no number' ? 'Enter the value as printed.' : `The value ${read.reason}.` });
+      return z.NEVER;
+    }
+    return read.value;
+  }),
   comparator: z.enum(['<', '>']).nullable().default(null),
-  unit: text(32).nullable().default(null),
+  unit: text(32, { min: 1, minMessage: 'Choose the unit.' }),
   measuredAt: isoDateTime('Enter when it was measured.').nullable().default(null),
   sampleId: text(64).nullable().default(null),
   note: text(500, { multiline: true }).optional(),

@@ -43,6 +43,9 @@ export const parsedReadingSchema = z.object({
   /** 'control' when the analyzer marks the specimen as QC (ASTM O.12 action code Q, HL7 SPM-11 role Q). */
   specimenRole: z.enum(['patient', 'control']).optional(),
   raw: z.string().max(65536),
+}).refine((r) => [r.value !== null, r.code !== null, r.text !== null].filter(Boolean).length <= 1, {
+  path: ['value'],
+  message: 'a result is a number, a code or text, not more than one',
 });
 export type ParsedReading = z.infer<typeof parsedReadingSchema>;
 

@@ -58,7 +58,7 @@ describe('handling unparsed captures', () => {
   it('a capture is handled once: a second attempt is a conflict', async () => {
     const id = await capture('cap-00000003', 'NOISE\n');
     await dismiss(request('/api/captures/x/dismiss', { cookie: tech, body: { reason: 'line noise' } }), params({ captureId: id }));
-    const again = await transcribe(request('/api/captures/x/transcribe', { cookie: tech, body: { analyte: 'cCRP', value: 1 } }), params({ captureId: id }));
+    const again = await transcribe(request('/api/captures/x/transcribe', { cookie: tech, body: { analyte: 'cCRP', value: 1, unit: 'mg/L' } }), params({ captureId: id }));
     // RFC 9110 §15.5.10: 409 Conflict, the request conflicts with the resource's current state.
     expect(again.status).toBe(409);
   });

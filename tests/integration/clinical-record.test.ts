@@ -118,7 +118,7 @@ describe('the chart reads results in context', () => {
     expect(d4.clinical.band.label).toBe('Raised');
     // 8.1 → 96.4 in 2 days: over 20 mg/L and over 270% (J Vet Intern Med 2011, doi:10.1111/j.1939-1676.2011.0729.x).
     expect(d4.clinical.delta).toMatchObject({ flagged: true });
-    expect(d4.clinical.delta.text).toMatch(/^Check patient identity/);
+    expect(d4.clinical.delta.text).toMatch(/^Large change since the last result/);
     expect(d6.clinical.change).toBeNull();
     // Seeded reviews: all but the latest signed off.
     expect(list.map((r: { clinical: { reviewed: unknown } }) => r.clinical.reviewed !== null)).toEqual([false, true, true, true, true]);

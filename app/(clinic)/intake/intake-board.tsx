@@ -2,7 +2,7 @@
 import { useEffect, useRef, useState } from 'react';
 import useSWR from 'swr';
 import { fetcher } from '@/lib/client/fetcher';
-import { formatDateTime, formatValue, timeAgo } from '@/lib/format';
+import { formatDateTime, formatValue, instrumentFlagsText, timeAgo } from '@/lib/format';
 import type { ReadingView } from '@/lib/readings/queries';
 import { Notice, buttonClass } from '@/app/components/ui';
 import type { Suggestion } from '@/lib/clinical/matching';
@@ -117,6 +117,14 @@ export function IntakeBoard() {
                         {formatValue(r)}
                       </span>
                       <QualityMarks marks={markViews(r.qualityMarks)} />
+                      {instrumentFlagsText(r.flags) && (
+                        <span className="ml-2 rounded bg-alarm-100 px-1.5 py-0.5 font-sans text-xs font-semibold text-alarm-700" data-testid="analyzer-flag" title="Flag sent by the analyzer">
+                          {instrumentFlagsText(r.flags)}
+                        </span>
+                      )}
+                      {r.instrumentRange && <span className="block font-sans text-xs font-normal text-ink-500">analyzer range {r.instrumentRange}</span>}
+                      {r.enteredByName && <span className="block font-sans text-xs font-normal text-signal-600">typed in by {r.enteredByName}</span>}
+                      {r.notes.length > 0 && <span className="block max-w-xs whitespace-normal font-sans text-xs font-normal text-ink-700">Note: {r.notes.join(' · ')}</span>}
                       {r.critical && (
                         <p className="mt-1 max-w-56 rounded bg-alarm-100 px-1.5 py-0.5 text-xs font-semibold text-alarm-700" data-testid="critical-before-assignment" role="note">
                           {r.critical.text}

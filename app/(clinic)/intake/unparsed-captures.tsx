@@ -1,7 +1,7 @@
 'use client';
 import { useState } from 'react';
 import useSWR from 'swr';
-import { useForm } from 'react-hook-form';
+import { useForm, useWatch } from 'react-hook-form';
 import { zodResolver } from '@hookform/resolvers/zod';
 import type { z } from 'zod';
 import { Modal } from '@/app/components/modal';
@@ -72,10 +72,13 @@ type TranscribeForm = z.input<typeof transcribeCaptureSchema>;
 
 function TranscribeDialog({ capture, onClose }: { capture: Capture; onClose: (message?: string) => void }) {
   const [failure, setFailure] = useState<string | null>(null);
-  const { register, handleSubmit, formState } = useForm<TranscribeForm>({
+  const { register, handleSubmit, formState, control } = useForm<TranscribeForm>({
     resolver: zodResolver(transcribeCaptureSchema),
-    defaultValues: { comparator: null, unit: null, sampleId: null, measuredAt: null },
+    defaultValues: { analyte: '', comparator: null, unit: '', sampleId: null, measuredAt: null },
   });
+  const analytes = useSWR<{ analytes: { code: string; name: string; units: string[] }[] }>('/api/captures/analytes', fetcher);
+  const chosen = useWatch({ control, name: 'analyte' });
+  const units = analytes.data?.analytes.find((a) => a.code === chosen)?.units ?? [];
   const { errors, isSubmitting } = formState;
   const blankToNull = (v: unknown) => (v === '' ? null : v);
 
@@ -96,7 +99,14 @@ function TranscribeDialog({ capture, onClose }: { capture: Capture; onClose: (me
         {failure && <Notice tone="error">{failure}</Notice>}
         <div className="grid grid-cols-2 gap-3">
           <Field id="t-analyte" label="Test" error={errors.analyte?.message}>
-            <input id="t-analyte" className={inputClass} aria-invalid={!!errors.analyte} {...register('analyte')} />
+            <select id="t-analyte" className={inputClass} aria-invalid={!!errors.analyte} {...register('analyte')}>
+              <option value="">Choose…</option>
+              {analytes.data?.analytes.map((a) => (
+                <option key={a.code} value={a.code}>
+                  {a.code} · {a.name}
+                </option>
+              ))}
+            </select>
           </Field>
           <Field id="t-sample" label="Sample ID (if printed)">
             <input id="t-sample" className={inputClass} {...register('sampleId', { setValueAs: blankToNull })} />
@@ -108,11 +118,18 @@ function TranscribeDialog({ capture, onClose }: { capture: Capture; onClose: (me
               <option value=">">above (&gt;)</option>
             </select>
           </Field>
-          <Field id="t-value" label="Value" error={errors.value?.message}>
+          <Field id="t-value" label="Value (12.4 or 12,4)" error={errors.value?.message}>
             <input id="t-value" inputMode="decimal" className={inputClass} aria-invalid={!!errors.value} {...register('value')} />
           </Field>
-          <Field id="t-unit" label="Unit">
-            <input id="t-unit" className={inputClass} placeholder="mg/L" {...register('unit', { setValueAs: blankToNull })} />
+          <Field id="t-unit" label="Unit" error={errors.unit?.message}>
+            <select id="t-unit" className={inputClass} aria-invalid={!!errors.unit} {...register('unit')}>
+              <option value="">{chosen ? 'Choose…' : 'Choose the test first'}</option>
+              {units.map((u) => (
+                <option key={u} value={u}>
+                  {u}
+                </option>
+              ))}
+            </select>
           </Field>
           <Field id="t-measured" label="Measured at" error={errors.measuredAt?.message}>
             <input

@@ -32,6 +32,10 @@ interface UnreviewedRow {
   analyte: string;
   display: { value: number | null; comparator: '<' | '>' | null; unit: string | null };
   flag: FlagResult | null;
+  analyzerFlag: { codes: string[]; text: string; abnormal: boolean } | null;
+  qualitative: { label: string; abnormal: boolean | null; basis: string } | null;
+  band: { label: string; certain: boolean } | null;
+  intervalOrigin: 'clinic' | 'analyzer' | null;
   decimals: number;
   measuredAt: string | null;
   receivedAt: string;
@@ -204,9 +208,18 @@ export function ReviewBoard({ role }: { role: StaffRole }) {
                       <span className="font-mono text-xs">{r.patientRecordNumber}</span>
                     </td>
                     <td className="px-4 py-2">{r.analyte}</td>
-                    <td className="px-4 py-2 font-mono font-semibold">{formatMeasured(r.display, r.decimals)}</td>
-                    <td className="px-4 py-2 text-xs" title={r.flag?.text}>
-                      {r.flag ? `${FLAG_CODE[r.flag.flag]}${r.flag.certain ? '' : '?'}` : '—'}
+                    <td className="px-4 py-2 font-mono font-semibold">
+                      {r.qualitative ? r.qualitative.label : formatMeasured(r.display, r.decimals)}
+                      {r.band && (
+                        <span className="block font-sans text-xs font-normal text-ink-700">
+                          {r.band.label}
+                          {r.intervalOrigin === 'analyzer' && ' (interval from the analyzer)'}
+                        </span>
+                      )}
+                    </td>
+                    <td className="px-4 py-2 text-xs" title={[r.flag?.text, r.analyzerFlag?.text, r.qualitative?.basis].filter(Boolean).join(' · ')} data-testid="review-flag">
+                      {r.flag ? `${FLAG_CODE[r.flag.flag]}${r.flag.certain ? '' : '?'}` : r.qualitative ? (r.qualitative.abnormal === null ? 'not interpreted' : r.qualitative.abnormal ? 'Abnormal' : 'Normal') : r.analyzerFlag ? '' : '—'}
+                      {r.analyzerFlag && <span className="ml-1 text-alarm-700">analyzer: {r.analyzerFlag.codes.join(', ')}</span>}
                     </td>
                     <td className="whitespace-nowrap px-4 py-2">{formatDateTime(r.measuredAt ?? r.receivedAt)}</td>
                     <td className="px-4 py-2">{r.attendingVetName ?? '—'}</td>

@@ -9,6 +9,7 @@ import { FLAG_CODE } from '@/lib/clinical/flags';
 import { QualityMarks } from '@/app/components/quality-marks';
 import { formatMeasured, formatDateTime } from '@/lib/format';
 import { ResultDetail } from './result-detail';
+import { QualitativeTimeline } from './qualitative-timeline';
 
 // The chart library is loaded only when a chart is drawn (a record with results), not with the page.
 const TrendChart = dynamic(() => import('./trend-chart').then((m) => m.TrendChart), {
@@ -29,13 +30,50 @@ const flagClass: Record<string, string> = {
   normal: 'text-moss-700',
 };
 
-export function FlagBadge({ result }: { result: ChartResult }) {
-  const f = result.clinical.flag;
-  if (!f) return <span className="text-xs text-ink-500">{result.clinical.problems[0] ? 'not flagged' : '—'}</span>;
+/** The analyzer's own flag, shown beside ours (or alone when we have no interval), never hidden. */
+function AnalyzerFlag({ result }: { result: ChartResult }) {
+  const a = result.clinical.analyzerFlag;
+  if (!a) return null;
   return (
     <span
+      className={`ml-1 inline-block rounded px-1.5 py-0.5 text-xs font-semibold ${a.abnormal ? 'bg-alarm-100 text-alarm-700' : 'text-moss-700'}`}
+      title={a.text}
+      data-testid="analyzer-flag"
+    >
+      analyzer: {a.codes.join(', ')}
+      <span className="sr-only"> {a.text}</span>
+    </span>
+  );
+}
+
+export function FlagBadge({ result }: { result: ChartResult }) {
+  const f = result.clinical.flag;
+  const q = result.clinical.qualitative;
+  if (q) {
+    const label = q.abnormal === null ? 'not interpreted' : q.abnormal ? 'Abnormal' : 'Normal';
+    return (
+      <>
+        <span
+          className={`inline-block rounded px-1.5 py-0.5 text-xs font-semibold ${q.abnormal ? 'bg-alarm-100 text-alarm-700' : q.abnormal === false ? 'text-moss-700' : 'text-ink-500'}`}
+          title={q.basis}
+          data-testid="result-flag"
+          data-flag={q.abnormal === null ? 'none' : q.abnormal ? 'abnormal' : 'normal'}
+        >
+          {label}
+          <span className="sr-only"> {q.basis}</span>
+        </span>
+      </>
+    );
+  }
+  if (!f) {
+    if (result.clinical.analyzerFlag) return <AnalyzerFlag result={result} />;
+    return <span className="text-xs text-ink-500">{result.clinical.problems[0] ? 'not flagged' : '—'}</span>;
+  }
+  return (
+    <>
+    <span
       className={`inline-block rounded px-1.5 py-0.5 text-xs font-semibold ${flagClass[f.flag]}`}
-      title={f.text}
+      title={`${f.text}${result.clinical.interval?.origin === 'analyzer' ? ' (interval from the analyzer)' : ''}`}
       data-testid="result-flag"
       data-flag={f.flag}
     >
@@ -43,6 +81,8 @@ export function FlagBadge({ result }: { result: ChartResult }) {
       {!f.certain && '?'}
       <span className="sr-only"> {f.text}</span>
     </span>
+    <AnalyzerFlag result={result} />
+    </>
   );
 }
 
@@ -63,7 +103,7 @@ export function PatientResults({ patientId, patientName }: { patientId: string; 
           <div className={`grid gap-4 ${analytes.length > 1 ? 'lg:grid-cols-2' : ''}`}>
             {analytes.map((a) => (
               <div key={a.code}>
-                <TrendChart analyte={a} results={data.results} />
+                {a.qualitative ? <QualitativeTimeline analyte={a} results={data.results} /> : <TrendChart analyte={a} results={data.results} />}
                 {a.interval && <p className="mt-1 text-[11px] leading-snug text-ink-500">Interval source: {a.interval.source}</p>}
                 {a.speciesNote && <p className="mt-1 text-[11px] leading-snug text-ink-500">{a.speciesNote}</p>}
               </div>
@@ -92,14 +132,31 @@ export function PatientResults({ patientId, patientName }: { patientId: string; 
                         <td className="whitespace-nowrap px-4 py-2">{formatDateTime(r.measuredAt ?? r.receivedAt)}</td>
                         <td className="px-4 py-2 font-medium">{r.analyte}</td>
                         <td className="whitespace-nowrap px-4 py-2 font-mono font-semibold" data-testid="result-value">
-                          {formatMeasured(r.clinical.display, a?.decimals ?? 1)}
-                          {r.clinical.band && <span className="block font-sans text-xs font-normal text-ink-700">{r.clinical.band.label}</span>}
+                          {r.clinical.qualitative ? r.clinical.qualitative.label : formatMeasured(r.clinical.display, a?.decimals ?? 1)}
+                          {r.clinical.band && (
+                            <span className="block font-sans text-xs font-normal text-ink-700" data-testid="result-band">
+                              {r.clinical.band.label}
+                              {r.clinical.interval?.origin === 'analyzer' && <span className="text-ink-500"> · interval from the analyzer</span>}
+                            </span>
+                          )}
+                          {r.clinical.typedInBy && (
+                            <span className="block font-sans text-xs font-normal text-signal-600" data-testid="typed-in">
+                              typed in by {r.clinical.typedInBy}
+                            </span>
+                          )}
+                          {r.clinical.unitNote && <span className="block font-sans text-[11px] font-normal text-ink-500">{r.clinical.unitNote}</span>}
+                          {r.notes.length > 0 && (
+                            <span className="block max-w-xs whitespace-normal font-sans text-xs font-normal text-ink-700" data-testid="result-notes">
+                              Note: {r.notes.join(' · ')}
+                            </span>
+                          )}
                         </td>
                         <td className="px-4 py-2">
                           <FlagBadge result={r} />
                           {r.clinical.delta && (
                             <span className="ml-1 inline-block rounded bg-signal-100 px-1.5 py-0.5 text-xs font-semibold text-signal-600" title={r.clinical.delta.text} data-testid="delta-flag">
-                              Check identity
+                              Large change
+                              <span className="sr-only"> {r.clinical.delta.text}</span>
                             </span>
                           )}
                           <QualityMarks marks={r.quality} />

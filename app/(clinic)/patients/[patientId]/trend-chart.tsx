@@ -44,7 +44,7 @@ export function TrendChart({ analyte, results }: { analyte: ChartAnalyte; result
       comparator: r.clinical.display.comparator,
       label: formatMeasured(r.clinical.display, analyte.decimals),
       change: r.clinical.change?.text ?? null,
-      flagged: !!r.clinical.flag && r.clinical.flag.flag !== 'normal',
+      flagged: (!!r.clinical.flag && r.clinical.flag.flag !== 'normal') || !!r.clinical.analyzerFlag?.abnormal,
     }))
     .sort((a, b) => a.t - b.t);
   if (points.length === 0) return null;

@@ -1,0 +1,116 @@
+// Results as the analyzer meant them, through the bridge route, assignment and the chart: the analyzer's
+// range flags a result when the clinic has no interval (labelled so), the analyzer's own flag is always
+// shown, a coded result stays a code, and a typed-in result gets the same tests, units and flags.
+import { beforeAll, describe, expect, it } from 'vitest';
+import { body, ingest, ingestOne, patientByRecord, readingRecord, unparsedRecord } from './support';
+import * as results from '@/app/api/patients/[patientId]/results/route';
+import * as assign from '@/app/api/readings/[readingId]/assign/route';
+import * as unreviewed from '@/app/api/reviews/unreviewed/route';
+import { GET as typable } from '@/app/api/captures/analytes/route';
+import { POST as transcribe } from '@/app/api/captures/[captureId]/transcribe/route';
+import type { Database } from '@/db/client';
+import { seededDatabase } from '../helpers/db';
+import { params, request, signIn } from '../helpers/http';
+
+let database: Database;
+let token: string;
+let clinicId: string;
+let tech: string;
+let vet: string;
+let biscuit: string;
+let n = 0;
+beforeAll(async () => {
+  ({ database, bridgeToken: token, clinicId } = await seededDatabase());
+  tech = await signIn('tech@fernhollow.example');
+  vet = await signIn('vet@fernhollow.example');
+  biscuit = (await patientByRecord(database.db, clinicId, 'FH-1001')).id;
+});
+
+const key = () => `analyzer-${String(++n).padStart(8, '0')}`;
+const onBiscuit = async (payload: Record<string, unknown>) => {
+  const readingId = await ingestOne(token, key(), payload);
+  const response = await assign.POST(request('/api/readings/x/assign', { cookie: tech, body: { patientId: biscuit } }), params({ readingId }));
+  expect(response.status).toBe(200);
+  return readingId;
+};
+const chartRow = async (readingId: string) => {
+  const chart = await body(await results.GET(request('/api/patients/x/results', { cookie: vet }), params({ patientId: biscuit })));
+  return { row: chart.results.find((r: { id: string }) => r.id === readingId), analytes: chart.analytes };
+};
+
+describe('analyzer ranges and flags', () => {
+  // Potassium has no clinic interval in the defaults: HL7 OBX-7 "3.5-5.8" and OBX-8 "L" (table 0078, from memory) decide.
+  it('flags and bands from the analyzer’s range when the clinic has no interval, labelled as the analyzer’s', async () => {
+    const id = await onBiscuit({ analyte: 'K', value: 2.9, unit: 'mmol/L', referenceRange: '3.5-5.8', flags: ['L'], raw: 'OBX|1|NM|K||2.9|mmol/L|3.5-5.8|L\r' });
+    const { row, analytes } = await chartRow(id);
+    expect(row.clinical.flag).toMatchObject({ flag: 'low', certain: true });
+    expect(row.clinical.band).toEqual({ label: 'Below interval', certain: true });
+    expect(row.clinical.interval).toMatchObject({ origin: 'analyzer', source: 'Interval from the analyzer (3.5-5.8)', low: 3.5, high: 5.8 });
+    expect(row.clinical.analyzerFlag).toMatchObject({ codes: ['L'], abnormal: true });
+    expect(analytes.K.interval).toMatchObject({ origin: 'analyzer', low: 3.5, high: 5.8 });
+    const list = (await body(await unreviewed.GET(request('/api/reviews/unreviewed', { cookie: vet }), undefined))).results;
+    expect(list.find((r: { id: string }) => r.id === id)).toMatchObject({ flag: { flag: 'low' }, band: { label: 'Below interval' }, intervalOrigin: 'analyzer', analyzerFlag: { codes: ['L'] } });
+  });
+
+  // The issue's example: ALB 10 g/L flagged L with 22–40; the clinic's dog interval (defaults, from memory) now flags it too.
+  it('uses the clinic’s interval when there is one, and keeps the analyzer’s flag beside it', async () => {
+    const id = await onBiscuit({ analyte: 'ALB', value: 10, unit: 'g/L', referenceRange: '22 to 40', flags: ['L'], raw: 'R|1|^^^ALB|10|g/L|22^40|L\r' });
+    const { row } = await chartRow(id);
+    expect(row.clinical.flag).toMatchObject({ flag: 'low' });
+    expect(row.clinical.interval.origin).toBe('clinic');
+    expect(row.clinical.band).toEqual({ label: 'Below interval', certain: true });
+    expect(row.clinical.analyzerFlag.codes).toEqual(['L']);
+  });
+
+  it('keeps a coded result as a code with its interpretation, and its notes', async () => {
+    const id = await onBiscuit({ analyte: 'FELV', value: null, code: { system: 'L', code: '1', display: 'Positive' }, unit: null, flags: ['A'], notes: ['Confirm with a second test'], raw: 'OBX|1|CE|FELV||1^Positive^L||||A\r' });
+    const { row, analytes } = await chartRow(id);
+    expect(row).toMatchObject({ value: null, valueCode: { code: '1', display: 'Positive', system: 'L' }, notes: ['Confirm with a second test'] });
+    expect(row.clinical.qualitative).toMatchObject({ label: 'Positive', abnormal: true });
+    expect(row.clinical.flag).toBeNull();
+    expect(analytes.FELV.qualitative).toBe(true);
+  });
+
+  it('refuses a reading that claims two kinds of value, with the field named', async () => {
+    const response = await ingest(token, [readingRecord(key(), { value: 1, text: 'positive' })]);
+    expect(response.status).toBe(400);
+    expect((await body(response)).error.issues.map((i: { path: string }) => i.path).join(' ')).toMatch(/value/);
+  });
+});
+
+describe('typed-in results', () => {
+  async function capture(raw: string) {
+    const { results: stored } = await body(await ingest(token, [unparsedRecord(key(), raw, 'record cut short')]));
+    return stored[0].id as string;
+  }
+  const type = (captureId: string, input: Record<string, unknown>) => transcribe(request('/api/captures/x/transcribe', { cookie: tech, body: input }), params({ captureId }));
+  const issues = async (response: Response) => (await body(response)).error.issues.map((i: { path: string }) => i.path);
+
+  it('offers the clinic’s tests with their units', async () => {
+    const { analytes } = await body(await typable(request('/api/captures/analytes', { cookie: tech }), undefined));
+    expect(analytes.find((a: { code: string }) => a.code === 'cCRP')).toEqual({ code: 'cCRP', name: 'C-reactive protein (canine)', units: ['mg/L'] });
+  });
+
+  it('requires a test from the list and one of its units, and refuses grouping', async () => {
+    const id = await capture('RESULT 12,4 mg/L\n');
+    expect(await issues(await type(id, { analyte: 'cCRP', value: '12,4' }))).toContain('unit');
+    expect(await issues(await type(id, { analyte: 'crp?', value: '12,4', unit: 'mg/L' }))).toContain('analyte');
+    expect(await issues(await type(id, { analyte: 'cCRP', value: '12,4', unit: 'g/L' }))).toContain('unit');
+    expect(await issues(await type(id, { analyte: 'cCRP', value: '1,234.5', unit: 'mg/L' }))).toContain('value');
+  });
+
+  it('accepts a decimal comma, marks the result typed in and by whom, and flags it like any other', async () => {
+    const id = await capture('RESULT 12,4 mg/L\n');
+    const response = await type(id, { analyte: 'cCRP', value: '12,4', unit: 'mg/l' });
+    expect(response.status).toBe(201);
+    const { readingId } = await body(response);
+    const assigned = await assign.POST(request('/api/readings/x/assign', { cookie: tech, body: { patientId: biscuit } }), params({ readingId }));
+    expect(assigned.status).toBe(200);
+    const { row } = await chartRow(readingId);
+    expect(row).toMatchObject({ value: 12.4, unit: 'mg/L', flags: ['transcribed'] });
+    expect(row.clinical.typedInBy).toEqual(expect.any(String));
+    // 12.4 mg/L is above the canine CRP upper limit of 10 mg/L (defaults, from memory): High, band Raised.
+    expect(row.clinical.flag).toMatchObject({ flag: 'high' });
+    expect(row.clinical.band).toMatchObject({ label: 'Raised' });
+  });
+});
