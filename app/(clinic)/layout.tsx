@@ -36,7 +36,7 @@ export default async function ClinicLayout({ children }: { children: React.React
               {allowed(actor.role, 'manageClinic') && <NavLink href="/admin">Admin</NavLink>}
               {outboxDir() && <NavLink href="/outbox">Outbox (demo)</NavLink>}
             </nav>
-            <div className="ml-auto flex items-center gap-4 text-sm">
+            <div className="ml-auto flex flex-wrap items-center gap-x-4 gap-y-1 text-sm">
               <AlertNotifier />
               <LiveStatus />
               <span className="text-ink-100">

@@ -159,6 +159,8 @@ export function evaluateRun(history: QcObservation[], run: QcObservation[], opti
         const levels = new Set(hit.map((h) => h.level));
         // A window of one level found in the combined sequence is the within-level violation already.
         if (scope === 'across-levels' && levels.size === 1) return;
+        // 2-2s across levels is defined within one run; across runs it is checked per level only.
+        if (rule === '2-2s' && scope === 'across-levels' && !hit.every((h) => currentIds.has(h.id))) return;
         add(violation(rule, scope, hit));
       });
     }

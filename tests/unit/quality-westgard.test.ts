@@ -70,6 +70,12 @@ describe('2-2s', () => {
     expect(v.runIds).toEqual(['r1']);
     expect(v.observationIds.sort()).toEqual(['r1-L1', 'r1-L2']);
   });
+
+  it('level 2 beyond +2 SD in one run and level 1 beyond +2 SD in the next is not 2-2s (neither within a level nor within a run)', () => {
+    const all = [obs('r1', 'L1', 0.2), obs('r1', 'L2', 2.3), obs('r2', 'L1', 2.4), obs('r2', 'L2', 0.1)];
+    const { history, run } = lastRun(all);
+    expect(evaluateRun(history, run).status).toBe('warning');
+  });
 });
 
 describe('R-4s', () => {
