@@ -22,7 +22,7 @@ export function benchBatch(prefix: string, n: number, instrument = 'crp-reader')
     records: Array.from({ length: BATCH }, (_, i) => {
       const value = ((n * BATCH + i) % 900) / 10 + 0.5;
       return {
-        key: `${prefix}-${n}-${i}`,
+        key: `bench-${prefix}-${n}-${i}`, // the contract wants at least 8 characters
         instrument,
         receivedAt: at,
         payload: {

@@ -144,7 +144,7 @@ async function fanOut(server: Server, cookie: string, token: string, clients: nu
   return { latencies, deliveries, sockets };
 }
 
-async function firstLoadJs(server: Server, cookie: string, pages: string[]) {
+async function firstLoadJs(server: Server, cookies: { vet: string; admin: string }, pages: string[]) {
   const sizes = new Map<string, number>();
   const gz = (file: string) => {
     if (!sizes.has(file)) sizes.set(file, zlib.gzipSync(fs.readFileSync(path.join(root, '.next', file.replace(/^\/_next\//, '')))).length);
@@ -153,7 +153,8 @@ async function firstLoadJs(server: Server, cookie: string, pages: string[]) {
   const perPage = new Map<string, Set<string>>();
   for (const page of pages) {
     // The sign-in page is what a signed-out browser loads (signed in, it redirects to Intake).
-    const response = await fetch(`${server.url}${page}`, { headers: page === '/sign-in' ? {} : { cookie }, redirect: 'manual' });
+    const cookie = page === '/sign-in' ? undefined : page.startsWith('/admin') ? cookies.admin : cookies.vet;
+    const response = await fetch(`${server.url}${page}`, { headers: cookie ? { cookie } : {}, redirect: 'manual' });
     const html = await response.text();
     if (!response.ok) throw new Error(`${page}: HTTP ${response.status}`);
     const scripts = new Set([...html.matchAll(/(?:src|href)="(\/_next\/static\/[^"?]+\.js)[^"]*"/g)].map((m) => m[1]));
@@ -297,6 +298,10 @@ async function intakeTab(report: Report, server: Server, token: string) {
   }
 }
 
+/** BENCH_PARTS=reads,ingest,fanout,pty,pages,tab runs only those parts of the server section. */
+const parts = process.env.BENCH_PARTS?.split(',');
+const wantPart = (name: string) => !parts || parts.includes(name);
+
 /** One part of the server run; a failure is noted and the other parts still run. */
 async function part(report: Report, name: string, run: () => Promise<void>) {
   try {
@@ -323,6 +328,7 @@ export async function benchServer(report: Report, dataDir: string, options: { ra
     const vet = await signIn(server.url, 'vet@fernhollow.example');
     const heavy = await (await fetch(`${server.url}/api/patients?q=${HEAVY_PATIENT}`, { headers: { cookie: vet } })).json();
     const ids = { heavyPatientId: heavy.patients[0].id as string };
+    if (wantPart('reads')) {
     const paths = await readPaths();
     const health = paths.find((p) => p.name === 'health');
     await timed(`${server.url}/api/health`, vet, 5);
@@ -338,6 +344,8 @@ export async function benchServer(report: Report, dataDir: string, options: { ra
     const afterReads = rssMB(server.child.pid ?? 0);
     report.add({ section: 'memory', name: 'server RSS after the read-path run', value: afterReads, unit: 'MB', baseline: 'idle after start', baselineValue: idleRss, target: '< 400 MB', met: afterReads < 400 });
 
+}
+        if (wantPart('ingest')) {
     // Ingest over HTTP: one bridge, then four at once (each its own token).
     t = now();
     for (let n = 0; n < options.batches; n++) await postBatch(server.url, token, benchBatch('http1', n));
@@ -359,6 +367,8 @@ export async function benchServer(report: Report, dataDir: string, options: { ra
     const fourRate = (4 * per * BATCH) / (ms(t) / 1000);
     report.add({ section: 'ingest (HTTP)', name: `4 bridges at once, ${4 * per} × ${BATCH}`, value: fourRate, unit: 'readings/s', baseline: '1 bridge', baselineValue: oneRate, target: 'scales (≥ 1)', met: fourRate / oneRate >= 1 });
 
+}
+        if (wantPart('fanout')) {
     // Fan-out: one client, then 200.
     const single = await fanOut(server, vet, token, 1, options.fanOutBatches, 'fan1');
     for (const ws of single.sockets) ws.close();
@@ -369,24 +379,28 @@ export async function benchServer(report: Report, dataDir: string, options: { ra
     report.add({ section: 'memory', name: 'server RSS with 200 WebSocket clients', value: withClients, unit: 'MB', baseline: 'idle after start', baselineValue: idleRss });
     for (const ws of many.sockets) ws.close();
 
+}
+        if (wantPart('pty')) {
     const bridgeRss = await ptyLatency(report, server, vet, token, options.slips);
     report.add({ section: 'memory', name: 'bridge RSS while streaming (max)', value: bridgeRss, unit: 'MB', baseline: 'server RSS idle', baselineValue: idleRss });
 
-    await part(report, 'first-load JS', async () => {
+}
+        if (wantPart('pages')) await part(report, 'first-load JS', async () => {
     const pages = ['/sign-in', '/intake', '/bench', '/patients', `/patients/${ids.heavyPatientId}`, '/reviews', '/admin', '/admin/profiles'];
-    const js = await firstLoadJs(server, vet, pages);
+    const js = await firstLoadJs(server, { vet, admin: await signIn(server.url, 'admin@fernhollow.example') }, pages);
     for (const { page, kB } of js.perPage) {
       report.add({ section: 'first-load JS', name: page.replace(ids.heavyPatientId, '[patientId]'), value: kB, unit: 'kB gzip', baseline: 'shared by every page', baselineValue: js.sharedKB, target: '< 250 kB', met: kB < 250 });
     }
     });
 
-    await part(report, 'Intake tab', () => intakeTab(report, server, token));
+    if (wantPart('tab')) await part(report, 'Intake tab', () => intakeTab(report, server, token));
   } catch (error) {
     console.error(`[bench] the server said:\n${server.output().slice(-4000)}`);
     throw error;
   } finally {
     await server.stop();
   }
+  if (!wantPart('start')) return;
   server = await startServer(dataDir);
   report.add({ section: 'start', name: 'warm start → first /api/health answer', value: server.startMs, unit: 'ms', baseline: 'node + tsx, empty script', baselineValue: bareNode });
   await server.stop();
