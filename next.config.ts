@@ -32,7 +32,7 @@ const securityHeaders = [
 
 const nextConfig: NextConfig = {
   // PGlite ships WebAssembly and serialport a native binding: load them from node_modules as they are.
-  serverExternalPackages: ['@electric-sql/pglite', 'serialport', '@serialport/bindings-cpp', 'pg'],
+  serverExternalPackages: ['@electric-sql/pglite', 'serialport', '@serialport/bindings-cpp', 'rate-limiter-flexible'],
   env: { BENCHWIRE_VERSION: pkg.version },
   poweredByHeader: false,
   typedRoutes: false,

@@ -572,3 +572,13 @@ export type ResultReview = typeof resultReviews.$inferSelect;
 export type ResultAlert = typeof resultAlerts.$inferSelect;
 export type Species = (typeof species.enumValues)[number];
 export type SampleType = (typeof sampleType.enumValues)[number];
+
+/**
+ * Sign-in throttling counters (rate-limiter-flexible's Drizzle store): in the database so the limits hold
+ * across app instances and restarts. Keys: `account:<e-mail>` and `address:<client address>`.
+ */
+export const rateLimits = pgTable('rate_limits', {
+  key: text().primaryKey(),
+  points: integer().notNull().default(0),
+  expire: timestamp({ withTimezone: true }),
+});

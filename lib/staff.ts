@@ -4,6 +4,7 @@ import { db } from '@/db/client';
 import { clinics, staffUsers } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { decoyHash, hashPassword, verifyPassword } from '@/lib/auth/password';
+import { withHashSlot } from '@/lib/auth/throttle';
 import { recordAudit } from '@/lib/audit';
 import { ApiError, notFound } from '@/lib/http';
 import { publishSessionEnded } from '@/lib/live/bus';
@@ -14,14 +15,26 @@ const isUniqueViolation = (error: unknown) =>
     (error as { cause?: { code?: string } }).cause?.code === '23505');
 
 /** Checks e-mail and password; the same answer and similar time whether the address exists or not. */
-export async function authenticate(email: string, password: string) {
+export async function authenticate(email: string, password: string, context: { address?: string } = {}) {
   const database = await db();
   const [user] = await database
     .select()
     .from(staffUsers)
     .where(sql`lower(${staffUsers.email}) = ${email.toLowerCase()}`);
-  const ok = await verifyPassword(password, user?.passwordHash ?? (await decoyHash()));
-  if (!user || !ok || !user.active) return null;
+  const ok = await withHashSlot(async () => verifyPassword(password, user?.passwordHash ?? (await decoyHash())));
+  if (!user || !ok || !user.active) {
+    if (user) {
+      // Failed sign-ins to a known account are in its clinic's audit trail (never the password tried).
+      await recordAudit(database, {
+        clinicId: user.clinicId,
+        action: 'staff.sign_in_failed',
+        entityType: 'staff_user',
+        entityId: user.id,
+        details: { reason: !ok ? 'wrong_password' : 'inactive', ...(context.address ? { address: context.address } : {}) },
+      });
+    }
+    return null;
+  }
   await database.transaction(async (tx) => {
     await tx.update(staffUsers).set({ lastSignInAt: new Date() }).where(eq(staffUsers.id, user.id));
     await recordAudit(tx, {
