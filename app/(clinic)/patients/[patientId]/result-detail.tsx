@@ -194,7 +194,7 @@ function ReassignDialog({ result, fromName, fromId, onClose }: { result: ChartRe
   const submit = async () => {
     if (!chosen) return;
     try {
-      await send(`/api/readings/${result.id}/reassign`, 'POST', { patientId: chosen.id, reason });
+      await send(`/api/readings/${result.id}/reassign`, 'POST', { patientId: chosen.id, fromPatientId: fromId, reason });
       onClose(true);
     } catch (error) {
       setFailure(error instanceof Error ? error.message : 'Could not move the result.');
