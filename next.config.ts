@@ -33,7 +33,7 @@ const securityHeaders = [
 const nextConfig: NextConfig = {
   // PGlite ships WebAssembly and serialport a native binding: load them from node_modules as they are.
   // pdfkit reads its font metrics from its own folder at run time.
-  serverExternalPackages: ['@electric-sql/pglite', 'serialport', '@serialport/bindings-cpp', 'pg', 'pdfkit', 'fontkit', 'mailparser', 'nodemailer'],
+  serverExternalPackages: ['@electric-sql/pglite', 'serialport', '@serialport/bindings-cpp', 'pg', 'pdfkit', 'fontkit', 'mailparser', 'nodemailer', 'rate-limiter-flexible'],
   env: { BENCHWIRE_VERSION: pkg.version },
   poweredByHeader: false,
   typedRoutes: false,

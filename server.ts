@@ -17,6 +17,14 @@ async function main() {
   const { isEmpty, seedDemoClinic } = await import('@/db/seed');
   const { dataDir } = await import('@/lib/config');
   process.umask(0o077);
+  // A short SESSION_SECRET would let the server start and then fail every sign-in: refuse to start instead.
+  const { sessionSecret } = await import('@/lib/auth/session');
+  try {
+    sessionSecret();
+  } catch (error) {
+    console.error(`[benchwire] cannot start: ${error instanceof Error ? error.message : String(error)}`);
+    process.exit(1);
+  }
   const database = await getDatabase();
   if (seedDemo && (await isEmpty(database.db))) {
     const { bridgeToken } = await seedDemoClinic(database.db);
@@ -36,6 +44,10 @@ async function main() {
   const stopBackground = startBackgroundWork();
 
   const server = createServer((req, res) => {
+    // The client's address for sign-in throttling, always from the socket (a client cannot supply it);
+    // behind a reverse proxy that sets X-Forwarded-For, BENCHWIRE_TRUST_PROXY=1 takes its first entry.
+    const forwarded = process.env.BENCHWIRE_TRUST_PROXY === '1' ? String(req.headers['x-forwarded-for'] ?? '').split(',')[0].trim() : '';
+    req.headers['x-benchwire-client-address'] = forwarded || req.socket.remoteAddress || 'unknown';
     handle(req, res).catch((error) => {
       console.error('[benchwire] request failed', error);
       if (!res.headersSent) res.writeHead(500, { 'content-type': 'application/json' });

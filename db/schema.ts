@@ -848,3 +848,13 @@ export type ResultReport = typeof resultReports.$inferSelect;
 export type PatientStatus = (typeof patientStatus.enumValues)[number];
 export type Species = (typeof species.enumValues)[number];
 export type SampleType = (typeof sampleType.enumValues)[number];
+
+/**
+ * Sign-in throttling counters (rate-limiter-flexible's Drizzle store): in the database so the limits hold
+ * across app instances and restarts. Keys: `account:<e-mail>` and `address:<client address>`.
+ */
+export const rateLimits = pgTable('rate_limits', {
+  key: text().primaryKey(),
+  points: integer().notNull().default(0),
+  expire: timestamp({ withTimezone: true }),
+});

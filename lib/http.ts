@@ -28,6 +28,21 @@ function zodIssues(error: ZodError) {
   return error.issues.map((i) => ({ path: i.path.join('.'), message: i.message }));
 }
 
+/**
+ * An error as it may be logged: the SQL text and the database's own error code and message, never the
+ * query's parameters (names, notes, results). Drizzle puts them in the message ("params: …") and in .params.
+ */
+export function redactedError(error: unknown): string {
+  if (!(error instanceof Error)) return String(error);
+  const strip = (message: string) => message.replace(/\nparams:[\s\S]*$/, '\nparams: [redacted]');
+  const cause = error.cause as { code?: string; message?: string } | undefined;
+  const lines = [`${error.name}: ${strip(error.message)}`];
+  // PostgreSQL quotes the offending value in its message (invalid input syntax …: "value"): drop it.
+  if (cause?.message) lines.push(`  cause${cause.code ? ` (${cause.code})` : ''}: ${strip(cause.message).replace(/"[^"]*"/g, '"[redacted]"')}`);
+  if (error.stack) lines.push(...error.stack.split('\n').filter((line) => line.startsWith('    at ')).slice(0, 8));
+  return lines.join('\n');
+}
+
 export function errorResponse(error: unknown): Response {
   if (error instanceof ApiError) {
     return NextResponse.json(
@@ -41,8 +56,8 @@ export function errorResponse(error: unknown): Response {
     const message = first ? `Invalid request: ${first.path ? `${first.path}: ` : ''}${first.message}` : 'Invalid request.';
     return NextResponse.json(errorBody('invalid_request', message, issues), { status: 400 });
   }
-  // Anything else is our bug: log it whole, tell the caller nothing internal.
-  console.error('[benchwire] unhandled error in route handler', error);
+  // Anything else is our bug: log it (without the query's parameters, which hold patient data), tell the caller nothing internal.
+  console.error('[benchwire] unhandled error in route handler', redactedError(error));
   return NextResponse.json(errorBody('internal', 'Something went wrong on the server. It has been logged.'), {
     status: 500,
   });

@@ -4,6 +4,7 @@ import { db } from '@/db/client';
 import { clinics, staffSessions, staffUsers, type StaffUser } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { decoyHash, hashPassword, verifyPassword } from '@/lib/auth/password';
+import { withHashSlot } from '@/lib/auth/throttle';
 import { recordAudit } from '@/lib/audit';
 import { ApiError, notFound } from '@/lib/http';
 import { publishSessionEnded } from '@/lib/live/bus';
@@ -19,15 +20,30 @@ export type SignInRefusal = 'wrong_credentials' | 'deactivated';
  * Checks e-mail and password; the same answer and similar time whether the address exists or not.
  * Only someone who knows the password learns that the account is deactivated (so they can ask an administrator).
  */
-export async function authenticate(email: string, password: string): Promise<{ user: StaffUser } | { refused: SignInRefusal }> {
+export async function authenticate(
+  email: string,
+  password: string,
+  context: { address?: string } = {},
+): Promise<{ user: StaffUser } | { refused: SignInRefusal }> {
   const database = await db();
   const [user] = await database
     .select()
     .from(staffUsers)
     .where(sql`lower(${staffUsers.email}) = ${email.toLowerCase()}`);
-  const ok = await verifyPassword(password, user?.passwordHash ?? (await decoyHash()));
-  if (!user || !ok) return { refused: 'wrong_credentials' };
-  if (!user.active) return { refused: 'deactivated' };
+  const ok = await withHashSlot(async () => verifyPassword(password, user?.passwordHash ?? (await decoyHash())));
+  if (!user || !ok || !user.active) {
+    if (user) {
+      // Failed sign-ins to a known account are in its clinic's audit trail (never the password tried).
+      await recordAudit(database, {
+        clinicId: user.clinicId,
+        action: 'staff.sign_in_failed',
+        entityType: 'staff_user',
+        entityId: user.id,
+        details: { reason: !ok ? 'wrong_password' : 'inactive', ...(context.address ? { address: context.address } : {}) },
+      });
+    }
+    return { refused: user && ok ? 'deactivated' : 'wrong_credentials' };
+  }
   await database.transaction(async (tx) => {
     await tx.update(staffUsers).set({ lastSignInAt: new Date() }).where(eq(staffUsers.id, user.id));
     await recordAudit(tx, {

@@ -24,7 +24,9 @@ export function sessionSecret(): string {
   if (cachedSecret) return cachedSecret;
   const fromEnv = process.env.SESSION_SECRET;
   if (fromEnv) {
-    if (fromEnv.length < 32) throw new Error('SESSION_SECRET must be at least 32 characters long.');
+    if (fromEnv.length < 32) {
+      throw new Error(`SESSION_SECRET must be at least 32 characters long (it has ${fromEnv.length}). Generate one with: openssl rand -base64 32`);
+    }
     return (cachedSecret = fromEnv);
   }
   const file = path.join(dataDir(), 'session-secret');

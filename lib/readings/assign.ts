@@ -58,7 +58,7 @@ export async function assignReading(
 export async function reassignReading(
   actor: Actor,
   readingId: string,
-  input: { patientId: string; orderId?: string; reason: string; runWillGiveReading?: boolean },
+  input: { patientId: string; fromPatientId: string; orderId?: string; reason: string; runWillGiveReading?: boolean },
 ) {
   mustAssign(actor);
   const database = await db();
@@ -66,6 +66,11 @@ export async function reassignReading(
     const reading = await lockReading(tx, actor, readingId);
     if (reading.status !== 'assigned' || !reading.patientId) {
       throw new ApiError(409, 'not_assigned', 'This reading is not on a patient’s record; assign it from Intake.');
+    }
+    if (reading.patientId !== input.fromPatientId) {
+      throw new ApiError(409, 'patient_changed', 'This result has been moved since you opened it; reload and check where it is now.', [], {
+        currentPatientId: reading.patientId,
+      });
     }
     if (reading.patientId === input.patientId) {
       throw new ApiError(409, 'same_patient', 'The result is already on this patient.');

@@ -43,6 +43,8 @@ export const ordersQuery = z.object({
 
 export const reassignSchema = z.object({
   patientId: z.uuid('Choose a patient.'),
+  /** The patient the result was on when the person chose to move it: 409 if it has moved meanwhile. */
+  fromPatientId: z.uuid('Say which patient the result is being moved from.'),
   orderId: z.uuid().optional(),
   reason: text(500, { min: 3, minMessage: 'Give a reason for moving this result.', multiline: true }),
   /** The run the reading is taken off will still give a reading: reopen it (else it stays closed, test used). */

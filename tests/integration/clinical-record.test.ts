@@ -207,7 +207,7 @@ describe('review and sign-off', () => {
   });
 
   it('moving the result to another patient starts it unreviewed there; the old review stays in the history', async () => {
-    const response = await reassign.POST(request('/api/readings/x/reassign', { cookie: c.tech, body: { patientId: p.moss, reason: 'Tube labels swapped at the bench' } }), params({ readingId }));
+    const response = await reassign.POST(request('/api/readings/x/reassign', { cookie: c.tech, body: { patientId: p.moss, fromPatientId: p.juniper, reason: 'Tube labels swapped at the bench' } }), params({ readingId }));
     expect(response.status).toBe(200);
     expect((await chart(p.moss)).results.find((r: { id: string }) => r.id === readingId).clinical.reviewed).toBeNull();
     expect(await database.db.select().from(resultReviews).where(eq(resultReviews.readingId, readingId))).toHaveLength(3);
@@ -218,13 +218,30 @@ describe('correcting a wrong match', () => {
   it('reassign needs a reason (400), a different patient (409) and an assigned reading (409)', async () => {
     const id = await newReading({ value: 22 });
     const call = (value: unknown) => reassign.POST(request('/api/readings/x/reassign', { cookie: c.tech, body: value }), params({ readingId: id }));
-    expect((await call({ patientId: p.moss, reason: 'wrong tube' })).status).toBe(409); // still unassigned
+    expect((await call({ patientId: p.moss, fromPatientId: p.juniper, reason: 'wrong tube' })).status).toBe(409); // still unassigned
     await assignTo(id, p.juniper);
-    expect((await call({ patientId: p.moss })).status).toBe(400);
-    expect((await call({ patientId: p.moss, reason: ' ' })).status).toBe(400);
-    const same = await call({ patientId: p.juniper, reason: 'wrong tube' });
+    expect((await call({ patientId: p.moss, fromPatientId: p.juniper })).status).toBe(400);
+    expect((await call({ patientId: p.moss, fromPatientId: p.juniper, reason: ' ' })).status).toBe(400);
+    const same = await call({ patientId: p.juniper, fromPatientId: p.juniper, reason: 'wrong tube' });
     expect(same.status).toBe(409);
     expect((await body(same)).error.code).toBe('same_patient');
+  });
+
+  it('reassign takes the patient the person saw: 409 patient_changed if the result moved meanwhile; 50 concurrent moves, one wins', async () => {
+    // Optimistic concurrency (RFC 9110 §13.1.1 If-Match semantics, carried in the body): a stale view is refused, never last-wins.
+    const id = await newReading({ value: 30 });
+    await assignTo(id, p.juniper);
+    const stale = await reassign.POST(request('/api/readings/x/reassign', { cookie: c.tech, body: { patientId: p.juniper, fromPatientId: p.moss, reason: 'wrong tube' } }), params({ readingId: id }));
+    expect(stale.status).toBe(409);
+    expect((await body(stale)).error.code).toBe('patient_changed');
+    const moves = await Promise.all(
+      Array.from({ length: 50 }, () =>
+        reassign.POST(request('/api/readings/x/reassign', { cookie: c.tech, body: { patientId: p.moss, fromPatientId: p.juniper, reason: 'wrong tube' } }), params({ readingId: id })),
+      ),
+    );
+    const statuses = moves.map((m) => m.status);
+    expect(statuses.filter((st) => st === 200)).toHaveLength(1);
+    expect(statuses.filter((st) => st === 409)).toHaveLength(49);
   });
 
   it('reassign ends the current assignment with the reason and opens a new one, in one step; the history keeps both', async () => {
@@ -232,7 +249,7 @@ describe('correcting a wrong match', () => {
     await assignTo(id, p.juniper);
     const [alertBefore] = await database.db.select().from(resultAlerts).where(eq(resultAlerts.readingId, id));
     expect(alertBefore.withdrawnAt).toBeNull();
-    const response = await reassign.POST(request('/api/readings/x/reassign', { cookie: c.vet, body: { patientId: p.moss, reason: 'Wrong patient: Moss’s sample' } }), params({ readingId: id }));
+    const response = await reassign.POST(request('/api/readings/x/reassign', { cookie: c.vet, body: { patientId: p.moss, fromPatientId: p.juniper, reason: 'Wrong patient: Moss’s sample' } }), params({ readingId: id }));
     expect(response.status).toBe(200);
     expect((await body(response)).assignment).toMatchObject({ fromPatientId: p.juniper, patientId: p.moss });
     const rows = await database.db.select().from(resultAssignments).where(eq(resultAssignments.readingId, id));

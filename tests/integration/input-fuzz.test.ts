@@ -87,7 +87,7 @@ function seedBody(route: Route, run: number): Record<string, unknown> {
     case 'POST /api/orders/[orderId]/abort':
       return { reason: 'control run' };
     case 'POST /api/readings/[readingId]/reassign':
-      return { patientId: realIds.patientId, reason: 'wrong patient' };
+      return { patientId: realIds.patientId, fromPatientId: realIds.patientId, reason: 'wrong patient' };
     case 'POST /api/readings/[readingId]/assign':
       return { patientId: realIds.patientId, method: 'manual' };
     case 'POST /api/readings/[readingId]/reviews':

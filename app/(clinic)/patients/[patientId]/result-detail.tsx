@@ -196,7 +196,7 @@ function ReassignDialog({ result, fromName, fromId, onClose }: { result: ChartRe
   const submit = async () => {
     if (!chosen) return;
     try {
-      await send(`/api/readings/${result.id}/reassign`, 'POST', { patientId: chosen.id, reason, runWillGiveReading });
+      await send(`/api/readings/${result.id}/reassign`, 'POST', { patientId: chosen.id, fromPatientId: fromId, reason, runWillGiveReading });
       onClose(true);
     } catch (error) {
       setFailure(error instanceof Error ? error.message : 'Could not move the result.');
