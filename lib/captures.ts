@@ -6,6 +6,7 @@ import { requirePermission, type Actor } from '@/lib/auth/guards';
 import { recordAudit } from '@/lib/audit';
 import { ApiError, notFound } from '@/lib/http';
 import { publish } from '@/lib/live/bus';
+import { specimenFor } from '@/lib/readings/specimens';
 import type { TranscribeCaptureInput } from '@/lib/validation/api';
 
 async function lockOpenCapture(tx: Tx, actor: Actor, captureId: string) {
@@ -52,9 +53,12 @@ export async function transcribeCapture(actor: Actor, captureId: string, input: 
   const database = await db();
   return database.transaction(async (tx) => {
     const capture = await lockOpenCapture(tx, actor, captureId);
+    const measuredAt = input.measuredAt ? new Date(input.measuredAt) : null;
+    const specimenId = await specimenFor(tx, { ...capture, sampleId: input.sampleId, patientRef: null, measuredAt });
     const [reading] = await tx
       .insert(readings)
       .values({
+        specimenId,
         clinicId: actor.clinicId,
         bridgeId: capture.bridgeId,
         idempotencyKey: `transcribed:${capture.id}`,
@@ -66,7 +70,7 @@ export async function transcribeCapture(actor: Actor, captureId: string, input: 
         unit: input.unit,
         flags: ['transcribed'],
         sampleId: input.sampleId,
-        measuredAt: input.measuredAt ? new Date(input.measuredAt) : null,
+        measuredAt,
         receivedAt: capture.receivedAt,
         raw: capture.raw,
       })

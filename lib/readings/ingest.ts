@@ -5,6 +5,7 @@ import { bridges, instruments, readings, unparsedCaptures, type Bridge } from '@
 import { recordAudit } from '@/lib/audit';
 import { publish } from '@/lib/live/bus';
 import type { BridgeBatch, BridgeBatchResult } from '@/lib/validation/readings';
+import { specimenFor } from './specimens';
 import { autoAssignOnIngest } from './suggestions';
 
 /** PostgreSQL text cannot hold U+0000, which line noise often sends; keep it visible as ␀ (U+2400) instead. */
@@ -76,10 +77,14 @@ export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promis
         continue;
       }
 
+      // The readings of one sample (same instrument and sample ID, or one message) share a specimen.
+      const measuredAt = payload.measuredAt ? new Date(payload.measuredAt) : null;
+      const specimenId = await specimenFor(tx, { ...common, sampleId: payload.sampleId, patientRef: payload.patientRef, measuredAt });
       const [row] = await tx
         .insert(readings)
         .values({
           ...common,
+          specimenId,
           instrumentSerial: payload.instrumentSerial,
           instrumentRange: payload.referenceRange,
           resultStatus: payload.resultStatus,
@@ -90,7 +95,7 @@ export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promis
           flags: payload.flags,
           sampleId: payload.sampleId,
           patientRef: payload.patientRef,
-          measuredAt: payload.measuredAt ? new Date(payload.measuredAt) : null,
+          measuredAt,
         })
         .onConflictDoNothing({ target: [readings.bridgeId, readings.idempotencyKey] })
         .returning();
