@@ -114,8 +114,15 @@ export async function listWaiting(actor: Actor, query: WaitingQuery, now = new D
         .orderBy(asc(readings.receivedAt), asc(readings.storedAt), asc(readings.id))
     : [];
   const specimensOnPage = keys.map((key) => {
-    const items = rows.filter((r) => r.key === key).map(({ key: _key, specimenSampleId: _s, specimenPatientRef: _p, ...reading }) => reading);
-    const first = rows.find((r) => r.key === key)!;
+    const mine = rows.filter((r) => r.key === key);
+    const items = mine.map((r) => {
+      const reading: Partial<typeof r> = { ...r };
+      delete reading.key;
+      delete reading.specimenSampleId;
+      delete reading.specimenPatientRef;
+      return reading as Omit<typeof r, 'key' | 'specimenSampleId' | 'specimenPatientRef'>;
+    });
+    const first = mine[0];
     return {
       id: key,
       instrumentCode: first.instrumentCode,
