@@ -1,9 +1,45 @@
 // Display helpers shared by server and client components.
 
-export function formatValue(r: { value: number | null; comparator: string | null; unit: string | null }): string {
+const SUPERSCRIPT: Record<string, string> = { '-': '⁻', '0': '⁰', '1': '¹', '2': '²', '3': '³', '4': '⁴', '5': '⁵', '6': '⁶', '7': '⁷', '8': '⁸', '9': '⁹' };
+
+/**
+ * A UCUM unit code as people read it: "10*9/L" → "10⁹/L", "umol/L" → "µmol/L", "[IU]/L" → "IU/L".
+ * UCUM (unitsofmeasure.org) §4 writes powers of ten as 10*n and the micro prefix as "u" in its
+ * case-sensitive form; square brackets only delimit special unit atoms. The code itself is kept
+ * beside the label wherever a result is shown in detail.
+ */
+export function unitLabel(ucum: string | null | undefined): string {
+  if (!ucum) return '';
+  return ucum
+    .replace(/10[*^](-?\d+)/g, (_, exp: string) => `10${[...exp].map((c) => SUPERSCRIPT[c] ?? c).join('')}`)
+    .replace(/(^|[/.\s(])u(?=(mol|g|L|l|m|eq|IU|\[IU\])\b)/g, '$1µ')
+    .replace(/\[([^\]]+)\]/g, '$1');
+}
+
+/** The shortest plain text of a number (no float noise), as an instrument would print it. */
+function plainNumber(value: number): string {
+  return Number.isInteger(value) ? String(value) : String(Number(value.toFixed(6)));
+}
+
+/**
+ * One result as people read it, the same on every screen: the analyte's decimals for a measured value
+ * ("26 U/L" for an integer analyte, "5.20 10⁹/L" for two decimals); a value with a comparator is a
+ * measuring limit and is shown as the instrument gave it ("<5", never "<5.0"). Without known decimals
+ * the number is shown as sent.
+ */
+export function formatResult(
+  r: { value: number | null; comparator: string | null; unit: string | null },
+  decimals?: number | null,
+): string {
   if (r.value === null) return '—';
-  const number = Number.isInteger(r.value) ? String(r.value) : String(Number(r.value.toFixed(4)));
-  return `${r.comparator ?? ''}${number}${r.unit ? ` ${r.unit}` : ''}`;
+  const number = r.comparator || decimals === undefined || decimals === null ? plainNumber(r.value) : r.value.toFixed(decimals);
+  const unit = unitLabel(r.unit);
+  return `${r.comparator ?? ''}${number}${unit ? ` ${unit}` : ''}`;
+}
+
+/** A reading's value as sent (no analyte settings known), in the same form as formatResult. */
+export function formatValue(r: { value: number | null; comparator: string | null; unit: string | null; decimals?: number | null }): string {
+  return formatResult(r, r.decimals);
 }
 
 export function formatDateTime(value: string | Date | null | undefined): string {
@@ -49,3 +85,19 @@ export const sexLabel: Record<string, string> = {
   female_spayed: 'female, spayed',
   unknown: 'sex unknown',
 };
+
+/**
+ * Round axis ticks from 0 to at least max: steps of 1, 2 or 5 times a power of ten, about `count` of them
+ * (the "nice numbers" rule in Heckbert P., Nice numbers for graph labels, Graphics Gems, 1990).
+ */
+export function niceTicks(max: number, count = 5): number[] {
+  if (!(max > 0) || !Number.isFinite(max)) return [0, 1];
+  const rough = max / Math.max(1, count - 1);
+  const power = 10 ** Math.floor(Math.log10(rough));
+  const fraction = rough / power;
+  const step = (fraction < 1.5 ? 1 : fraction < 3 ? 2 : fraction < 7 ? 5 : 10) * power;
+  const top = Math.ceil(max / step - 1e-9) * step;
+  const ticks: number[] = [];
+  for (let i = 0; i * step <= top + step / 1e6; i++) ticks.push(Number((i * step).toPrecision(12)));
+  return ticks;
+}

@@ -4,6 +4,7 @@ import type { InterpretationBand } from '@/db/schema';
 import { bandFor, flagResult, type Comparator, type FlagResult, type Limits } from './flags';
 import { speciesWarning } from './matching';
 import { checkUnit, convert } from './units';
+import { formatResult } from '@/lib/format';
 
 export interface AnalyteContext {
   code: string;
@@ -104,8 +105,7 @@ export function evaluateResult(
   return { display, interval, flag, band, problems, speciesWarning: warning };
 }
 
-/** Rounds for display with the analyte's decimals, keeping the comparator: "<5.0 mg/L". */
+/** Rounds for display with the analyte's decimals (lib/format formatResult: "<5 mg/L" keeps the limit as sent). */
 export function formatMeasured(m: { value: number | null; comparator: Comparator; unit: string | null }, decimals = 1): string {
-  if (m.value === null) return '—';
-  return `${m.comparator ?? ''}${m.value.toFixed(decimals)}${m.unit ? ` ${m.unit}` : ''}`;
+  return formatResult(m, decimals);
 }

@@ -1,7 +1,7 @@
 import 'server-only';
 import { and, asc, desc, eq, inArray, sql, type SQL } from 'drizzle-orm';
 import { db } from '@/db/client';
-import { auditEvents, instruments, patients, readings, specimens, staffUsers, unparsedCaptures } from '@/db/schema';
+import { analyteSettings, auditEvents, instruments, patients, readings, specimens, staffUsers, unparsedCaptures } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { notFound } from '@/lib/http';
 import type { WaitingQuery } from '@/lib/validation/api';
@@ -105,11 +105,12 @@ export async function listWaiting(actor: Actor, query: WaitingQuery, now = new D
   const keys = page.map((p) => p.key);
   const rows = keys.length
     ? await database
-        .select({ ...readingColumns, key: specimenKey, specimenSampleId: specimens.sampleId, specimenPatientRef: specimens.patientRef })
+        .select({ ...readingColumns, decimals: analyteSettings.decimals, key: specimenKey, specimenSampleId: specimens.sampleId, specimenPatientRef: specimens.patientRef })
         .from(readings)
         .leftJoin(instruments, eq(instruments.id, readings.instrumentId))
         .leftJoin(patients, eq(patients.id, readings.patientId))
         .leftJoin(specimens, eq(specimens.id, readings.specimenId))
+        .leftJoin(analyteSettings, and(eq(analyteSettings.clinicId, readings.clinicId), eq(analyteSettings.code, readings.analyte)))
         .where(and(...waiting, inArray(specimenKey, keys)))
         .orderBy(asc(readings.receivedAt), asc(readings.storedAt), asc(readings.id))
     : [];
