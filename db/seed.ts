@@ -408,6 +408,46 @@ export async function seedDemoClinic(db: Db): Promise<{ clinicId: string; bridge
         details: { patientId: b.patient.id, analyte: 'cCRP', demo: true },
       });
     }
+
+    // A chemistry panel for Juniper on a labelled tube, and a blood count for Pepper without a label: the demo's
+    // analyzers run them when due and print the label or the record number, so Intake shows ID matches.
+    const DEMO_RUNS = [
+      { patient: patientRows[1], instrument: chemistry, sampleId: 'T-7QK4M2', sampleType: 'serum' as const, startedSecondsAgo: 240, analytes: CHEMISTRY_CODES },
+      { patient: patientRows[3], instrument: hematology, sampleId: null, sampleType: 'whole_blood' as const, startedSecondsAgo: 60, analytes: ['WBC', 'RBC', 'HGB', 'HCT', 'PLT'] },
+    ];
+    const demoProtocols = await tx.query.runProtocols.findMany({ where: (p, { eq }) => eq(p.clinicId, clinic.id) });
+    for (const run of DEMO_RUNS) {
+      const startedAt = new Date(Date.now() - run.startedSecondsAgo * 1000);
+      for (const analyte of run.analytes) {
+        const protocolRow = demoProtocols.find((p) => p.analyte === analyte && p.instrumentId === run.instrument.id)!;
+        const [order] = await tx
+          .insert(labOrders)
+          .values({
+            clinicId: clinic.id,
+            patientId: run.patient.id,
+            analyte,
+            instrumentId: run.instrument.id,
+            sampleType: run.sampleType,
+            sampleId: run.sampleId,
+            orderedBy: vet.id,
+            startedBy: tech.id,
+            startedAt,
+            dueAt: dueAt(startedAt, protocolRow.stages),
+            protocolId: protocolRow.id,
+            stages: protocolRow.stages,
+          })
+          .returning();
+        await tx.insert(auditEvents).values({
+          clinicId: clinic.id,
+          at: startedAt,
+          actorUserId: tech.id,
+          action: 'order.started',
+          entityType: 'order',
+          entityId: order.id,
+          details: { patientId: run.patient.id, analyte, demo: true },
+        });
+      }
+    }
     return { clinicId: clinic.id, bridgeToken: token.token };
   });
 }
