@@ -22,14 +22,14 @@ export default async function ClinicLayout({ children }: { children: React.React
               <BrandMark />
               Benchwire
             </Link>
-            <nav aria-label="Main" className="flex gap-1">
+            <nav aria-label="Main" className="flex flex-wrap gap-1">
               <NavLink href="/intake">Intake</NavLink>
               <NavLink href="/bench">Bench</NavLink>
               <NavLink href="/patients">Patients</NavLink>
               <NavLink href="/reviews">Review</NavLink>
               {allowed(actor.role, 'manageClinic') && <NavLink href="/admin">Admin</NavLink>}
             </nav>
-            <div className="ml-auto flex items-center gap-4 text-sm">
+            <div className="ml-auto flex flex-wrap items-center gap-x-4 gap-y-1 text-sm">
               <AlertNotifier />
               <LiveStatus />
               <span className="text-ink-100">
