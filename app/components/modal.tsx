@@ -8,7 +8,11 @@ export function Modal({ title, onClose, children }: { title: string; onClose: ()
     const dialog = ref.current;
     // React removes the dialog before this cleanup runs, so the browser cannot restore focus itself.
     const opener = document.activeElement instanceof HTMLElement ? document.activeElement : null;
-    if (dialog && !dialog.open) dialog.showModal();
+    if (dialog && !dialog.open) {
+      dialog.showModal();
+      // showModal focuses the first focusable element (the close button); the dialog's first field is where typing belongs.
+      dialog.querySelector<HTMLElement>('[data-autofocus], .modal-body input:not([type=hidden]), .modal-body textarea')?.focus();
+    }
     return () => {
       dialog?.close();
       if (opener?.isConnected) opener.focus();
@@ -32,7 +36,7 @@ export function Modal({ title, onClose, children }: { title: string; onClose: ()
           ×
         </button>
       </div>
-      <div className="px-5 py-4">{children}</div>
+      <div className="modal-body px-5 py-4">{children}</div>
     </dialog>
   );
 }

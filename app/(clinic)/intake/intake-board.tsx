@@ -11,6 +11,7 @@ import { UnparsedCaptures } from './unparsed-captures';
 import { SuggestedMatch } from './suggested-match';
 import { PanelSuggestion } from './panel-suggestion';
 import { VoidDialog } from './void-dialog';
+import { useLive } from '../live';
 
 type Serialized<T> = { [K in keyof T]: T[K] extends Date ? string : T[K] extends Date | null ? string | null : T[K] };
 export type IntakeReading = Serialized<ReadingView> & { decimals?: number | null };
@@ -74,6 +75,23 @@ export function IntakeBoard() {
   if (instrument) query.set('instrument', instrument);
   if (analyte) query.set('analyte', analyte);
   if (olderThan) query.set('olderThanMinutes', String(olderThan));
+  // A burst of arrivals (a bridge batch is up to 200 readings) revalidates many times at once; once it has
+  // settled, one fresh request under a new key makes sure the list and its count end up current.
+  const [settled, setSettled] = useState(0);
+  const { listen } = useLive();
+  useEffect(() => {
+    let timer: ReturnType<typeof setTimeout> | undefined;
+    const stop = listen((event) => {
+      if (!event.type.startsWith('reading.')) return;
+      clearTimeout(timer);
+      timer = setTimeout(() => setSettled((n) => n + 1), 400);
+    });
+    return () => {
+      clearTimeout(timer);
+      stop();
+    };
+  }, [listen]);
+  query.set('v', String(settled));
   const list = useSWR<Waiting>(`/api/readings/waiting?${query}`, fetcher, { refreshInterval: 60_000, keepPreviousData: true });
   // Suggestions live under /api/readings, so every reading and order event refreshes them.
   const suggestions = useSWR<{ suggestions: Record<string, Candidate[]> }>('/api/readings/suggestions', fetcher, {
