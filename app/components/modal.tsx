@@ -1,13 +1,14 @@
 'use client';
-import { useEffect, useRef } from 'react';
+import { useEffect, useRef, useState } from 'react';
 
 /** A native modal <dialog>: the browser traps focus, Escape closes it, and focus returns where it was. */
 export function Modal({ title, onClose, children }: { title: string; onClose: () => void; children: React.ReactNode }) {
   const ref = useRef<HTMLDialogElement>(null);
+  // Who opened it, read while rendering: by the time effects run, a field's autoFocus has moved focus.
+  const [opener] = useState(() => (typeof document !== 'undefined' && document.activeElement instanceof HTMLElement ? document.activeElement : null));
   useEffect(() => {
     const dialog = ref.current;
     // React removes the dialog before this cleanup runs, so the browser cannot restore focus itself.
-    const opener = document.activeElement instanceof HTMLElement ? document.activeElement : null;
     if (dialog && !dialog.open) {
       dialog.showModal();
       // showModal focuses the first focusable element (the close button); the dialog's first field is where typing belongs.
@@ -17,7 +18,7 @@ export function Modal({ title, onClose, children }: { title: string; onClose: ()
       dialog?.close();
       if (opener?.isConnected) opener.focus();
     };
-  }, []);
+  }, [opener]);
   return (
     <dialog
       ref={ref}

@@ -138,7 +138,8 @@ export function AssignDialog({ specimen, onClose }: { specimen: IntakeSpecimen; 
       </label>
       <input
         id="patient-search"
-        type="search"
+        // type=text, not search: in a search field the first Escape only clears the text, and Escape must close.
+        type="text"
         role="combobox"
         autoFocus
         autoComplete="off"
