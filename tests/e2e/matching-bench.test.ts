@@ -56,6 +56,8 @@ describe('an anonymous reading matched by timing', () => {
     await tech.goto('/bench');
     await tech.fill('#order-patient', 'Biscuit');
     await tech.click('[data-patient-choice="FH-1001"]', { timeout: 30_000 });
+    // The demo clinic runs chemistry and blood counts too: choose the test before the reader.
+    await tech.selectOption('#order-analyte', 'cCRP');
     await tech.selectOption('#order-instrument', { label: 'CRP reader (bench 1)' });
     await tech.fill('#order-started', String(700 / 60));
     await tech.click('button:has-text("Start test")');
