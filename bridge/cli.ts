@@ -96,6 +96,8 @@ Where to (crp-printer: default stdout):
   --host HOST            address to listen on (default 127.0.0.1)
   --wait-for-client      crp-printer: hold the first slip until a client is connected
   --connect HOST:PORT    hl7-hematology: connect to the bridge (its tcp-listen source)
+  --worklist-from URL    astm-chemistry, hl7-hematology: run only the open tests the server lists for
+                         --instrument CODE (bridge token in BENCHWIRE_BRIDGE_TOKEN), not one every --every
   --serial PATH          crp-printer: write to a serial port (e.g. one end of a socat pty pair)
 ${SERIAL_HELP}
 `,
@@ -336,9 +338,15 @@ async function simulateCommand(args: string[]): Promise<number> {
     'wait-for-client': { type: 'boolean' },
     connect: { type: 'string' },
     serial: { type: 'string' },
+    'worklist-from': { type: 'string' },
+    instrument: { type: 'string' },
     ...SERIAL_OPTIONS,
   });
   const kind = values.kind ?? 'crp-printer';
+  if (values['worklist-from'] !== undefined && kind === 'crp-printer') throw new UsageError('--worklist-from is for astm-chemistry and hl7-hematology');
+  if (values['worklist-from'] !== undefined && (!values.instrument || !process.env.BENCHWIRE_BRIDGE_TOKEN)) {
+    throw new UsageError('--worklist-from needs --instrument CODE and the bridge token in BENCHWIRE_BRIDGE_TOKEN');
+  }
   if (!(SIMULATOR_KINDS as readonly string[]).includes(kind)) throw new UsageError(`--kind must be ${SIMULATOR_KINDS.join(', ')}`);
   if (values.listen !== undefined && values.serial !== undefined) throw new UsageError('--listen and --serial do not go together');
   if (values.serial === undefined && Object.keys(SERIAL_OPTIONS).some((name) => values[name as keyof typeof values] !== undefined)) {
@@ -366,12 +374,16 @@ async function simulateCommand(args: string[]): Promise<number> {
   process.on('SIGTERM', stop);
   log.info(`simulator: seed ${seed} (pass --seed ${seed} to send the same results again)`);
   const common = { seed, count, everyMs: every * 1000, serialNumber, log, signal: controller.signal };
+  const worklist =
+    values['worklist-from'] !== undefined
+      ? { source: (await import('./simulator/worklist')).serverWorklist(values['worklist-from'], process.env.BENCHWIRE_BRIDGE_TOKEN!, log), instrument: values.instrument! }
+      : undefined;
   if (kind === 'astm-chemistry') {
     const { runAstmChemistry } = await import('./simulator/astm-chemistry');
-    await runAstmChemistry({ ...common, port: integer(values, 'listen', { min: 0, max: 65535 }) ?? 0, host: values.host });
+    await runAstmChemistry({ ...common, worklist, port: integer(values, 'listen', { min: 0, max: 65535 }) ?? 0, host: values.host });
   } else if (kind === 'hl7-hematology' && connectTo) {
     const { runHl7Hematology } = await import('./simulator/hl7-hematology');
-    await runHl7Hematology({ ...common, host: connectTo.host, port: connectTo.port });
+    await runHl7Hematology({ ...common, worklist, host: connectTo.host, port: connectTo.port });
   } else {
     const { runSimulator } = await import('./simulator/simulate');
     await runSimulator({

@@ -241,6 +241,29 @@ export const printoutProfiles = pgTable(
   (t) => [uniqueIndex('printout_profiles_key_version').on(t.profileKey, t.version), index('printout_profiles_clinic_idx').on(t.clinicId)],
 );
 
+/**
+ * One sample on one instrument: the readings of one tube (same instrument and sample ID), of one ASTM or
+ * HL7 message, or of one printed slip. Intake lists specimens, and a panel is assigned, moved or voided
+ * as one; each reading keeps its own assignment history.
+ */
+export const specimens = pgTable(
+  'specimens',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    instrumentId: uuid().references(() => instruments.id, { onDelete: 'set null' }),
+    instrumentCode: text().notNull(),
+    sampleId: text(),
+    patientRef: text(),
+    /** When its first reading arrived. */
+    receivedAt: timestamp({ withTimezone: true }).notNull(),
+    /** Set when a person split a reading off another specimen (that one's id). */
+    splitFrom: uuid().references((): AnyPgColumn => specimens.id, { onDelete: 'restrict' }),
+    createdAt: createdAt(),
+  },
+  (t) => [index('specimens_clinic_sample_idx').on(t.clinicId, t.instrumentCode, sql`lower(${t.sampleId})`, t.receivedAt)],
+);
+
 export const readings = pgTable(
   'readings',
   {
@@ -286,11 +309,14 @@ export const readings = pgTable(
     controlMaterialId: uuid().references((): AnyPgColumn => controlMaterials.id, { onDelete: 'restrict' }),
     /** Lab quality marks fixed when it arrived: 'qc-failed' (QC for it was rejected), 'kit-expired'. */
     qualityMarks: text().array().notNull().default(sql`'{}'::text[]`),
+    /** The sample it was measured on; set at ingest (older rows get their own specimen in the migration). */
+    specimenId: uuid().references((): AnyPgColumn => specimens.id, { onDelete: 'restrict' }),
   },
   (t) => [
     uniqueIndex('readings_bridge_key').on(t.bridgeId, t.idempotencyKey),
     index('readings_clinic_status_idx').on(t.clinicId, t.status, t.receivedAt),
     index('readings_patient_idx').on(t.patientId, t.measuredAt),
+    index('readings_specimen_idx').on(t.specimenId, t.status),
     check('readings_comparator_valid', sql`${t.comparator} is null or ${t.comparator} in ('<', '>')`),
     check(
       'readings_one_kind_of_value',
@@ -833,6 +859,7 @@ export type Owner = typeof owners.$inferSelect;
 export type Instrument = typeof instruments.$inferSelect;
 export type Bridge = typeof bridges.$inferSelect;
 export type Reading = typeof readings.$inferSelect;
+export type Specimen = typeof specimens.$inferSelect;
 export type UnparsedCapture = typeof unparsedCaptures.$inferSelect;
 export type ResultAssignment = typeof resultAssignments.$inferSelect;
 export type AuditEvent = typeof auditEvents.$inferSelect;

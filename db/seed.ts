@@ -11,11 +11,14 @@ import {
   labOrders,
   owners,
   patients,
+  analyteSettings,
   printoutProfiles,
   readings,
+  runProtocols,
   resultAlerts,
   resultAssignments,
   resultReviews,
+  specimens,
   staffUsers,
 } from './schema';
 import { installClinicalDefaults } from '@/lib/clinical/install';
@@ -81,6 +84,23 @@ const HISTORY = [
   { daysAgo: 1, value: 5.0, comparator: '<' as const },
 ];
 
+const CHEMISTRY_CODES = ['GLU', 'CREA', 'BUN', 'ALT', 'ALP', 'TP', 'ALB'];
+/** code, name, UCUM unit, decimals the demo analyzer prints. */
+const DEMO_ANALYTES: [string, string, string, number][] = [
+  ['GLU', 'Glucose', 'mmol/L', 1],
+  ['CREA', 'Creatinine', 'umol/L', 0],
+  ['BUN', 'Urea nitrogen', 'mmol/L', 1],
+  ['ALT', 'Alanine aminotransferase', 'U/L', 0],
+  ['ALP', 'Alkaline phosphatase', 'U/L', 0],
+  ['TP', 'Total protein', 'g/L', 0],
+  ['ALB', 'Albumin', 'g/L', 0],
+  ['WBC', 'White blood cells', '10*9/L', 2],
+  ['RBC', 'Red blood cells', '10*12/L', 2],
+  ['HGB', 'Haemoglobin', 'g/L', 0],
+  ['HCT', 'Haematocrit', '%', 1],
+  ['PLT', 'Platelets', '10*9/L', 0],
+];
+
 export async function isEmpty(db: Db): Promise<boolean> {
   const [row] = await db.select({ n: sql<number>`count(*)::int` }).from(clinics);
   return row.n === 0;
@@ -123,7 +143,7 @@ export async function seedDemoClinic(db: Db): Promise<{ clinicId: string; bridge
       .insert(bridges)
       .values({ clinicId: clinic.id, name: 'Lab PC (bench 1)', tokenHash: token.hash, tokenHint: token.hint, createdBy: admin.id })
       .returning();
-    const [crpReader, chemAnalyzer, hemaAnalyzer] = await tx.insert(instruments).values([
+    const instrumentRows = await tx.insert(instruments).values([
       {
         clinicId: clinic.id,
         code: DEMO_CRP_INSTRUMENT,
@@ -157,6 +177,7 @@ export async function seedDemoClinic(db: Db): Promise<{ clinicId: string; bridge
         serialNumber: 'SIM-0003',
       },
     ]).returning();
+    const crpReader = instrumentRows[0];
 
     // An example printout profile for the editor (not attached to an instrument): an invented electrolyte printer.
     await tx.insert(printoutProfiles).values({
@@ -182,15 +203,62 @@ export async function seedDemoClinic(db: Db): Promise<{ clinicId: string; bridge
 
     await installClinicalDefaults(tx, clinic.id, admin.id);
 
+    // The demo analyzers' tests: units as they send them (UCUM) and the decimals they print (their precision),
+    // and invented run times, so chemistry and haematology runs can be started on the Bench.
+    const chemistry = instrumentRows.find((i) => i.code === 'chem-analyzer')!;
+    const hematology = instrumentRows.find((i) => i.code === 'hema-analyzer')!;
+    await tx.insert(analyteSettings).values(
+      DEMO_ANALYTES.map(([code, name, unit, decimals]) => ({
+        clinicId: clinic.id,
+        code,
+        name,
+        unit,
+        displayUnit: unit,
+        decimals,
+        validatedSpecies: ['dog', 'cat'] as ('dog' | 'cat')[],
+        speciesNote: 'Demo analyzer: validated for dogs and cats (invented).',
+        updatedBy: admin.id,
+      })),
+    );
+    await tx.insert(runProtocols).values(
+      DEMO_ANALYTES.map(([code]) => {
+        const chem = CHEMISTRY_CODES.includes(code);
+        return {
+          clinicId: clinic.id,
+          analyte: code,
+          instrumentId: chem ? chemistry.id : hematology.id,
+          name: chem ? 'Chemistry rotor (demo)' : 'Blood count (demo)',
+          stages: chem
+            ? [
+                { key: 'load', label: 'Load the rotor', seconds: 30, handsOn: true },
+                { key: 'run', label: 'Analysis', seconds: 270 },
+              ]
+            : [
+                { key: 'mix', label: 'Mix the tube', seconds: 20, handsOn: true },
+                { key: 'count', label: 'Count', seconds: 100 },
+              ],
+          earlySeconds: 60,
+          lateSeconds: 240,
+          source: 'Invented demo analyzer; run times are made up for the demo.',
+          updatedBy: admin.id,
+        };
+      }),
+    );
+
     const biscuit = patientRows[0];
     const historyAssignments: string[] = [];
     const historyReadings: string[] = [];
     for (const [i, h] of HISTORY.entries()) {
       const measuredAt = new Date(Date.now() - h.daysAgo * 86_400_000);
       const printed = `${h.comparator ?? ''}${h.value.toFixed(1)} mg/L`;
+      const [specimen] = await tx
+        .insert(specimens)
+        .values({ clinicId: clinic.id, instrumentId: crpReader.id, instrumentCode: DEMO_CRP_INSTRUMENT, receivedAt: measuredAt })
+        .returning();
       const [reading] = await tx
         .insert(readings)
         .values({
+          specimenId: specimen.id,
           clinicId: clinic.id,
           bridgeId: bridge.id,
           idempotencyKey: `seed-history-${i}`,
@@ -250,9 +318,14 @@ export async function seedDemoClinic(db: Db): Promise<{ clinicId: string; bridge
     for (const [i, c] of CRITICAL.entries()) {
       const at = new Date(Date.now() - c.hoursAgo * 3_600_000);
       const printed = `${c.comparator ?? ''}${c.value.toFixed(1)} mg/L`;
+      const [specimen] = await tx
+        .insert(specimens)
+        .values({ clinicId: clinic.id, instrumentId: crpReader.id, instrumentCode: DEMO_CRP_INSTRUMENT, receivedAt: at })
+        .returning();
       const [reading] = await tx
         .insert(readings)
         .values({
+          specimenId: specimen.id,
           clinicId: clinic.id,
           bridgeId: bridge.id,
           idempotencyKey: `seed-critical-${i}`,
@@ -349,10 +422,50 @@ export async function seedDemoClinic(db: Db): Promise<{ clinicId: string; bridge
       adminId: admin.id,
       instruments: [
         { id: crpReader.id, code: crpReader.code, serial: 'SIM-0001', tests: DEMO_QUALITY_TESTS.CRP },
-        { id: chemAnalyzer.id, code: chemAnalyzer.code, serial: 'SIM-0002', tests: DEMO_QUALITY_TESTS.CHEMISTRY },
-        { id: hemaAnalyzer.id, code: hemaAnalyzer.code, serial: 'SIM-0003', tests: DEMO_QUALITY_TESTS.HEMATOLOGY },
+        { id: chemistry.id, code: chemistry.code, serial: 'SIM-0002', tests: DEMO_QUALITY_TESTS.CHEMISTRY },
+        { id: hematology.id, code: hematology.code, serial: 'SIM-0003', tests: DEMO_QUALITY_TESTS.HEMATOLOGY },
       ],
     });
+
+    // A chemistry panel for Juniper on a labelled tube, and a blood count for Pepper without a label: the demo's
+    // analyzers run them when due and print the label or the record number, so Intake shows ID matches.
+    const DEMO_RUNS = [
+      { patient: patientRows[1], instrument: chemistry, sampleId: 'T-7QK4M2', sampleType: 'serum' as const, startedSecondsAgo: 240, analytes: CHEMISTRY_CODES },
+      { patient: patientRows[3], instrument: hematology, sampleId: null, sampleType: 'whole_blood' as const, startedSecondsAgo: 60, analytes: ['WBC', 'RBC', 'HGB', 'HCT', 'PLT'] },
+    ];
+    const demoProtocols = await tx.query.runProtocols.findMany({ where: (p, { eq }) => eq(p.clinicId, clinic.id) });
+    for (const run of DEMO_RUNS) {
+      const startedAt = new Date(Date.now() - run.startedSecondsAgo * 1000);
+      for (const analyte of run.analytes) {
+        const protocolRow = demoProtocols.find((p) => p.analyte === analyte && p.instrumentId === run.instrument.id)!;
+        const [order] = await tx
+          .insert(labOrders)
+          .values({
+            clinicId: clinic.id,
+            patientId: run.patient.id,
+            analyte,
+            instrumentId: run.instrument.id,
+            sampleType: run.sampleType,
+            sampleId: run.sampleId,
+            orderedBy: vet.id,
+            startedBy: tech.id,
+            startedAt,
+            dueAt: dueAt(startedAt, protocolRow.stages),
+            protocolId: protocolRow.id,
+            stages: protocolRow.stages,
+          })
+          .returning();
+        await tx.insert(auditEvents).values({
+          clinicId: clinic.id,
+          at: startedAt,
+          actorUserId: tech.id,
+          action: 'order.started',
+          entityType: 'order',
+          entityId: order.id,
+          details: { patientId: run.patient.id, analyte, demo: true },
+        });
+      }
+    }
     return { clinicId: clinic.id, bridgeToken: token.token };
   });
 }

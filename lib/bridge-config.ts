@@ -1,8 +1,9 @@
 import 'server-only';
 import { createHash } from 'node:crypto';
-import { and, desc, eq, inArray } from 'drizzle-orm';
+import { and, asc, desc, eq, inArray } from 'drizzle-orm';
 import { db } from '@/db/client';
-import { instruments, printoutProfiles, type Bridge } from '@/db/schema';
+import { instruments, labOrders, patients, printoutProfiles, type Bridge } from '@/db/schema';
+import type { BridgeWorklist } from '@/lib/validation/readings';
 
 /**
  * What a bridge should run: the active instruments assigned to it, with their link settings and,
@@ -44,4 +45,25 @@ export async function bridgeConfig(bridge: Bridge) {
   };
   const version = createHash('sha256').update(JSON.stringify(body)).digest('hex').slice(0, 16);
   return { version, ...body };
+}
+
+/** Open tests on the bridge's instruments (the worklist an analyzer may ask for), oldest due first. */
+export async function bridgeWorklist(bridge: Bridge): Promise<BridgeWorklist> {
+  const database = await db();
+  const rows = await database
+    .select({
+      instrument: instruments.code,
+      analyte: labOrders.analyte,
+      sampleId: labOrders.sampleId,
+      recordNumber: patients.recordNumber,
+      startedAt: labOrders.startedAt,
+      dueAt: labOrders.dueAt,
+    })
+    .from(labOrders)
+    .innerJoin(instruments, eq(instruments.id, labOrders.instrumentId))
+    .innerJoin(patients, eq(patients.id, labOrders.patientId))
+    .where(and(eq(labOrders.clinicId, bridge.clinicId), eq(labOrders.status, 'open'), eq(instruments.bridgeId, bridge.id), eq(instruments.active, true)))
+    .orderBy(asc(labOrders.dueAt))
+    .limit(500);
+  return { items: rows.map((r) => ({ ...r, startedAt: r.startedAt.toISOString(), dueAt: r.dueAt.toISOString() })) };
 }

@@ -7,6 +7,7 @@ import { recordAudit } from '@/lib/audit';
 import { ApiError, notFound } from '@/lib/http';
 import { publish } from '@/lib/live/bus';
 import { sameUnit } from '@/lib/clinical/units';
+import { specimenFor } from '@/lib/readings/specimens';
 import type { TranscribeCaptureInput } from '@/lib/validation/api';
 
 /** The units a test may be typed in: the one its intervals are kept in and the one the clinic reads it in. */
@@ -83,9 +84,12 @@ export async function transcribeCapture(actor: Actor, captureId: string, input: 
     if (!unit) {
       throw new ApiError(400, 'invalid_request', `Choose the unit ${analyte.code} is reported in.`, [{ path: 'unit', message: `Use ${units.join(' or ')}.` }]);
     }
+    const measuredAt = input.measuredAt ? new Date(input.measuredAt) : null;
+    const specimenId = await specimenFor(tx, { ...capture, sampleId: input.sampleId, patientRef: null, measuredAt });
     const [reading] = await tx
       .insert(readings)
       .values({
+        specimenId,
         clinicId: actor.clinicId,
         bridgeId: capture.bridgeId,
         idempotencyKey: `transcribed:${capture.id}`,
@@ -98,7 +102,7 @@ export async function transcribeCapture(actor: Actor, captureId: string, input: 
         flags: ['transcribed'],
         enteredBy: actor.userId,
         sampleId: input.sampleId,
-        measuredAt: input.measuredAt ? new Date(input.measuredAt) : null,
+        measuredAt,
         receivedAt: capture.receivedAt,
         raw: capture.raw,
       })

@@ -69,8 +69,11 @@ async function main() {
     // Three invented analyzers on the seeded instruments' ports, and one real bridge that takes its
     // instruments from the server (GET /api/bridge/config), as a bridge on a lab PC does.
     run('simulated CRP reader', bin('tsx'), ['bridge/cli.ts', 'simulate', '--listen', '4001', '--every', '45', '--wait-for-client']);
-    run('simulated chemistry analyzer', bin('tsx'), ['bridge/cli.ts', 'simulate', '--kind', 'astm-chemistry', '--listen', '4002', '--every', '75']);
-    run('simulated haematology analyzer', bin('tsx'), ['bridge/cli.ts', 'simulate', '--kind', 'hl7-hematology', '--connect', '127.0.0.1:4003', '--every', '90']);
+    // The chemistry and haematology analyzers run only the tests started for them on the Bench (their worklist).
+    const bridgeToken = { BENCHWIRE_BRIDGE_TOKEN: fs.readFileSync(tokenFile, 'utf8').trim() };
+    const worklist = ['--worklist-from', `http://127.0.0.1:${port}`];
+    run('simulated chemistry analyzer', bin('tsx'), ['bridge/cli.ts', 'simulate', '--kind', 'astm-chemistry', '--listen', '4002', ...worklist, '--instrument', 'chem-analyzer'], bridgeToken);
+    run('simulated haematology analyzer', bin('tsx'), ['bridge/cli.ts', 'simulate', '--kind', 'hl7-hematology', '--connect', '127.0.0.1:4003', ...worklist, '--instrument', 'hema-analyzer'], bridgeToken);
     run('bridge', bin('tsx'), ['bridge/cli.ts', 'run', '--config-from-server', '--server', `http://127.0.0.1:${port}`, '--spool', path.join(dataDir, 'bridge-spool')], {
       BENCHWIRE_BRIDGE_TOKEN: fs.readFileSync(tokenFile, 'utf8').trim(),
     });

@@ -1,5 +1,5 @@
 'use client';
-import { useEffect, useRef } from 'react';
+import { useEffect, useRef, useState } from 'react';
 
 /** A native modal <dialog>: the browser traps focus, Escape closes it, and focus returns where it was. */
 export function Modal({
@@ -15,14 +15,24 @@ export function Modal({
   initialFocus?: string;
 }) {
   const ref = useRef<HTMLDialogElement>(null);
+  // Who opened it, read while rendering: by the time effects run, a field's autoFocus has moved focus.
+  const [opener] = useState(() => (typeof document !== 'undefined' && document.activeElement instanceof HTMLElement ? document.activeElement : null));
   useEffect(() => {
     const dialog = ref.current;
-    if (dialog && !dialog.open) dialog.showModal();
-    if (initialFocus) dialog?.querySelector<HTMLElement>(`#${CSS.escape(initialFocus)}`)?.focus();
-    return () => dialog?.close();
+    // React removes the dialog before this cleanup runs, so the browser cannot restore focus itself.
+    if (dialog && !dialog.open) {
+      dialog.showModal();
+      // showModal focuses the first focusable element (the close button); the dialog's first field is where typing belongs.
+      const first = initialFocus ? dialog.querySelector<HTMLElement>(`#${CSS.escape(initialFocus)}`) : null;
+      (first ?? dialog.querySelector<HTMLElement>('[data-autofocus], .modal-body input:not([type=hidden]), .modal-body textarea'))?.focus();
+    }
+    return () => {
+      dialog?.close();
+      if (opener?.isConnected) opener.focus();
+    };
     // Focus once, when the dialog opens.
     // eslint-disable-next-line react-hooks/exhaustive-deps
-  }, []);
+  }, [opener]);
   return (
     <dialog
       ref={ref}
@@ -41,7 +51,7 @@ export function Modal({
           ×
         </button>
       </div>
-      <div className="px-5 py-4">{children}</div>
+      <div className="modal-body px-5 py-4">{children}</div>
     </dialog>
   );
 }

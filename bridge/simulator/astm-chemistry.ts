@@ -7,6 +7,7 @@ import { compactStamp } from '../local-time';
 import { CHEMISTRY, simulateResult, type Species } from './analytes';
 import { seededRandom } from './random';
 import { aborted, pause, type SimulatorBase } from './simulate';
+import { worklistRuns, type SimulatedRun, type WorklistSource } from './worklist';
 
 // An invented multi-analyte chemistry analyzer that sends each run as an ASTM E1394 message over
 // the E1381 low-level protocol, acting as the sender on a TCP port the bridge connects to
@@ -27,12 +28,13 @@ export function createChemistryAnalyzer(options: { seed: number; serialNumber?: 
   let sample = 2000 + Math.floor(random() * 7000);
   return {
     /** The next run as E1394 records (field numbers as in dialects/astm-e1394.ts). */
-    next(): ChemistryMessage {
+    next(run?: SimulatedRun): ChemistryMessage {
       const species: Species = random() < 0.6 ? 'canine' : 'feline';
       const stamp = compactStamp(clock());
-      const sampleId = `C-${sample++}`;
-      const patientRef = random() < 0.5 ? `PT-${1000 + Math.floor(random() * 9000)}` : '';
-      const tests = CHEMISTRY.filter(() => random() < 0.85);
+      // A run from the worklist carries the order's tube label and the patient's record number; otherwise invented ones.
+      const sampleId = run?.analytes ? (run.sampleId ?? '') : `C-${sample++}`;
+      const patientRef = run ? (run.patientRef ?? '') : random() < 0.5 ? `PT-${1000 + Math.floor(random() * 9000)}` : '';
+      const tests = run?.analytes ? CHEMISTRY.filter((t) => run.analytes!.includes(t.code)) : CHEMISTRY.filter(() => random() < 0.85);
       const panel = tests.length ? tests : [CHEMISTRY[0]];
       const results = panel.map((test) => simulateResult(test, species, random));
       const records = [
@@ -122,12 +124,16 @@ export interface ChemistryOptions extends SimulatorBase {
   onReady?: (info: { port: number }) => void;
   /** Corrupt a frame of about one message in six (default), of every message, or never. */
   corrupt?: boolean | 'every message';
+  /** Run only the tests on this worklist (as instrument `instrument`), instead of one run every everyMs. */
+  worklist?: { source: WorklistSource; instrument: string; pollMs?: number };
 }
 
 /** Listens; while the bridge is connected, sends a run every everyMs. */
 export async function runAstmChemistry(options: ChemistryOptions): Promise<void> {
   const log = options.log ?? silentLog;
   const analyzer = createChemistryAnalyzer(options);
+  const runs = options.worklist ? worklistRuns({ ...options.worklist, random: seededRandom(options.seed + 1) }) : undefined;
+  let pending: SimulatedRun | undefined;
   let client: { socket: Socket; replies: Replies } | undefined;
   let connected: () => void = () => {};
   let connection = new Promise<void>((resolve) => (connected = resolve));
@@ -153,15 +159,20 @@ export async function runAstmChemistry(options: ChemistryOptions): Promise<void>
     for (let sent = 0; options.count === undefined || sent < options.count; ) {
       if (options.signal?.aborted) break;
       if (!client) await Promise.race([connection, aborted(options.signal)]);
-      const current = client;
-      if (!current || options.signal?.aborted) continue;
-      const message = analyzer.next();
+      if (!client || options.signal?.aborted) continue;
+      // With a worklist, wait until one of its tests is due (kept if the bridge disconnects meanwhile).
+      pending ??= runs ? await runs.next(options.signal) : undefined;
+      if (runs && !pending) break;
+      const current = client as { socket: Socket; replies: Replies } | undefined;
+      if (!current) continue;
+      const message = analyzer.next(pending);
+      pending = undefined;
       const corrupting = options.corrupt === 'every message' || (options.corrupt !== false && analyzer.corruptNext());
       const corrupt = corrupting ? analyzer.pickFrame(message.records.length) : undefined;
       const outcome = await sendSession(current.socket, current.replies, message.records, corrupt);
       log.info(`chemistry simulator: sample ${message.sampleId} (${message.species}, ${message.results.map((r) => `${r.code} ${r.value}`).join(', ')}): ${outcome}`);
       sent++;
-      if ((options.count === undefined || sent < options.count) && !(await pause(options.everyMs, options.signal))) break;
+      if (!runs && (options.count === undefined || sent < options.count) && !(await pause(options.everyMs, options.signal))) break;
     }
   } finally {
     client?.socket.end();

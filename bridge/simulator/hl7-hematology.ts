@@ -6,6 +6,7 @@ import { compactStamp } from '../local-time';
 import { HEMATOLOGY, simulateResult, type Species } from './analytes';
 import { seededRandom } from './random';
 import { aborted, pause, type SimulatorBase } from './simulate';
+import { worklistRuns, type SimulatedRun, type WorklistSource } from './worklist';
 
 // An invented hematology analyzer that connects out to the bridge (MLLP over TCP) and sends each
 // run as an HL7 v2.5 ORU^R01, waiting for the ACK (field numbers as in dialects/hl7v2.ts).
@@ -25,12 +26,14 @@ export function createHematologyAnalyzer(options: { seed: number; serialNumber?:
   let sample = 3000 + Math.floor(random() * 6000);
   let control = 1;
   return {
-    next(): HematologyMessage {
+    next(run?: SimulatedRun): HematologyMessage {
       const species: Species = random() < 0.6 ? 'canine' : 'feline';
       const stamp = compactStamp(clock());
-      const sampleId = `H-${sample++}`;
+      // A run from the worklist carries the order's tube label and the patient's record number; otherwise invented ones.
+      const sampleId = run?.analytes ? (run.sampleId ?? '') : `H-${sample++}`;
       const controlId = `HEMA${String(control++).padStart(6, '0')}`;
-      const patientRef = random() < 0.5 ? `PT-${1000 + Math.floor(random() * 9000)}` : '';
+      const patientRef = run ? (run.patientRef ?? '') : random() < 0.5 ? `PT-${1000 + Math.floor(random() * 9000)}` : '';
+      // A blood count measures the whole panel whatever was ordered (common practice, no source).
       const results = HEMATOLOGY.map((test) => simulateResult(test, species, random));
       const segments = [
         `MSH|^~\\&|HEMASIM|BENCH3|BENCHWIRE|CLINIC|${stamp}||ORU^R01^ORU_R01|${controlId}|P|2.5`,
@@ -48,12 +51,16 @@ export interface HematologyOptions extends SimulatorBase {
   port: number;
   /** How long to wait for the ACK before sending the message again. */
   ackTimeoutMs?: number;
+  /** Run only the tests on this worklist (as instrument `instrument`), instead of one run every everyMs. */
+  worklist?: { source: WorklistSource; instrument: string; pollMs?: number };
 }
 
 /** Connects (and reconnects with backoff) to the bridge; sends a run every everyMs and waits for its ACK. */
 export async function runHl7Hematology(options: HematologyOptions): Promise<void> {
   const log = options.log ?? silentLog;
   const analyzer = createHematologyAnalyzer(options);
+  const runs = options.worklist ? worklistRuns({ ...options.worklist, random: seededRandom(options.seed + 1) }) : undefined;
+  let pending: SimulatedRun | undefined;
   const where = `tcp://${options.host}:${options.port}`;
   let socket: Socket | undefined;
   let failures = 0;
@@ -70,11 +77,14 @@ export async function runHl7Hematology(options: HematologyOptions): Promise<void
         failures = 0;
         log.info(`hematology simulator: connected to ${where}`);
       }
-      const message = analyzer.next();
+      pending ??= runs ? await runs.next(options.signal) : undefined;
+      if (runs && !pending) break;
+      const message = analyzer.next(pending);
+      pending = undefined;
       const ack = await exchange(socket, message.text, options.ackTimeoutMs ?? 30_000, options.signal);
       log.info(`hematology simulator: sample ${message.sampleId} (${message.species}, ${message.results.map((r) => `${r.code} ${r.value}`).join(', ')}): ${ack}`);
       sent++;
-      if ((options.count === undefined || sent < options.count) && !(await pause(options.everyMs, options.signal))) break;
+      if (!runs && (options.count === undefined || sent < options.count) && !(await pause(options.everyMs, options.signal))) break;
     }
   } finally {
     socket?.end();

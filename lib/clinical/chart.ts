@@ -143,3 +143,4 @@ function inAnalyteUnit(m: { value: number | null; comparator: '<' | '>' | null; 
   const c = convert(m.value, m.unit, unit);
   return c.ok ? { ...m, value: c.value } : m;
 }
+

@@ -8,6 +8,7 @@ export const LIVE_EVENT_TYPES = [
   'capture.created',
   'capture.updated',
   'reading.reassigned',
+  'reading.split',
   'order.created',
   'order.updated',
   'review.created',

@@ -7,6 +7,7 @@ import { publishBatch } from '@/lib/live/bus';
 import type { BridgeBatch, BridgeBatchResult, BridgeRecord } from '@/lib/validation/readings';
 import { autoAssignBatchOnIngest } from './suggestions';
 import { applyQualityOnIngest } from '@/lib/quality/ingest-step';
+import { specimenFor } from './specimens';
 
 /** PostgreSQL text cannot hold U+0000, which line noise often sends; keep it visible as ␀ (U+2400) instead. */
 export function storable<T>(value: T): T {
@@ -61,6 +62,24 @@ export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promis
     const readingRecords = batch.records.filter((r): r is ReadingRecord => r.payload.kind === 'reading');
     const captureRecords = batch.records.filter((r): r is CaptureRecord => r.payload.kind === 'unparsed');
 
+    // The readings of one sample (same instrument and sample ID, or one message) share a specimen. Records
+    // this bridge already sent keep theirs; within the batch, one message's readings share one lookup.
+    const alreadyStored = await storedIds(tx, readings, bridge.id, readingRecords.map((r) => r.key));
+    const specimenByRecord = new Map<string, string>();
+    const specimenInBatch = new Map<string, string>();
+    for (const record of readingRecords) {
+      if (alreadyStored.has(record.key)) continue;
+      const p = record.payload;
+      const measuredAt = p.measuredAt ? new Date(p.measuredAt) : null;
+      const sameSample = `${record.instrument}|${p.sampleId?.trim().toLowerCase() ?? ''}|${p.patientRef?.trim() ?? ''}|${p.sampleId?.trim() ? '' : (measuredAt?.toISOString() ?? record.key)}`;
+      let specimenId = specimenInBatch.get(sameSample);
+      if (!specimenId) {
+        specimenId = await specimenFor(tx, { ...common(record), sampleId: p.sampleId, patientRef: p.patientRef, measuredAt });
+        specimenInBatch.set(sameSample, specimenId);
+      }
+      specimenByRecord.set(record.key, specimenId);
+    }
+
     const createdReadings = readingRecords.length
       ? await tx
           .insert(readings)
@@ -69,6 +88,7 @@ export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promis
               const p = record.payload;
               return {
                 ...common(record),
+                specimenId: specimenByRecord.get(record.key) ?? null,
                 instrumentSerial: p.instrumentSerial,
                 instrumentRange: p.referenceRange,
                 resultStatus: p.resultStatus,

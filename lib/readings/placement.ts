@@ -31,7 +31,7 @@ export async function loadPatientForPlacement(tx: Tx, clinicId: string, patientI
   if (!patient.active) throw new ApiError(409, 'patient_inactive', 'This patient’s record is closed.');
   return patient;
 }
-type PlacementPatient = Awaited<ReturnType<typeof loadPatientForPlacement>>;
+export type PlacementPatient = Awaited<ReturnType<typeof loadPatientForPlacement>>;
 
 /** Checks and claims an open order for this reading; 409 when it is taken, closed or for something else. */
 async function claimOrder(tx: Tx, clinicId: string, orderId: string, reading: Reading, patient: PlacementPatient) {

@@ -1,12 +1,13 @@
 import 'server-only';
-import { and, asc, desc, eq, sql } from 'drizzle-orm';
+import { and, asc, desc, eq, inArray, sql, type SQL } from 'drizzle-orm';
 import { db } from '@/db/client';
-import { auditEvents, instruments, patients, readings, staffUsers, unparsedCaptures } from '@/db/schema';
+import { analyteSettings, auditEvents, instruments, patients, readings, specimens, staffUsers, unparsedCaptures } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { analyteContexts, intervalContexts } from '@/lib/clinical/config';
 import { criticalBeforeAssignment } from '@/lib/clinical/evaluate';
 import { notFound } from '@/lib/http';
 import { historyForPatient } from './history';
+import type { WaitingQuery } from '@/lib/validation/api';
 
 const readingColumns = {
   id: readings.id,
@@ -33,6 +34,7 @@ const readingColumns = {
   resultStatus: readings.resultStatus,
   instrumentName: instruments.name,
   raw: readings.raw,
+  specimenId: readings.specimenId,
   patientId: readings.patientId,
   patientName: patients.name,
   patientRecordNumber: patients.recordNumber,
@@ -70,6 +72,110 @@ export async function listReadings(
     critical: r.status === 'unassigned' ? criticalBeforeAssignment(r, analytes.get(r.analyte), intervals) : null,
   }));
 }
+
+/** A reading's specimen: its own id for a reading stored before specimens (none such after the migration). */
+const specimenKey = sql<string>`coalesce(${readings.specimenId}, ${readings.id})`;
+const firstArrival = sql<Date>`min(${readings.receivedAt})`;
+
+/**
+ * Intake: every specimen with a waiting reading, a page at a time, newest first. The counts are the
+ * true ones (all waiting readings, however many), and the oldest arrival says how long the queue is.
+ */
+export async function listWaiting(actor: Actor, query: WaitingQuery, now = new Date()) {
+  const database = await db();
+  const waiting = [eq(readings.clinicId, actor.clinicId), eq(readings.status, 'unassigned')];
+  const filtered: SQL[] = [...waiting];
+  if (query.instrument) filtered.push(eq(readings.instrumentCode, query.instrument));
+  if (query.analyte) filtered.push(eq(readings.analyte, query.analyte));
+  const cutoff = query.olderThanMinutes ? new Date(now.getTime() - query.olderThanMinutes * 60_000) : null;
+
+  const groups = database
+    .select({ key: specimenKey.as('key'), first: firstArrival.as('first'), n: sql<number>`count(*)::int`.as('n') })
+    .from(readings)
+    .where(and(...filtered))
+    .groupBy(specimenKey)
+    .having(cutoff ? sql`min(${readings.receivedAt}) <= ${cutoff.toISOString()}` : undefined)
+    .as('g');
+
+  const [[summary], [matching], page, instrumentFacets, analyteFacets] = await Promise.all([
+    database
+      .select({ readings: sql<number>`count(*)::int`, specimens: sql<number>`count(distinct ${specimenKey})::int`, oldest: sql<string | null>`min(${readings.receivedAt})` })
+      .from(readings)
+      .where(and(...waiting)),
+    database.select({ specimens: sql<number>`count(*)::int`, readings: sql<number>`coalesce(sum(${groups.n}), 0)::int` }).from(groups),
+    database
+      .select({ key: groups.key, first: groups.first })
+      .from(groups)
+      .orderBy(desc(groups.first), desc(groups.key))
+      .limit(query.pageSize)
+      .offset((query.page - 1) * query.pageSize),
+    database
+      .select({ code: readings.instrumentCode, name: instruments.name, count: sql<number>`count(*)::int` })
+      .from(readings)
+      .leftJoin(instruments, eq(instruments.id, readings.instrumentId))
+      .where(and(...waiting))
+      .groupBy(readings.instrumentCode, instruments.name)
+      .orderBy(readings.instrumentCode),
+    database
+      .select({ code: readings.analyte, count: sql<number>`count(*)::int` })
+      .from(readings)
+      .where(and(...waiting))
+      .groupBy(readings.analyte)
+      .orderBy(readings.analyte),
+  ]);
+
+  const keys = page.map((p) => p.key);
+  const rows = keys.length
+    ? await database
+        .select({ ...readingColumns, decimals: analyteSettings.decimals, key: specimenKey, specimenSampleId: specimens.sampleId, specimenPatientRef: specimens.patientRef })
+        .from(readings)
+        .leftJoin(instruments, eq(instruments.id, readings.instrumentId))
+        .leftJoin(patients, eq(patients.id, readings.patientId))
+        .leftJoin(specimens, eq(specimens.id, readings.specimenId))
+        .leftJoin(analyteSettings, and(eq(analyteSettings.clinicId, readings.clinicId), eq(analyteSettings.code, readings.analyte)))
+        .where(and(...waiting, inArray(specimenKey, keys)))
+        .orderBy(asc(readings.receivedAt), asc(readings.storedAt), asc(readings.id))
+    : [];
+  // A waiting reading is flagged at once when it is critical for a species the clinic has limits for.
+  const codes = [...new Set(rows.map((r) => r.analyte))];
+  const [analytes, intervals] = codes.length
+    ? await Promise.all([analyteContexts(database, actor.clinicId, codes), intervalContexts(database, actor.clinicId, codes)])
+    : [new Map(), []];
+  const specimensOnPage = keys.map((key) => {
+    const mine = rows.filter((r) => r.key === key);
+    const items = mine.map((r) => {
+      const reading: Partial<typeof r> = { ...r };
+      delete reading.key;
+      delete reading.specimenSampleId;
+      delete reading.specimenPatientRef;
+      return {
+        ...(reading as Omit<typeof r, 'key' | 'specimenSampleId' | 'specimenPatientRef'>),
+        critical: criticalBeforeAssignment(r, analytes.get(r.analyte), intervals),
+      };
+    });
+    const first = mine[0];
+    return {
+      id: key,
+      instrumentCode: first.instrumentCode,
+      instrumentName: first.instrumentName,
+      sampleId: first.specimenSampleId ?? first.sampleId,
+      patientRef: first.specimenPatientRef ?? first.patientRef,
+      receivedAt: items[0].receivedAt,
+      readings: items,
+    };
+  });
+  return {
+    waiting: { readings: summary.readings, specimens: summary.specimens, oldestAt: summary.oldest ? new Date(summary.oldest) : null },
+    matching,
+    page: query.page,
+    pageSize: query.pageSize,
+    pages: Math.max(1, Math.ceil(matching.specimens / query.pageSize)),
+    specimens: specimensOnPage,
+    facets: { instruments: instrumentFacets, analytes: analyteFacets },
+  };
+}
+export type WaitingList = Awaited<ReturnType<typeof listWaiting>>;
+export type WaitingSpecimen = WaitingList['specimens'][number];
 
 /**
  * One reading with its audit history, oldest first. Seen from a patient's chart (`asSeenBy`), comments and

@@ -124,6 +124,40 @@ export const readingStatusQuery = z.object({
   limit: z.coerce.number().int().min(1).max(500).default(100),
 });
 
+/** Intake's list of waiting specimens: a page at a time, filtered by instrument, test and how long they waited. */
+export const waitingQuery = z.object({
+  page: z.coerce.number().int().min(1).max(100_000).default(1),
+  pageSize: z.coerce.number().int().min(5).max(200).default(25),
+  instrument: z.string().trim().max(64).optional().transform((v) => v || undefined),
+  analyte: z.string().trim().max(64).optional().transform((v) => v || undefined),
+  /** Only specimens that have waited at least this many minutes. */
+  olderThanMinutes: z.coerce.number().int().min(0).max(7 * 24 * 60).optional(),
+});
+export type WaitingQuery = z.infer<typeof waitingQuery>;
+
+const readingIdList = z.array(z.uuid()).min(1, 'Name the readings of the panel.').max(200);
+
+/** A whole panel (the readings of one specimen the person saw) onto one patient. */
+export const panelAssignSchema = z.object({
+  patientId: z.uuid('Choose a patient.'),
+  readingIds: readingIdList,
+  /** Running tests the panel completes; each is matched to the panel's reading of its analyte. */
+  orderIds: z.array(z.uuid()).max(200).optional(),
+  method: z.enum(['manual', 'suggestion']).optional(),
+});
+
+export const panelReassignSchema = z.object({
+  patientId: z.uuid('Choose a patient.'),
+  readingIds: readingIdList,
+  reason: z.string().trim().min(3, 'Give a reason for moving these results.').max(500),
+});
+
+export const panelVoidSchema = z.object({
+  readingIds: readingIdList,
+  reason: z.string().trim().min(3, 'Give a reason for voiding this panel.').max(500),
+  onRecord: z.literal(true).optional(),
+});
+
 export const assignSchema = z.object({
   patientId: z.uuid('Choose a patient.'),
   /** The open order this reading fulfils, when the match was made to one. */

@@ -114,3 +114,22 @@ export const bridgeHeartbeatSchema = z.object({
     .default([]),
 });
 export type BridgeHeartbeat = z.infer<typeof bridgeHeartbeatSchema>;
+
+/**
+ * The bridge's worklist: open tests on its instruments, as an analyzer asks its host for (the ASTM E1394 host
+ * query, §11 request-information record). Only what labels a sample: the tube label and the record number.
+ */
+export const bridgeWorklistSchema = z.object({
+  items: z.array(
+    z.object({
+      instrument: z.string(),
+      analyte: z.string(),
+      sampleId: z.string().nullable(),
+      recordNumber: z.string(),
+      startedAt: z.iso.datetime({ offset: true }),
+      dueAt: z.iso.datetime({ offset: true }),
+    }),
+  ),
+});
+export type BridgeWorklist = z.infer<typeof bridgeWorklistSchema>;
+export type WorklistItem = BridgeWorklist['items'][number];

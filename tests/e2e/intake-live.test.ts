@@ -34,11 +34,11 @@ describe('a reading from the bench reaches the chart live', () => {
       { BENCHWIRE_BRIDGE_TOKEN: running.app.bridgeToken },
     );
 
-    const row = await tech.waitForSelector('tr[data-reading-id]', { timeout: 90_000 }).catch((error) => {
+    const row = await tech.waitForSelector('[data-specimen-id]:has([data-reading-id])', { timeout: 90_000 }).catch((error) => {
       throw new Error(`${error.message}\n--- processes ---\n${running.app.logs()}`);
     });
     expect(await techKept()).toBe(true);
-    const readingId = await row.getAttribute('data-reading-id');
+    const readingId = await row.$eval('[data-reading-id]', (el) => el.getAttribute('data-reading-id'));
     expect(readingId).toMatch(/^[0-9a-f-]{36}$/);
     // The printed value shows with its unit (the invented slip prints mg/L).
     expect(await row.$eval('[data-testid=reading-value]', (el) => el.textContent)).toMatch(/mg\/L$/);
@@ -47,7 +47,7 @@ describe('a reading from the bench reaches the chart live', () => {
     await tech.fill('#patient-search', 'Juniper');
     await tech.click('[role=option] button:has-text("Juniper")');
     await tech.click('button:has-text("Assign to Juniper")');
-    await tech.waitForSelector(`tr[data-reading-id="${readingId}"]`, { state: 'detached', timeout: 30_000 });
+    await tech.waitForSelector(`[data-specimen-id] [data-reading-id="${readingId}"]`, { state: 'detached', timeout: 30_000 });
 
     await vet.waitForSelector(`[data-testid=patient-results] tr[data-reading-id="${readingId}"]`, { timeout: 30_000 });
     expect(await vetKept()).toBe(true);

@@ -56,6 +56,8 @@ describe('an anonymous reading matched by timing', () => {
     await tech.goto('/bench');
     await tech.fill('#order-patient', 'Biscuit');
     await tech.click('[data-patient-choice="FH-1001"]', { timeout: 30_000 });
+    // The demo clinic runs chemistry and blood counts too: choose the test before the reader.
+    await tech.selectOption('#order-analyte', 'cCRP');
     await tech.selectOption('#order-instrument', { label: 'CRP reader (bench 1)' });
     await tech.fill('#order-started', String(725 / 60));
     await tech.click('button:has-text("Start test")');
@@ -67,7 +69,7 @@ describe('an anonymous reading matched by timing', () => {
     await tech.waitForSelector('[data-live-state=live]', { timeout: 60_000 });
     const techKept = await markAgainstReload(tech);
     const readingId = await anonymousReading(42, new Date());
-    const row = tech.locator(`tr[data-reading-id="${readingId}"]`);
+    const row = tech.locator(`[data-specimen-id]:has([data-reading-id="${readingId}"])`);
     await row.waitFor({ timeout: 60_000 });
     const match = row.locator('[data-testid=suggested-match]');
     await expect.poll(() => match.getAttribute('data-top-patient'), { timeout: 30_000 }).toBe(biscuitId);
@@ -107,7 +109,7 @@ describe('an anonymous reading matched by timing', () => {
 
     // 250 mg/L is above the demo clinic's critical limit of 100 mg/L (a clinic policy placeholder, no published source).
     const readingId = await anonymousReading(250, new Date());
-    const row = tech.locator(`tr[data-reading-id="${readingId}"]`);
+    const row = tech.locator(`[data-specimen-id]:has([data-reading-id="${readingId}"])`);
     await row.waitFor({ timeout: 60_000 });
     await row.locator('button:has-text("Assign…")').click();
     await tech.fill('#patient-search', 'Juniper');

@@ -103,8 +103,14 @@ export function launchBrowser(): Promise<Browser> {
 }
 
 /** Signs in through the real form in a fresh browser context. */
-export async function signInAs(browser: Browser, baseUrl: string, email: string, password = 'demo-only-pass'): Promise<Page> {
-  const context = await browser.newContext({ baseURL: baseUrl });
+export async function signInAs(
+  browser: Browser,
+  baseUrl: string,
+  email: string,
+  password = 'demo-only-pass',
+  options: { viewport?: { width: number; height: number } } = {},
+): Promise<Page> {
+  const context = await browser.newContext({ baseURL: baseUrl, ...(options.viewport ? { viewport: options.viewport } : {}) });
   const page = await context.newPage();
   await page.goto('/sign-in');
   await page.fill('#email', email);
@@ -147,4 +153,16 @@ export async function markAgainstReload(page: Page): Promise<() => Promise<boole
   const token = Math.random().toString(36).slice(2);
   await page.evaluate((t) => ((window as unknown as { __benchwireMark: string }).__benchwireMark = t), token);
   return async () => (await page.evaluate(() => (window as unknown as { __benchwireMark?: string }).__benchwireMark)) === token;
+}
+
+/** How far the page is wider than the window (0 when nothing scrolls sideways), and the elements that stick out. */
+export async function sidewaysOverflow(page: Page): Promise<{ overflow: number; culprits: string[] }> {
+  return page.evaluate(() => {
+    const width = document.documentElement.clientWidth;
+    const culprits = [...document.querySelectorAll<HTMLElement>('body *')]
+      .filter((el) => el.getBoundingClientRect().right > width + 1 && el.getClientRects().length > 0)
+      .slice(0, 5)
+      .map((el) => `${el.tagName.toLowerCase()}${el.id ? `#${el.id}` : ''}.${String(el.className).slice(0, 60)}`);
+    return { overflow: document.documentElement.scrollWidth - width, culprits };
+  });
 }

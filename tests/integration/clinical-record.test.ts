@@ -72,7 +72,8 @@ describe('critical results alert the attending veterinarian', () => {
     await assignTo(readingId, p.juniper);
     const [alert] = await database.db.select().from(resultAlerts).where(eq(resultAlerts.readingId, readingId));
     expect(alert).toMatchObject({ patientId: p.juniper, recipientId: vetId, kind: 'critical-high', threshold: 100, unit: 'mg/L', acknowledgedAt: null });
-    expect(alert.message).toBe('cCRP >200.0 mg/L for Juniper (FH-1002): above the critical limit 100 mg/L.');
+    // A ">" value is the instrument's upper measuring limit, shown as sent (no added decimal), as everywhere else.
+    expect(alert.message).toBe('cCRP >200 mg/L for Juniper (FH-1002): above the critical limit 100 mg/L.');
     alertId = alert.id;
     const event = await waitForEvent(events, (e) => e.type === 'alert.created' && e.id === alertId);
     expect(event).toMatchObject({ clinicId, patientId: p.juniper, userId: vetId });

@@ -16,7 +16,13 @@ interface Options {
   orderers: { id: string; displayName: string; role: string }[];
 }
 
-/** Start a test: patient, test, reader, sample, who ordered it, and when the run started. */
+/** A tube label to write on the sample: letters and digits that are hard to confuse (no 0/O, 1/I/L). */
+export function newTubeLabel(random: (n: number) => number = (n) => crypto.getRandomValues(new Uint32Array(1))[0] % n): string {
+  const alphabet = '23456789ABCDEFGHJKMNPQRSTUVWXYZ';
+  return `T-${Array.from({ length: 6 }, () => alphabet[random(alphabet.length)]).join('')}`;
+}
+
+/** Start a test: patient, test (or the reader's whole panel), reader, sample, who ordered it, and when the run started. */
 export function StartTestForm() {
   const actor = useActor();
   const options = useSWR<Options>('/api/orders/options', fetcher);
@@ -28,6 +34,7 @@ export function StartTestForm() {
   const [instrumentId, setInstrumentId] = useState('');
   const [sampleType, setSampleType] = useState('whole_blood');
   const [sampleId, setSampleId] = useState('');
+  const [wholePanel, setWholePanel] = useState(false);
   const [orderedBy, setOrderedBy] = useState('');
   const [minutesAgo, setMinutesAgo] = useState('0');
   const [failure, setFailure] = useState<string | null>(null);
@@ -40,6 +47,9 @@ export function StartTestForm() {
     chosenAnalyte?.protocols.find((p) => p.instrumentId === (instrumentId || null)) ?? chosenAnalyte?.protocols.find((p) => p.instrumentId === null);
   // Then and there: the test is not validated for this patient's species (a warning, never a block).
   const warning = patient && chosenAnalyte ? speciesWarning(chosenAnalyte, patient) : null;
+  // Every test of the chosen reader that has a run protocol: one sample, one run, several results.
+  const panelCodes = instrumentId ? (options.data?.analytes.filter((a) => a.instruments.some((i) => i.id === instrumentId)).map((a) => a.code) ?? []) : [];
+  const codes = wholePanel && panelCodes.length > 1 ? panelCodes : chosenAnalyte ? [chosenAnalyte.code] : [];
   const orderer = orderedBy || (actor.role === 'veterinarian' ? actor.userId : options.data?.orderers[0]?.id) || '';
   const minutes = Number(minutesAgo.replace(',', '.'));
   const now = useNow();
@@ -54,23 +64,29 @@ export function StartTestForm() {
     if (!Number.isFinite(minutes) || minutes < 0) return setFailure('Give how many minutes ago the run started (0 for now).');
     setSaving(true);
     const startedAt = minutes > 0 ? new Date(new Date().getTime() - minutes * 60_000).toISOString() : undefined;
+    const started: string[] = [];
     try {
-      await send('/api/orders', 'POST', {
-        patientId: patient.id,
-        analyte: chosenAnalyte.code,
-        instrumentId: instrumentId || undefined,
-        sampleType,
-        sampleId: sampleId || undefined,
-        orderedBy: orderer,
-        startedAt,
-      });
-      setDone(`${chosenAnalyte.code} started for ${patient.name} (${patient.recordNumber}).${warning ? ` ${warning}` : ''}`);
+      for (const code of codes) {
+        await send('/api/orders', 'POST', {
+          patientId: patient.id,
+          analyte: code,
+          instrumentId: instrumentId || undefined,
+          sampleType,
+          sampleId: sampleId || undefined,
+          orderedBy: orderer,
+          startedAt,
+        });
+        started.push(code);
+      }
+      setDone(`${started.join(', ')} started for ${patient.name} (${patient.recordNumber})${sampleId ? ` on tube ${sampleId}` : ''}.${warning ? ` ${warning}` : ''}`);
+      setWholePanel(false);
       setPatient(null);
       setQ('');
       setSampleId('');
       setMinutesAgo('0');
     } catch (error) {
-      setFailure(error instanceof Error ? error.message : 'Could not start the test.');
+      const message = error instanceof Error ? error.message : 'Could not start the test.';
+      setFailure(started.length ? `${message} (${started.join(', ')} did start; cancel them on the board if needed.)` : message);
     } finally {
       setSaving(false);
     }
@@ -159,9 +175,22 @@ export function StartTestForm() {
             </select>
           </Field>
           <Field id="order-sample-id" label="Tube label (optional)">
-            <input id="order-sample-id" className={inputClass} value={sampleId} onChange={(e) => setSampleId(e.target.value)} autoComplete="off" />
+            <div className="flex gap-2">
+              <input id="order-sample-id" className={`${inputClass} min-w-0`} value={sampleId} onChange={(e) => setSampleId(e.target.value)} autoComplete="off" />
+              <button type="button" className={buttonClass.secondary} onClick={() => setSampleId(newTubeLabel())} aria-label="Generate a tube label">
+                New
+              </button>
+            </div>
           </Field>
         </div>
+        {panelCodes.length > 1 && (
+          <label className="flex items-start gap-2 text-sm">
+            <input type="checkbox" className="mt-1" checked={wholePanel} onChange={(e) => setWholePanel(e.target.checked)} data-testid="whole-panel" />
+            <span>
+              Run the reader’s whole panel on this sample ({panelCodes.join(', ')})
+            </span>
+          </label>
+        )}
         <Field id="order-ordered-by" label="Ordered by">
           <select id="order-ordered-by" className={inputClass} value={orderer} onChange={(e) => setOrderedBy(e.target.value)}>
             {options.data?.orderers.map((s) => (
@@ -184,7 +213,7 @@ export function StartTestForm() {
         {failure && <Notice tone="error">{failure}</Notice>}
         {done && <Notice tone="ok">{done}</Notice>}
         <button type="submit" className={buttonClass.primary} disabled={saving || !options.data}>
-          Start test
+          {codes.length > 1 ? `Start ${codes.length} tests` : 'Start test'}
         </button>
       </form>
     </section>

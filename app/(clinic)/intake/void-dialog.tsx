@@ -3,23 +3,25 @@ import { useState } from 'react';
 import { Modal } from '@/app/components/modal';
 import { Field, Notice, buttonClass, inputClass } from '@/app/components/ui';
 import { send } from '@/lib/client/fetcher';
-import { voidSchema } from '@/lib/validation/api';
-import type { IntakeReading } from './intake-board';
-import { ReadingSummary } from './reading-summary';
+import { panelVoidSchema } from '@/lib/validation/api';
+import type { IntakeSpecimen } from './intake-board';
+import { SpecimenSummary } from './reading-summary';
 
-export function VoidDialog({ reading, onClose }: { reading: IntakeReading; onClose: (message?: string) => void }) {
+/** Voids every waiting reading of one sample, with one reason (each reading keeps it in its history). */
+export function VoidDialog({ specimen, onClose }: { specimen: IntakeSpecimen; onClose: (message?: string) => void }) {
+  const count = specimen.readings.length;
   const [reason, setReason] = useState('');
   const [failure, setFailure] = useState<string | null>(null);
   const [saving, setSaving] = useState(false);
 
   const submit = async (e: React.FormEvent) => {
     e.preventDefault();
-    const parsed = voidSchema.safeParse({ reason });
+    const parsed = panelVoidSchema.safeParse({ reason, readingIds: specimen.readings.map((r) => r.id) });
     if (!parsed.success) return setFailure(parsed.error.issues[0]?.message ?? 'Give a reason.');
     setSaving(true);
     try {
-      await send(`/api/readings/${reading.id}/void`, 'POST', parsed.data);
-      onClose('Reading voided; it stays in the audit trail with your reason.');
+      await send(`/api/specimens/${specimen.id}/void`, 'POST', parsed.data);
+      onClose(`${count === 1 ? 'Reading' : `${count} readings`} voided; the audit trail keeps them with your reason.`);
     } catch (error) {
       setFailure(error instanceof Error ? error.message : 'Could not void.');
       setSaving(false);
@@ -27,8 +29,8 @@ export function VoidDialog({ reading, onClose }: { reading: IntakeReading; onClo
   };
 
   return (
-    <Modal title="Void reading" onClose={() => onClose()}>
-      <ReadingSummary reading={reading} />
+    <Modal title={count === 1 ? 'Void reading' : `Void ${count} readings of this sample`} onClose={() => onClose()}>
+      <SpecimenSummary specimen={specimen} />
       <form onSubmit={submit} className="space-y-3" noValidate>
         <Field id="void-reason" label="Reason" hint="For example: control run, spoiled sample, duplicate slip." error={failure ?? undefined}>
           <textarea
@@ -47,7 +49,7 @@ export function VoidDialog({ reading, onClose }: { reading: IntakeReading; onClo
             Cancel
           </button>
           <button type="submit" className={buttonClass.danger} disabled={saving}>
-            Void reading
+            {count === 1 ? 'Void reading' : `Void ${count} readings`}
           </button>
         </div>
       </form>

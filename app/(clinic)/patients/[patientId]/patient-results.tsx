@@ -109,8 +109,9 @@ export function PatientResults({ patientId, patientName }: { patientId: string; 
               </div>
             ))}
           </div>
-          <div className="overflow-x-auto rounded-lg border border-ink-100 bg-white shadow-sm">
-            <table className="min-w-full divide-y divide-ink-100 text-sm" data-testid="patient-results">
+          {/* relative: keeps the visually hidden heading inside this box (absolutely placed, it would widen the page) */}
+          <div className="relative overflow-x-auto rounded-lg border border-ink-100 bg-white shadow-sm">
+            <table className="cards-on-phone min-w-full divide-y divide-ink-100 text-sm" data-testid="patient-results">
               <thead className="bg-paper-deep/60 text-left text-xs uppercase tracking-wide text-ink-700">
                 <tr>
                   <th scope="col" className="px-4 py-2">Measured</th>
@@ -129,9 +130,9 @@ export function PatientResults({ patientId, patientName }: { patientId: string; 
                   return (
                     <Fragment key={r.id}>
                       <tr data-reading-id={r.id} className={r.clinical.alert && !r.clinical.alert.acknowledged ? 'bg-alarm-100/50' : undefined}>
-                        <td className="whitespace-nowrap px-4 py-2">{formatDateTime(r.measuredAt ?? r.receivedAt)}</td>
-                        <td className="px-4 py-2 font-medium">{r.analyte}</td>
-                        <td className="whitespace-nowrap px-4 py-2 font-mono font-semibold" data-testid="result-value">
+                        <td data-label="Measured" className="whitespace-nowrap px-4 py-2">{formatDateTime(r.measuredAt ?? r.receivedAt)}</td>
+                        <td data-label="Test" className="px-4 py-2 font-medium">{r.analyte}</td>
+                        <td data-label="Result" className="whitespace-nowrap px-4 py-2 font-mono font-semibold" data-testid="result-value">
                           {r.clinical.qualitative ? r.clinical.qualitative.label : formatMeasured(r.clinical.display, a?.decimals ?? 1)}
                           {r.clinical.band && (
                             <span className="block font-sans text-xs font-normal text-ink-700" data-testid="result-band">
@@ -151,7 +152,7 @@ export function PatientResults({ patientId, patientName }: { patientId: string; 
                             </span>
                           )}
                         </td>
-                        <td className="px-4 py-2">
+                        <td data-label="Flag" className="px-4 py-2">
                           <FlagBadge result={r} />
                           {r.clinical.delta && (
                             <span className="ml-1 inline-block rounded bg-signal-100 px-1.5 py-0.5 text-xs font-semibold text-signal-600" title={r.clinical.delta.text} data-testid="delta-flag">
@@ -161,10 +162,10 @@ export function PatientResults({ patientId, patientName }: { patientId: string; 
                           )}
                           <QualityMarks marks={r.quality} />
                         </td>
-                        <td className="whitespace-nowrap px-4 py-2 font-mono text-xs" data-testid="result-change">
+                        <td data-label="Change from previous" className="whitespace-nowrap px-4 py-2 font-mono text-xs" data-testid="result-change">
                           {r.clinical.change?.text ?? '—'}
                         </td>
-                        <td className="px-4 py-2 text-xs">
+                        <td data-label="Review" className="px-4 py-2 text-xs">
                           {r.clinical.reviewed ? (
                             <span className="text-moss-700">Reviewed by {r.clinical.reviewed.by}</span>
                           ) : (
@@ -172,7 +173,7 @@ export function PatientResults({ patientId, patientName }: { patientId: string; 
                           )}
                           {r.clinical.comments.length > 0 && <span className="block text-ink-500">{r.clinical.comments.length} comment(s)</span>}
                         </td>
-                        <td className="px-4 py-2">{r.instrumentName ?? r.instrumentCode}</td>
+                        <td data-label="Instrument" className="px-4 py-2">{r.instrumentName ?? r.instrumentCode}</td>
                         <td className="px-4 py-2 text-right">
                           <button
                             type="button"

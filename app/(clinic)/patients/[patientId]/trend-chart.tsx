@@ -2,7 +2,7 @@
 // One analyte's results over time, with the reference band. A value printed with a comparator is drawn
 // as a triangle pointing the way the true value lies (▼ for "<5", ▲ for ">200"), never as a plain point.
 import { CartesianGrid, ComposedChart, Line, ReferenceArea, ReferenceLine, ResponsiveContainer, Tooltip, XAxis, YAxis } from 'recharts';
-import { formatMeasured } from '@/lib/format';
+import { formatMeasured, niceTicks, unitLabel } from '@/lib/format';
 import type { ChartAnalyte, ChartResult } from './patient-results';
 
 interface Point {
@@ -49,17 +49,18 @@ export function TrendChart({ analyte, results }: { analyte: ChartAnalyte; result
     .sort((a, b) => a.t - b.t);
   if (points.length === 0) return null;
   const interval = analyte.interval;
-  const top = Math.max(...points.map((p) => p.y), interval?.high ?? 0, interval?.criticalHigh ?? 0) * 1.1 || 1;
+  const ticks = niceTicks(Math.max(...points.map((p) => p.y), interval?.high ?? 0, interval?.criticalHigh ?? 0) * 1.05);
+  const top = ticks[ticks.length - 1];
   return (
     <figure className="rounded-lg border border-ink-100 bg-white p-3 shadow-sm" data-testid="trend-chart" data-analyte={analyte.code}>
       <figcaption className="mb-2 flex flex-wrap items-baseline justify-between gap-2 text-sm">
         <span className="font-semibold">
-          {analyte.name} <span className="font-normal text-ink-700">({analyte.unit})</span>
+          {analyte.name} <span className="font-normal text-ink-700" title={`UCUM ${analyte.unit}`}>({unitLabel(analyte.unit)})</span>
         </span>
         <span className="text-xs text-ink-500">
           {interval && (interval.low !== null || interval.high !== null) && (
             <>
-              Shaded: reference interval {interval.low ?? 0}–{interval.high ?? '∞'} {analyte.unit}
+              Shaded: reference interval {interval.low ?? 0}–{interval.high ?? '∞'} {unitLabel(analyte.unit)}
               {interval.criticalHigh !== null && <> · dashed: critical {interval.criticalHigh}</>} ·{' '}
             </>
           )}
@@ -78,9 +79,9 @@ export function TrendChart({ analyte, results }: { analyte: ChartAnalyte; result
               tickFormatter={(t: number) => new Date(t).toLocaleDateString(undefined, { day: 'numeric', month: 'short' })}
               fontSize={11}
             />
-            <YAxis domain={[0, Math.ceil(top)]} fontSize={11} width={40} />
+            <YAxis domain={[0, top]} ticks={ticks} interval={0} fontSize={11} width={44} />
             {interval && (interval.low !== null || interval.high !== null) && (
-              <ReferenceArea y1={interval.low ?? 0} y2={interval.high ?? Math.ceil(top)} fill="#e1f1e6" fillOpacity={0.8} ifOverflow="extendDomain" />
+              <ReferenceArea y1={interval.low ?? 0} y2={interval.high ?? top} fill="#e1f1e6" fillOpacity={0.8} ifOverflow="extendDomain" />
             )}
             {interval?.criticalHigh != null && <ReferenceLine y={interval.criticalHigh} stroke="#a52a2a" strokeDasharray="4 4" />}
             {interval?.criticalLow != null && <ReferenceLine y={interval.criticalLow} stroke="#a52a2a" strokeDasharray="4 4" />}
