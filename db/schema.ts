@@ -632,6 +632,24 @@ export const resultReports = pgTable(
   ],
 );
 
+/** A system that reads results over the FHIR API (a practice-management system, a referral lab). */
+export const integrationTokens = pgTable(
+  'integration_tokens',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    name: text().notNull(),
+    /** sha256 of the bearer token, as for bridges (256-bit random tokens). */
+    tokenHash: text().notNull(),
+    tokenHint: text().notNull(),
+    createdBy: uuid().references(() => staffUsers.id, { onDelete: 'set null' }),
+    createdAt: createdAt(),
+    revokedAt: timestamp({ withTimezone: true }),
+    lastUsedAt: timestamp({ withTimezone: true }),
+  },
+  (t) => [uniqueIndex('integration_tokens_hash_key').on(t.tokenHash), index('integration_tokens_clinic_idx').on(t.clinicId)],
+);
+
 export type Clinic = typeof clinics.$inferSelect;
 export type StaffUser = typeof staffUsers.$inferSelect;
 export type StaffSession = typeof staffSessions.$inferSelect;
@@ -653,5 +671,6 @@ export type ResultReview = typeof resultReviews.$inferSelect;
 export type ResultAlert = typeof resultAlerts.$inferSelect;
 export type OutboundMail = typeof outboundMail.$inferSelect;
 export type ResultReport = typeof resultReports.$inferSelect;
+export type IntegrationToken = typeof integrationTokens.$inferSelect;
 export type Species = (typeof species.enumValues)[number];
 export type SampleType = (typeof sampleType.enumValues)[number];

@@ -6,6 +6,7 @@ import { AlertsMailPanel } from './alerts-mail-panel';
 import { BridgesPanel } from './bridges-panel';
 import { ClinicalPanel } from './clinical-panel';
 import { InstrumentsPanel } from './instruments-panel';
+import { IntegrationsPanel } from './integrations-panel';
 import { PatientImportPanel } from './patient-import-panel';
 import { StaffPanel } from './staff-panel';
 
@@ -27,6 +28,7 @@ export default async function AdminPage() {
         <ClinicalPanel />
         <AlertsMailPanel />
         <PatientImportPanel />
+        <IntegrationsPanel />
       </div>
     </>
   );

@@ -1,0 +1,16 @@
+CREATE TABLE "integration_tokens" (
+	"id" uuid PRIMARY KEY DEFAULT gen_random_uuid() NOT NULL,
+	"clinic_id" uuid NOT NULL,
+	"name" text NOT NULL,
+	"token_hash" text NOT NULL,
+	"token_hint" text NOT NULL,
+	"created_by" uuid,
+	"created_at" timestamp with time zone DEFAULT now() NOT NULL,
+	"revoked_at" timestamp with time zone,
+	"last_used_at" timestamp with time zone
+);
+--> statement-breakpoint
+ALTER TABLE "integration_tokens" ADD CONSTRAINT "integration_tokens_clinic_id_clinics_id_fk" FOREIGN KEY ("clinic_id") REFERENCES "public"."clinics"("id") ON DELETE restrict ON UPDATE no action;--> statement-breakpoint
+ALTER TABLE "integration_tokens" ADD CONSTRAINT "integration_tokens_created_by_staff_users_id_fk" FOREIGN KEY ("created_by") REFERENCES "public"."staff_users"("id") ON DELETE set null ON UPDATE no action;--> statement-breakpoint
+CREATE UNIQUE INDEX "integration_tokens_hash_key" ON "integration_tokens" USING btree ("token_hash");--> statement-breakpoint
+CREATE INDEX "integration_tokens_clinic_idx" ON "integration_tokens" USING btree ("clinic_id");
