@@ -31,7 +31,7 @@ const fhir = new Fhir();
 /** FHIR.js validation: no error-level messages against the R4 definitions. */
 function expectValidR4(resource: Record<string, unknown>) {
   const result = fhir.validate(resource, { errorOnUnexpected: true });
-  const errors = result.messages.filter((m: { severity: string }) => m.severity === 'error');
+  const errors = (result.messages ?? []).filter((m) => m.severity === 'error');
   expect(errors, JSON.stringify(errors, null, 1)).toEqual([]);
   expect(result.valid).toBe(true);
 }
