@@ -650,6 +650,30 @@ export const integrationTokens = pgTable(
   (t) => [uniqueIndex('integration_tokens_hash_key').on(t.tokenHash), index('integration_tokens_clinic_idx').on(t.clinicId)],
 );
 
+/** Single-use, expiring links for staff: an invitation to set a first password, or a password reset. */
+export const staffTokens = pgTable(
+  'staff_tokens',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    userId: uuid()
+      .notNull()
+      .references(() => staffUsers.id, { onDelete: 'cascade' }),
+    purpose: text().$type<'invite' | 'reset'>().notNull(),
+    /** sha256 of the 256-bit random token; the token itself is only in the e-mail. */
+    tokenHash: text().notNull(),
+    expiresAt: timestamp({ withTimezone: true }).notNull(),
+    usedAt: timestamp({ withTimezone: true }),
+    createdBy: uuid().references(() => staffUsers.id, { onDelete: 'set null' }),
+    createdAt: createdAt(),
+  },
+  (t) => [
+    uniqueIndex('staff_tokens_hash_key').on(t.tokenHash),
+    index('staff_tokens_user_idx').on(t.userId),
+    check('staff_tokens_purpose', sql`${t.purpose} in ('invite', 'reset')`),
+  ],
+);
+
 export type Clinic = typeof clinics.$inferSelect;
 export type StaffUser = typeof staffUsers.$inferSelect;
 export type StaffSession = typeof staffSessions.$inferSelect;

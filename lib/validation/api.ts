@@ -149,3 +149,19 @@ export const previewProfileSchema = z.object({
   definition: profileDefinitionSchema,
   sample: z.string().max(256 * 1024, 'Paste at most 256 KB of printout.'),
 });
+
+/** An administrator invites a staff member by e-mail; they choose their own password from the link. */
+export const inviteStaffSchema = z.object({
+  displayName: z.string().trim().min(2, 'Enter the name.').max(120),
+  email: emailAddress,
+  role: z.enum(ROLES),
+});
+export type InviteStaffInput = z.infer<typeof inviteStaffSchema>;
+
+export const resetRequestSchema = z.object({ email: emailAddress });
+
+/** Setting a password from an invitation or reset link. */
+export const setPasswordSchema = z.object({
+  token: z.string().min(20, 'This link is incomplete.').max(200),
+  password,
+});

@@ -6,6 +6,7 @@ import { AlertsMailPanel } from './alerts-mail-panel';
 import { BridgesPanel } from './bridges-panel';
 import { ClinicalPanel } from './clinical-panel';
 import { InstrumentsPanel } from './instruments-panel';
+import { InvitePanel } from './invite-panel';
 import { IntegrationsPanel } from './integrations-panel';
 import { PatientImportPanel } from './patient-import-panel';
 import { StaffPanel } from './staff-panel';
@@ -23,6 +24,7 @@ export default async function AdminPage() {
       </PageHeader>
       <div className="space-y-10">
         <StaffPanel selfId={actor.userId} />
+        <InvitePanel />
         <BridgesPanel />
         <InstrumentsPanel />
         <ClinicalPanel />
