@@ -850,6 +850,48 @@ export const resultReports = pgTable(
   ],
 );
 
+/** A system that reads results over the FHIR API (a practice-management system, a referral lab). */
+export const integrationTokens = pgTable(
+  'integration_tokens',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    name: text().notNull(),
+    /** sha256 of the bearer token, as for bridges (256-bit random tokens). */
+    tokenHash: text().notNull(),
+    tokenHint: text().notNull(),
+    createdBy: uuid().references(() => staffUsers.id, { onDelete: 'set null' }),
+    createdAt: createdAt(),
+    revokedAt: timestamp({ withTimezone: true }),
+    lastUsedAt: timestamp({ withTimezone: true }),
+  },
+  (t) => [uniqueIndex('integration_tokens_hash_key').on(t.tokenHash), index('integration_tokens_clinic_idx').on(t.clinicId)],
+);
+
+/** Single-use, expiring links for staff: an invitation to set a first password, or a password reset. */
+export const staffTokens = pgTable(
+  'staff_tokens',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    userId: uuid()
+      .notNull()
+      .references(() => staffUsers.id, { onDelete: 'cascade' }),
+    purpose: text().$type<'invite' | 'reset'>().notNull(),
+    /** sha256 of the 256-bit random token; the token itself is only in the e-mail. */
+    tokenHash: text().notNull(),
+    expiresAt: timestamp({ withTimezone: true }).notNull(),
+    usedAt: timestamp({ withTimezone: true }),
+    createdBy: uuid().references(() => staffUsers.id, { onDelete: 'set null' }),
+    createdAt: createdAt(),
+  },
+  (t) => [
+    uniqueIndex('staff_tokens_hash_key').on(t.tokenHash),
+    index('staff_tokens_user_idx').on(t.userId),
+    check('staff_tokens_purpose', sql`${t.purpose} in ('invite', 'reset')`),
+  ],
+);
+
 export type Clinic = typeof clinics.$inferSelect;
 export type StaffUser = typeof staffUsers.$inferSelect;
 export type StaffSession = typeof staffSessions.$inferSelect;
@@ -873,6 +915,7 @@ export type ResultAlert = typeof resultAlerts.$inferSelect;
 export type OutboundMail = typeof outboundMail.$inferSelect;
 export type ResultReport = typeof resultReports.$inferSelect;
 export type PatientStatus = (typeof patientStatus.enumValues)[number];
+export type IntegrationToken = typeof integrationTokens.$inferSelect;
 export type Species = (typeof species.enumValues)[number];
 export type SampleType = (typeof sampleType.enumValues)[number];
 

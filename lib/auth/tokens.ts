@@ -3,11 +3,16 @@ import { createHash, randomBytes } from 'node:crypto';
 
 const PREFIX = 'bwb_';
 
-/** A new bridge token: shown once to the admin, stored only as its hash. */
-export function newBridgeToken(): { token: string; hash: string; hint: string } {
-  const token = PREFIX + randomBytes(32).toString('base64url');
-  return { token, hash: hashBridgeToken(token), hint: token.slice(0, PREFIX.length + 6) };
+/** A new bearer token: shown once to the admin, stored only as its hash. */
+function newToken(prefix: string): { token: string; hash: string; hint: string } {
+  const token = prefix + randomBytes(32).toString('base64url');
+  return { token, hash: hashBridgeToken(token), hint: token.slice(0, prefix.length + 6) };
 }
+
+export const newBridgeToken = () => newToken(PREFIX);
+
+/** For systems reading the FHIR API; hashed and looked up the same way as bridge tokens. */
+export const newIntegrationToken = () => newToken('bwf_');
 
 export function hashBridgeToken(token: string): string {
   return createHash('sha256').update(token, 'utf8').digest('hex');

@@ -72,6 +72,8 @@ export function isPermanentFailure(error: unknown): boolean {
   return typeof code === 'number' && code >= 500 && code < 600;
 }
 
+const SECRET_PURPOSES = new Set(['invitation', 'password-reset']);
+
 export const DEFAULT_MAIL_FROM = 'Benchwire <no-reply@benchwire.invalid>';
 
 /** The SMTP transport from SMTP_URL (e.g. smtp://127.0.0.1:2525), or null when none is configured. */
@@ -129,9 +131,11 @@ export async function deliverDueMail(options: { now?: Date; transport?: Transpor
     await database.transaction(async (tx) => {
       const attempts = mail.attempts + 1;
       if (outcome.ok) {
+        // A message that carries a sign-in link keeps no copy of it once delivered.
+        const redact = SECRET_PURPOSES.has(mail.purpose) ? { textBody: '(the link was removed after sending)', htmlBody: null } : {};
         await tx
           .update(outboundMail)
-          .set({ status: 'sent', attempts, lastAttemptAt: now, sentAt: now, messageId: outcome.messageId, lastError: null })
+          .set({ status: 'sent', attempts, lastAttemptAt: now, sentAt: now, messageId: outcome.messageId, lastError: null, ...redact })
           .where(eq(outboundMail.id, mail.id));
         await recordAudit(tx, { clinicId: mail.clinicId, action: 'mail.sent', entityType: 'mail', entityId: mail.id, details: { attempts, messageId: outcome.messageId } });
         sent += 1;

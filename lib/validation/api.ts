@@ -244,3 +244,19 @@ export const auditQuery = z
     limit: z.coerce.number().int().min(1).max(200).default(50),
   })
   .refine((v) => !v.from || !v.to || v.from <= v.to, { path: ['to'], message: 'The end date is before the start date.' });
+
+/** An administrator invites a staff member by e-mail; they choose their own password from the link. */
+export const inviteStaffSchema = z.object({
+  displayName: text(120, { min: 2, minMessage: 'Enter the name.' }),
+  email: emailAddress,
+  role: z.enum(ROLES),
+});
+export type InviteStaffInput = z.infer<typeof inviteStaffSchema>;
+
+export const resetRequestSchema = z.object({ email: emailAddress });
+
+/** Setting a password from an invitation or reset link. */
+export const setPasswordSchema = z.object({
+  token: z.string().min(20, 'This link is incomplete.').max(200),
+  password,
+});

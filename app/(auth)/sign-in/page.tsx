@@ -1,4 +1,5 @@
 import type { Metadata } from 'next';
+import Link from 'next/link';
 import { redirect } from 'next/navigation';
 import { currentActor } from '@/lib/auth/current';
 import { clinicCount } from '@/lib/staff';
@@ -21,6 +22,11 @@ export default async function SignInPage({ searchParams }: { searchParams: Promi
         </div>
       )}
       <SignInForm />
+      <p className="mt-4 text-sm">
+        <Link href="/forgot-password" className="text-ink-700 underline-offset-2 hover:underline">
+          Forgot your password?
+        </Link>
+      </p>
     </>
   );
 }

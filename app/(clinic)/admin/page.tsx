@@ -8,6 +8,8 @@ import { ClinicalPanel } from './clinical-panel';
 import { InstrumentHealthPanel } from './instrument-health';
 import { InstrumentsPanel } from './instruments-panel';
 import { MatchingReportPanel } from './matching-report-panel';
+import { InvitePanel } from './invite-panel';
+import { IntegrationsPanel } from './integrations-panel';
 import { PatientImportPanel } from './patient-import-panel';
 import { StaffPanel } from './staff-panel';
 
@@ -29,6 +31,7 @@ export default async function AdminPage() {
       </PageHeader>
       <div className="space-y-10">
         <StaffPanel selfId={actor.userId} />
+        <InvitePanel />
         <BridgesPanel />
         <InstrumentsPanel />
         <InstrumentHealthPanel />
@@ -36,6 +39,7 @@ export default async function AdminPage() {
         <MatchingReportPanel />
         <AlertsMailPanel />
         <PatientImportPanel />
+        <IntegrationsPanel />
       </div>
     </>
   );
