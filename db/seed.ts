@@ -219,7 +219,9 @@ export async function seedDemoClinic(db: Db): Promise<{ clinicId: string; bridge
         speciesNote: 'Demo analyzer: validated for dogs and cats (invented).',
         updatedBy: admin.id,
       })),
-    );
+    )
+      // The clinical defaults may already hold these tests (with their intervals' sources): keep those.
+      .onConflictDoNothing();
     await tx.insert(runProtocols).values(
       DEMO_ANALYTES.map(([code]) => {
         const chem = CHEMISTRY_CODES.includes(code);

@@ -77,23 +77,30 @@ function isExactlyJson(type: string): boolean {
  * another origin (403), or with a body that is not exactly application/json (415; a form or text/plain
  * post needs no preflight, JSON does).
  */
-export function checkStateChangingRequest(request: Request): void {
+export function checkStateChangingRequest(request: Request, options: RouteOptions = {}): void {
   if (SAFE_METHODS.has(request.method.toUpperCase())) return;
   const reason = crossSiteReason(request.headers, request.url);
   if (reason) throw new ApiError(403, 'cross_site_request', `Refused: ${reason}. Use Benchwire from its own address.`);
   // Without a Content-Type there is nothing a route will read (readJson requires the type too).
   const type = request.headers.get('content-type');
+  // A file upload route takes multipart/form-data; the origin check above is what guards it.
+  if (type !== null && options.upload && type.toLowerCase().startsWith('multipart/form-data')) return;
   if (type !== null && !isExactlyJson(type)) {
     throw new ApiError(415, 'unsupported_media_type', 'Send the body as JSON (Content-Type: application/json).');
   }
 }
 
 /** Wraps a route handler so every failure becomes a JSON error with the right status. */
-export function apiRoute<Ctx = unknown>(handler: (request: Request, context: Ctx) => Promise<Response>) {
+export interface RouteOptions {
+  /** The route takes a file as multipart/form-data (same-origin only, like every write). */
+  upload?: boolean;
+}
+
+export function apiRoute<Ctx = unknown>(handler: (request: Request, context: Ctx) => Promise<Response>, options: RouteOptions = {}) {
   return async (request: Request, context: Ctx): Promise<Response> => {
     let response: Response;
     try {
-      checkStateChangingRequest(request);
+      checkStateChangingRequest(request, options);
       response = await handler(request, context);
     } catch (error) {
       response = errorResponse(error);

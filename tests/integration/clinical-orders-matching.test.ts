@@ -258,7 +258,7 @@ describe('moving a reading off a finished run', () => {
     return { order, readingId };
   };
   const move = (readingId: string, extra: Record<string, unknown> = {}) =>
-    reassign.POST(request('/api/readings/x/reassign', { cookie: cookies.tech, body: { patientId: ids.pepper, reason: 'Tube was Pepper’s', ...extra } }), params({ readingId }));
+    reassign.POST(request('/api/readings/x/reassign', { cookie: cookies.tech, body: { patientId: ids.pepper, fromPatientId: ids.juniper, reason: 'Tube was Pepper’s', ...extra } }), params({ readingId }));
 
   it('closes the run as used with no reading, unless told otherwise; audited', async () => {
     const { order, readingId } = await assignedReading();

@@ -58,7 +58,7 @@ describe('results taken off a chart', () => {
     await assignTo(readingId, p.biscuit);
     await ok(await reviews.POST(request('/api/readings/x/reviews', { cookie: c.vet, body: { reviewed: true, comment: 'Fits Biscuit’s history' } }), params({ readingId })), 201);
     await ok(
-      await reassign.POST(request('/api/readings/x/reassign', { cookie: c.tech, body: { patientId: p.juniper, reason: 'Tube label was Juniper’s' } }), params({ readingId })),
+      await reassign.POST(request('/api/readings/x/reassign', { cookie: c.tech, body: { patientId: p.juniper, fromPatientId: p.biscuit, reason: 'Tube label was Juniper’s' } }), params({ readingId })),
     );
 
     expect(await chartIds(p.biscuit)).not.toContain(readingId);
@@ -103,10 +103,10 @@ describe('results taken off a chart', () => {
   it('a result moved away and back is a current result again, not a taken-off one', async () => {
     const readingId = await newReading();
     await assignTo(readingId, p.moss);
-    const move = (patientId: string) =>
-      reassign.POST(request('/api/readings/x/reassign', { cookie: c.tech, body: { patientId, reason: 'Checking the label' } }), params({ readingId }));
-    await ok(await move(p.biscuit));
-    await ok(await move(p.moss));
+    const move = (patientId: string, fromPatientId: string) =>
+      reassign.POST(request('/api/readings/x/reassign', { cookie: c.tech, body: { patientId, fromPatientId, reason: 'Checking the label' } }), params({ readingId }));
+    await ok(await move(p.biscuit, p.moss));
+    await ok(await move(p.moss, p.biscuit));
     expect(await chartIds(p.moss)).toContain(readingId);
     expect((await takenOff(p.moss)).map((e: { readingId: string }) => e.readingId)).not.toContain(readingId);
   });

@@ -198,7 +198,7 @@ describe('merging two records of one animal', () => {
     // r1 signed off on the duplicate; r3 taken off the duplicate (moved to another patient).
     expect((await reviews.POST(request('/api/readings/x/reviews', { cookie: c.vet, body: { reviewed: true, comment: 'Seen' } }), params({ readingId: r1 }))).status).toBe(201);
     expect(
-      (await reassign.POST(request('/api/readings/x/reassign', { cookie: c.tech, body: { patientId: other.id, reason: 'Wrong dog' } }), params({ readingId: r3 }))).status,
+      (await reassign.POST(request('/api/readings/x/reassign', { cookie: c.tech, body: { patientId: other.id, fromPatientId: dup.id, reason: 'Wrong dog' } }), params({ readingId: r3 }))).status,
     ).toBe(200);
     const trailBefore = new Map<string, string[]>();
     for (const id of [r1, r2, r3]) trailBefore.set(id, (await auditFor('reading', id)).map((a) => a.action));

@@ -48,6 +48,7 @@ describe('coalescing live events into refetches', () => {
   });
 
   it('a new reading touches no patient record, review list, alert list or test', () => {
-    expect(created('r1')).toEqual(['/api/readings']);
+    // Instrument health shows each instrument's last reading, so it refreshes too; nothing patient-, review- or alert-wide does.
+    expect(created('r1')).toEqual(['/api/readings', '/api/quality/health']);
   });
 });

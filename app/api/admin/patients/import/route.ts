@@ -29,4 +29,4 @@ export const POST = apiRoute(async (request) => {
   };
   if (options.step === 'preview') return json(await previewPatientImport(actor, input));
   return json(await commitPatientImport(actor, { ...input, skipInvalid: options.skipInvalid === 'true' }));
-});
+}, { upload: true });
