@@ -8,6 +8,7 @@ import { ApiError, notFound } from '@/lib/http';
 import { publish } from '@/lib/live/bus';
 import { sameUnit } from '@/lib/clinical/units';
 import { specimenFor } from '@/lib/readings/specimens';
+import { applyQualityOnIngest } from '@/lib/quality/ingest-step';
 import type { TranscribeCaptureInput } from '@/lib/validation/api';
 
 /** The units a test may be typed in: the one its intervals are kept in and the one the clinic reads it in. */
@@ -86,7 +87,7 @@ export async function transcribeCapture(actor: Actor, captureId: string, input: 
     }
     const measuredAt = input.measuredAt ? new Date(input.measuredAt) : null;
     const specimenId = await specimenFor(tx, { ...capture, sampleId: input.sampleId, patientRef: null, measuredAt });
-    const [reading] = await tx
+    const [inserted] = await tx
       .insert(readings)
       .values({
         specimenId,
@@ -106,7 +107,10 @@ export async function transcribeCapture(actor: Actor, captureId: string, input: 
         receivedAt: capture.receivedAt,
         raw: capture.raw,
       })
-      .returning({ id: readings.id });
+      .returning();
+    // Lab quality as for any other reading: QC recognition by sample ID, kit lot, QC-failed and expiry marks.
+    await applyQualityOnIngest(tx, inserted, {});
+    const reading = inserted;
     await tx
       .update(unparsedCaptures)
       .set({
