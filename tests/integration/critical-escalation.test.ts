@@ -127,7 +127,7 @@ describe('escalation by e-mail after the set time', () => {
     await deliverDueMail({ now: t(10 * 60_000), transport: transportFromEnv({ SMTP_URL: sink.url }) });
     const received = (await sink.waitForMessages(1)).find((m) => m.headers.get('x-benchwire-mail-id') === mail.id)!;
     expect(received.subject).toBe('Critical result not acknowledged for 10 min: Juniper (FH-1002)');
-    expect(received.text).toContain('cCRP >200.0 mg/L for Juniper (FH-1002): above the critical limit 100 mg/L.');
+    expect(received.text).toContain('cCRP >200 mg/L for Juniper (FH-1002): above the critical limit 100 mg/L.');
     expect(received.text).toContain('never replace');
     const to = (Array.isArray(received.to) ? received.to : [received.to]).flatMap((a) => a!.value.map((v) => v.address));
     expect(to).toEqual(['duty-phone@fernhollow.example', 'manager@fernhollow.example']);

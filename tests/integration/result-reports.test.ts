@@ -70,7 +70,7 @@ describe('the PDF of a visit', () => {
     expect(text).toContain('Biscuit (FH-1001)');
     expect(text).toMatch(/Labrador Retriever/);
     expect(text).toMatch(/Owner/);
-    expect(text).toMatch(/<5\.0/); // the latest demo result, as printed
+    expect(text).toMatch(/<5 mg\/L/); // the latest demo result, as the analyzer gave the limit (no false decimal)
     expect(text).toContain('mg/L');
     expect(text).toContain('up to 10.0'); // the canine interval (no lower limit set)
     expect(text).toMatch(/Trend \(5 results/); // the serial results of the same test
@@ -132,7 +132,7 @@ describe('sending a reviewed report', () => {
     expect(received.subject).toBe(`Laboratory results for Biscuit (FH-1001), ${visitDate}`);
     expect(received.text).toContain('Dear Dr. Quill,');
     expect(received.text).toContain('As discussed.');
-    expect(received.text).toContain('C-reactive protein (canine): <5.0 mg/L (interval up to 10.0)');
+    expect(received.text).toContain('C-reactive protein (canine): <5 mg/L (interval up to 10.0)');
     expect(received.text).toContain('never replace');
     expect(received.html).toContain('<strong>Biscuit</strong>');
     expect(received.attachments).toHaveLength(1);
