@@ -26,7 +26,13 @@ export function checkUnit(printed: string | null | undefined): UnitCheck {
   if (!printed || !printed.trim()) return { ok: false, message: 'No unit was printed.' };
   const known = checked.get(printed);
   if (known) return known;
-  const answer = parseUnit(printed);
+  let answer: UnitCheck;
+  try {
+    answer = parseUnit(printed);
+  } catch {
+    // ucum-lhc can throw on odd input instead of reporting it: such a string is no unit we can read.
+    answer = { ok: false, message: `"${printed}" is not a UCUM unit.` };
+  }
   if (checked.size >= MAX_CHECKED) checked.clear();
   checked.set(printed, answer);
   return answer;
@@ -60,7 +66,13 @@ export function convert(value: number, from: string, to: string): Conversion {
   const target = checkUnit(to);
   if (!target.ok) return target;
   if (source.ucum === target.ucum) return { ok: true, value };
-  const result = utils.convertUnitTo(source.ucum, value, target.ucum);
+  let result: ReturnType<typeof utils.convertUnitTo>;
+  try {
+    result = utils.convertUnitTo(source.ucum, value, target.ucum);
+  } catch {
+    // ucum-lhc throws (rather than reporting) on some unit pairs it validated one by one: not convertible.
+    return { ok: false, message: `Cannot convert ${from} to ${to}.` };
+  }
   if (result.status !== 'succeeded' || result.toVal === null || !Number.isFinite(result.toVal)) {
     return { ok: false, message: result.msg[0] ?? `Cannot convert ${from} to ${to}.` };
   }

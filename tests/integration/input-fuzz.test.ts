@@ -243,7 +243,7 @@ describe('dates are real and in range', () => {
   it('a transcribed measuredAt of year 0000 is a 400 naming measuredAt', async () => {
     const { POST } = await import('@/app/api/captures/[captureId]/transcribe/route');
     const response = await POST(
-      request('/api/captures/x/transcribe', { cookie: adminCookie, body: { analyte: 'cCRP', value: 1, measuredAt: '0000-01-01T00:00:00Z' } }),
+      request('/api/captures/x/transcribe', { cookie: adminCookie, body: { analyte: 'cCRP', value: 1, unit: 'mg/L', measuredAt: '0000-01-01T00:00:00Z' } }),
       params({ captureId: realIds.captureId }),
     );
     expect(response.status).toBe(400);

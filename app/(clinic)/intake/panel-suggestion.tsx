@@ -6,7 +6,7 @@ import { buttonClass } from '@/app/components/ui';
 import { send } from '@/lib/client/fetcher';
 import type { Candidate, Suggestion } from '@/lib/clinical/matching';
 import type { IntakeSpecimen } from './intake-board';
-import { ProbabilityBadge, Reasons } from './suggested-match';
+import { IdMatchChip, ProbabilityBadge, Reasons } from './suggested-match';
 
 /** The running tests of this patient that the panel's readings fulfil, per the ranked candidates. */
 export function panelOrders(specimen: IntakeSpecimen, suggestions: Record<string, Suggestion> | undefined, patientId: string) {
@@ -57,6 +57,7 @@ export function PanelSuggestion({
     <div data-testid="suggested-match" data-confident={confident ? 'true' : 'false'} data-top-patient={confident ? top.patientId : undefined}>
       <div className="flex flex-wrap items-center gap-2">
         <ProbabilityBadge candidate={top} confident={confident} />
+        <IdMatchChip candidate={top} />
         <span className="font-semibold">{top.patientName}</span>
         <span className="font-mono text-xs text-ink-700">{top.recordNumber}</span>
       </div>

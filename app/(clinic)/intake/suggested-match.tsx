@@ -25,6 +25,12 @@ export function ProbabilityBadge({ candidate, confident }: { candidate: Candidat
   );
 }
 
+/** A short visible mark when a printed ID, not timing, names this candidate. */
+export function IdMatchChip({ candidate }: { candidate: Candidate }) {
+  if (!candidate.reasons.some((r) => r.code === 'sample-id-match' || r.code === 'record-id-match')) return null;
+  return <span className="rounded bg-moss-100 px-1.5 py-0.5 text-[11px] font-semibold text-moss-700">ID match</span>;
+}
+
 export function Reasons({ candidate }: { candidate: Candidate }) {
   return (
     <ul className="mt-1 space-y-0.5 text-xs" data-testid="match-reasons">
@@ -79,6 +85,7 @@ export function SuggestedMatch({
       <div className="min-w-64 max-w-md" data-testid="suggested-match" data-confident="true" data-top-patient={top.patientId}>
         <div className="flex flex-wrap items-center gap-2">
           <ProbabilityBadge candidate={top} confident />
+          <IdMatchChip candidate={top} />
           <span className="font-semibold">{top.patientName}</span>
           <span className="font-mono text-xs text-ink-700">{top.recordNumber}</span>
           <button type="button" className={buttonClass.secondary} data-testid="confirm-suggestion" data-patient-id={top.patientId} disabled={saving} onClick={() => confirm(top)}>
