@@ -57,7 +57,7 @@ describe('suggestions a technician can trust', () => {
     await tech.goto('/intake');
     await tech.waitForSelector('[data-live-state=live]', { timeout: 60_000 });
     const first = await anonymousReading(12, new Date());
-    const row = tech.locator(`tr[data-reading-id="${first}"]`);
+    const row = tech.locator(`[data-specimen-id]:has([data-reading-id="${first}"])`);
     await row.waitFor({ timeout: 60_000 });
     const match = row.locator('[data-testid=suggested-match]');
     await expect.poll(() => match.getAttribute('data-confident'), { timeout: 30_000 }).toBe('false');
@@ -75,7 +75,7 @@ describe('suggestions a technician can trust', () => {
     expect(await tech.locator('dialog[open] button:has-text("Choose a patient")').isDisabled()).toBe(true);
     await tech.keyboard.press('Escape');
     await tech.waitForSelector('dialog[open]', { state: 'detached' });
-    await expect.poll(() => tech.evaluate(() => document.activeElement?.closest('tr')?.getAttribute('data-reading-id') ?? null)).toBe(first);
+    await expect.poll(() => tech.evaluate(() => document.activeElement?.closest('[data-specimen-id]')?.querySelector('[data-reading-id]')?.getAttribute('data-reading-id') ?? null)).toBe(first);
 
     // The technician checks the tube and picks; then a lone run, on the reader that sent the reading, on time.
     await match.locator('button:has-text("It is Biscuit")').click();
@@ -85,7 +85,7 @@ describe('suggestions a technician can trust', () => {
     await tech.goto('/intake');
     await tech.waitForSelector('[data-live-state=live]', { timeout: 60_000 });
     const second = await anonymousReading(8, new Date());
-    const lone = tech.locator(`tr[data-reading-id="${second}"]`);
+    const lone = tech.locator(`[data-specimen-id]:has([data-reading-id="${second}"])`);
     await lone.waitFor({ timeout: 60_000 });
     const sure = lone.locator('[data-testid=suggested-match]');
     await expect.poll(() => sure.getAttribute('data-confident'), { timeout: 30_000 }).toBe('true');

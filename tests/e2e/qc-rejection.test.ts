@@ -37,7 +37,7 @@ describe('QC page', () => {
     // The next patient reading of cCRP from the reader: Intake shows it marked, never as a plain result.
     const readingId = await post({ value: 14.2 }, 'e2e-qc-patient-0001');
     await tech.goto('/intake');
-    const row = tech.locator(`tr[data-reading-id="${readingId}"]`);
+    const row = tech.locator(`[data-reading-id="${readingId}"]`);
     await row.waitFor({ timeout: 30_000 });
     expect(await row.locator('[data-testid=quality-mark][data-mark=qc-failed]').textContent()).toContain('QC failed');
 

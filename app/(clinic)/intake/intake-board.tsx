@@ -333,7 +333,7 @@ export function IntakeBoard() {
                       />
                     )}
                     <div className="flex flex-wrap gap-2">
-                      <button type="button" className={buttonClass.primary} onClick={() => setAssigning(s)} data-testid="assign-specimen">
+                      <button type="button" className={buttonClass.primary} onClick={() => setAssigning(s)} data-testid="assign-specimen" data-action="assign">
                         {panel ? `Assign ${s.readings.length}…` : 'Assign…'}
                       </button>
                       <button type="button" className={buttonClass.secondary} onClick={() => setVoiding(s)}>
