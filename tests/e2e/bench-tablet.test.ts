@@ -110,7 +110,8 @@ describe.each(VIEWPORTS)('the bench on a $name', ({ viewport, patient, keyboardP
     await tech.waitForSelector('dialog[open] #patient-search');
     await tech.keyboard.press('Control+A');
     await tech.keyboard.type(keyboardPatient);
-    await tech.waitForSelector(`dialog[open] [role=option]:has-text("${keyboardPatient}")`, { timeout: 30_000 });
+    // The search opens empty (listing everyone): wait until the typed search has narrowed the list.
+    await expect.poll(() => tech.locator('dialog[open] [role=option]').first().innerText(), { timeout: 30_000 }).toContain(keyboardPatient);
     await expectNoSidewaysScroll(tech, 'the assign dialog');
     await tech.keyboard.press('ArrowDown');
     await tech.keyboard.press('Enter');

@@ -45,6 +45,8 @@ describe('suggestions a technician can trust', () => {
       await tech.goto('/bench');
       await tech.fill('#order-patient', name);
       await tech.click(`[data-patient-choice="${record}"]`, { timeout: 30_000 });
+      // The demo clinic runs chemistry and blood counts too: choose the test first.
+      await tech.selectOption('#order-analyte', 'cCRP');
       if (reader) await tech.selectOption('#order-instrument', { label: reader });
       await tech.fill('#order-started', String(725 / 60));
       await tech.click('button:has-text("Start test")');
