@@ -3,32 +3,13 @@
 // reasons, the technician confirms in one click, and the veterinarian's open chart gains the point live.
 // Timing check value (common practice for a single-test CRP reader, no published source): due = start + 725 s (mixing, re-insertion, incubation, measurement).
 import { describe, expect, it } from 'vitest';
-import { markAgainstReload, signInAs, appForThisFile } from './support';
+import { markAgainstReload, signInAs, appForThisFile, postAnonymousCrpReading } from './support';
 
 const running = appForThisFile();
 
 
-/** Posts one reading the way the bridge uploads a parsed slip with no sample ID on it. */
-async function anonymousReading(value: number, at: Date) {
-  const raw = `---- RESULT ----\nTEST      cCRP\nRESULT    ${value.toFixed(1)} mg/L\nSN        SIM-0001\n---- END ----\n`;
-  const response = await fetch(`${running.app.baseUrl}/api/bridge/readings`, {
-    method: 'POST',
-    headers: { 'content-type': 'application/json', authorization: `Bearer ${running.app.bridgeToken}` },
-    body: JSON.stringify({
-      records: [
-        {
-          key: `e2e-match-${at.getTime()}`,
-          instrument: 'crp-reader',
-          receivedAt: at.toISOString(),
-          payload: { kind: 'reading', analyte: 'cCRP', value, comparator: null, unit: 'mg/L', sampleId: null, patientRef: null, measuredAt: at.toISOString(), instrumentSerial: 'SIM-0001', raw },
-        },
-      ],
-    }),
-  });
-  expect(response.status).toBe(200);
-  const { results } = (await response.json()) as { results: { id: string }[] };
-  return results[0].id;
-}
+/** One reading as the bridge uploads a parsed slip with no sample ID on it. */
+const anonymousReading = (value: number, at: Date) => postAnonymousCrpReading(running.app, value, at, 'e2e-match');
 
 describe('an anonymous reading matched by timing', () => {
   it('ranks the due run first, is confirmed in one click, and lands on the open chart’s trend live', async () => {

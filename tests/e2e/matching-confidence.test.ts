@@ -3,31 +3,12 @@
 // dialog opens with the focus in an empty patient search and hands the focus back to the row.
 // Timing (common practice for a single-test CRP reader, no published source): due = start + 725 s.
 import { describe, expect, it } from 'vitest';
-import { appForThisFile, signInAs } from './support';
+import { appForThisFile, postAnonymousCrpReading, signInAs } from './support';
 
 const running = appForThisFile();
 
-/** Posts one reading the way the bridge uploads a parsed slip with no sample ID on it. */
-async function anonymousReading(value: number, at: Date) {
-  const raw = `---- RESULT ----\nTEST      cCRP\nRESULT    ${value.toFixed(1)} mg/L\nSN        SIM-0001\n---- END ----\n`;
-  const response = await fetch(`${running.app.baseUrl}/api/bridge/readings`, {
-    method: 'POST',
-    headers: { 'content-type': 'application/json', authorization: `Bearer ${running.app.bridgeToken}` },
-    body: JSON.stringify({
-      records: [
-        {
-          key: `e2e-confidence-${at.getTime()}-${value}`,
-          instrument: 'crp-reader',
-          receivedAt: at.toISOString(),
-          payload: { kind: 'reading', analyte: 'cCRP', value, comparator: null, unit: 'mg/L', sampleId: null, patientRef: null, measuredAt: at.toISOString(), instrumentSerial: 'SIM-0001', raw },
-        },
-      ],
-    }),
-  });
-  expect(response.status).toBe(200);
-  const { results } = (await response.json()) as { results: { id: string }[] };
-  return results[0].id;
-}
+/** One reading as the bridge uploads a parsed slip with no sample ID on it. */
+const anonymousReading = (value: number, at: Date) => postAnonymousCrpReading(running.app, value, at, 'e2e-confidence');
 
 describe('suggestions a technician can trust', () => {
   it('near-simultaneous runs: choose between these, nothing preselected; a lone on-time run: preselected, one-click confirm', async () => {

@@ -166,3 +166,28 @@ export async function sidewaysOverflow(page: Page): Promise<{ overflow: number; 
     return { overflow: document.documentElement.scrollWidth - width, culprits };
   });
 }
+
+/**
+ * Posts one anonymous CRP reading the way the bridge uploads a parsed slip with no sample ID on it;
+ * returns the stored reading's id.
+ */
+export async function postAnonymousCrpReading(app: RunningApp, value: number, at: Date, keyPrefix: string): Promise<string> {
+  const raw = `---- RESULT ----\nTEST      cCRP\nRESULT    ${value.toFixed(1)} mg/L\nSN        SIM-0001\n---- END ----\n`;
+  const response = await fetch(`${app.baseUrl}/api/bridge/readings`, {
+    method: 'POST',
+    headers: { 'content-type': 'application/json', authorization: `Bearer ${app.bridgeToken}` },
+    body: JSON.stringify({
+      records: [
+        {
+          key: `${keyPrefix}-${at.getTime()}-${value}`,
+          instrument: 'crp-reader',
+          receivedAt: at.toISOString(),
+          payload: { kind: 'reading', analyte: 'cCRP', value, comparator: null, unit: 'mg/L', sampleId: null, patientRef: null, measuredAt: at.toISOString(), instrumentSerial: 'SIM-0001', raw },
+        },
+      ],
+    }),
+  });
+  if (response.status !== 200) throw new Error(`the bridge upload answered ${response.status}: ${await response.text()}`);
+  const { results } = (await response.json()) as { results: { id: string }[] };
+  return results[0].id;
+}
