@@ -46,13 +46,27 @@ function processStart(pid: number): string | undefined {
   }
 }
 
+/**
+ * Linux: a killed process whose parent has not reaped it yet (a container without an init, a shell
+ * that never waits) still answers kill(pid, 0), as a zombie. It holds nothing: it is gone.
+ */
+function zombie(pid: number): boolean {
+  try {
+    const stat = fs.readFileSync(`/proc/${pid}/stat`, 'utf8');
+    const state = stat.slice(stat.lastIndexOf(')') + 2, stat.lastIndexOf(')') + 3);
+    return state === 'Z' || state === 'X';
+  } catch {
+    return false;
+  }
+}
+
 function processAlive(pid: number): boolean {
   try {
     process.kill(pid, 0);
-    return true;
   } catch (error) {
     return (error as NodeJS.ErrnoException).code === 'EPERM';
   }
+  return !zombie(pid);
 }
 
 /** Is the named holder still running? Unknown (another host) counts as running: never steal on a guess. */

@@ -104,6 +104,25 @@ describe('lock file semantics in one process', () => {
     release();
   });
 
+  it('a lock naming a killed process nobody has reaped yet (a zombie) is stale and taken over', async () => {
+    if (process.platform !== 'linux') return;
+    const dir = tempDir();
+    // sh starts a short sleep in the background, then becomes `sleep`, which never waits for it: a zombie.
+    const parent = spawn('sh', ['-c', 'sleep 0.1 & echo $!; exec sleep 30'], { stdio: ['ignore', 'pipe', 'ignore'] });
+    children.push(parent);
+    const pid = Number(await new Promise<string>((resolve) => parent.stdout!.once('data', (d) => resolve(String(d).trim()))));
+    const stateOf = () => fs.readFileSync(`/proc/${pid}/stat`, 'utf8').split(') ')[1]?.[0];
+    for (let i = 0; i < 200 && stateOf() !== 'Z'; i++) await new Promise((r) => setTimeout(r, 10));
+    // proc(5): field 3 of /proc/<pid>/stat is the state, Z for a zombie.
+    expect(stateOf()).toBe('Z');
+    const start = fs.readFileSync(`/proc/${pid}/stat`, 'utf8').split(') ')[1].split(' ')[19];
+    fs.writeFileSync(path.join(dir, LOCK_FILE), JSON.stringify({ pid, host: os.hostname(), what: 'x', since: 'then', processStart: start }));
+    const release = lockStore(dir, 'test');
+    expect(JSON.parse(fs.readFileSync(path.join(dir, LOCK_FILE), 'utf8')).pid).toBe(process.pid);
+    release();
+    parent.kill('SIGKILL');
+  });
+
   it('a lock held on another host is never taken over on a guess', () => {
     const dir = tempDir();
     fs.writeFileSync(path.join(dir, LOCK_FILE), JSON.stringify({ pid: 1, host: 'another-pc', what: 'x', since: 'then' }));
