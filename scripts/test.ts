@@ -1,5 +1,6 @@
 // `npm test`: the whole suite in one run — type check, lint, production build (the browser test
-// serves it), then every vitest test (unit, integration, bridge, pseudo-terminal, browser).
+// serves it), then every vitest test (unit, integration, bridge, pseudo-terminal, browser), then the
+// fault suite (tests/faults: real server and bridge processes killed, unplugged, out of disk).
 // Ends with one line `N passed, N failed` for the whole run.
 import { spawnSync } from 'node:child_process';
 import fs from 'node:fs';
@@ -29,17 +30,29 @@ for (const [name, command, args] of [
   else failed++;
 }
 
-const summaryFile = path.join(fs.mkdtempSync(path.join(os.tmpdir(), 'benchwire-test-')), 'summary.json');
-const vitestOk = step('tests', bin('vitest'), ['run', ...process.argv.slice(2)], { BENCHWIRE_TEST_SUMMARY: summaryFile });
-if (fs.existsSync(summaryFile)) {
-  const counts = JSON.parse(fs.readFileSync(summaryFile, 'utf8')) as { passed: number; failed: number; skipped: number };
-  passed += counts.passed;
-  failed += counts.failed;
-  skipped += counts.skipped;
-  // vitest can fail without a failed test (e.g. an unhandled error between tests): count it.
-  if (!vitestOk && counts.failed === 0) failed++;
-} else if (!vitestOk) {
-  failed++;
+/** A vitest run whose counts join the whole run's (a failure outside any test counts as one). */
+function vitestStep(name: string, args: string[], extraEnv: Record<string, string> = {}) {
+  const summaryFile = path.join(fs.mkdtempSync(path.join(os.tmpdir(), 'benchwire-test-')), 'summary.json');
+  const ok = step(name, bin('vitest'), ['run', ...args], { BENCHWIRE_TEST_SUMMARY: summaryFile, ...extraEnv });
+  if (fs.existsSync(summaryFile)) {
+    const counts = JSON.parse(fs.readFileSync(summaryFile, 'utf8')) as { passed: number; failed: number; skipped: number };
+    passed += counts.passed;
+    failed += counts.failed;
+    skipped += counts.skipped;
+    // vitest can fail without a failed test (e.g. an unhandled error between tests): count it.
+    if (!ok && counts.failed === 0) failed++;
+  } else if (!ok) {
+    failed++;
+  }
+}
+
+vitestStep('tests', process.argv.slice(2));
+// The fault suite (real server and bridge processes, tests/faults): one scenario per test, each line
+// "sent, stored, duplicates, lost" printed again here. Not run when only some tests were asked for.
+if (process.argv.length <= 2) {
+  const faultSummary = path.join(fs.mkdtempSync(path.join(os.tmpdir(), 'benchwire-faults-')), 'faults.txt');
+  vitestStep('fault suite', ['--config', 'vitest.faults.config.ts'], { BENCHWIRE_FAULTS_SUMMARY: faultSummary });
+  if (fs.existsSync(faultSummary)) process.stdout.write(`\n${fs.readFileSync(faultSummary, 'utf8')}`);
 }
 
 console.log(`\n${passed} passed, ${failed} failed${skipped ? `, ${skipped} skipped` : ''}`);

@@ -1,6 +1,6 @@
 import path from 'node:path';
 import { afterAll, expect, inject, it } from 'vitest';
-import { BridgeProcess, SerialLink, ServerProcess, countStored, dataDirFrom, random, sampleIdOf, scaled, sleep, slip, stopAll, summarize, tempDir, waitFor } from './harness';
+import { removeTempDirs, untilDelivered, BridgeProcess, SerialLink, ServerProcess, countStored, dataDirFrom, random, sampleIdOf, scaled, sleep, slip, stopAll, summarize, tempDir } from './harness';
 
 // The bridge is SIGKILLed at seeded random moments while slips print (mid-slip, mid-spool, mid-upload)
 // and started again on the same spool. A slip printed but not yet spooled at a kill was on the wire
@@ -10,7 +10,10 @@ import { BridgeProcess, SerialLink, ServerProcess, countStored, dataDirFrom, ran
 let server: ServerProcess | undefined;
 let bridge: BridgeProcess | undefined;
 let link: SerialLink | undefined;
-afterAll(() => stopAll(bridge, link, server));
+afterAll(async () => {
+  await stopAll(bridge, link, server);
+  removeTempDirs();
+});
 
 it('bridge SIGKILLed at random moments: nothing spooled is lost or stored twice', async () => {
   const { dataDir, token } = dataDirFrom(inject('faultsTemplate'), 'bridgekill');
@@ -57,10 +60,7 @@ it('bridge SIGKILLed at random moments: nothing spooled is lost or stored twice'
     }
   }
   await killing;
-  const last = bridge!;
-  const spooledOrOnWire = () => sent.every((id) => everCaptured.has(id) || last.captured.has(id) || onWire.has(id));
-  await waitFor('every slip spooled', spooledOrOnWire, 120_000, () => last.output);
-  await waitFor('the spool to drain', () => /0 pending$/.test(last.output.trim().split('\n').filter((l) => l.includes('confirmed')).at(-1) ?? ''), 180_000, () => last.output);
+  await untilDelivered(bridge!, sent, spool, (id) => everCaptured.has(id) || bridge!.captured.has(id) || onWire.has(id));
   await stopAll(bridge, server);
   const stored = await countStored(dataDir, 'FK');
   const summary = summarize(`bridge SIGKILLed ${kills} times`, sent, stored, onWire, `${stored.fragments} cut slip(s) kept as unparsed text`);

@@ -27,8 +27,17 @@ export function scaled(count: number, minimum = 1): number {
 export const SEED = Number(process.env.FAULTS_SEED ?? 20261202);
 export const random = (salt: number) => seededRandom(SEED + salt);
 
+const made: string[] = [];
+
 export function tempDir(name: string): string {
-  return fs.mkdtempSync(path.join(os.tmpdir(), `benchwire-faults-${name}-`));
+  const dir = fs.mkdtempSync(path.join(os.tmpdir(), `benchwire-faults-${name}-`));
+  made.push(dir);
+  return dir;
+}
+
+/** Removes the directories this test file made (after its processes are stopped). */
+export function removeTempDirs(): void {
+  for (const dir of made.splice(0)) fs.rmSync(dir, { recursive: true, force: true });
 }
 
 export function freePort(): Promise<number> {
@@ -198,6 +207,15 @@ export class BridgeProcess extends Child {
       return this.reading;
     }, 60_000, () => this.output);
   }
+}
+
+/**
+ * Resolves once the bridge has spooled every slip in `ids` and its spool is empty again (the spool file is
+ * cut to nothing once the server has confirmed everything in it).
+ */
+export async function untilDelivered(bridge: BridgeProcess, ids: string[], spoolDir: string, captured: (id: string) => boolean = (id) => bridge.captured.has(id)): Promise<void> {
+  await waitFor('every slip spooled', () => ids.every(captured), 180_000, () => bridge.output);
+  await waitFor('the spool to drain', () => (fs.statSync(path.join(spoolDir, 'spool.jsonl'), { throwIfNoEntry: false })?.size ?? 0) === 0, 300_000, () => bridge.output);
 }
 
 /** The socat pair: the printer's end (analyzer) and the lab PC's end (the bridge's device). */

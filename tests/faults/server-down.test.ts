@@ -1,13 +1,16 @@
 import path from 'node:path';
 import { afterAll, expect, inject, it } from 'vitest';
-import { BridgeProcess, SerialLink, ServerProcess, countStored, dataDirFrom, sampleIdOf, scaled, slip, stopAll, summarize, tempDir, waitFor } from './harness';
+import { removeTempDirs, untilDelivered, BridgeProcess, SerialLink, ServerProcess, countStored, dataDirFrom, sampleIdOf, scaled, slip, stopAll, summarize, tempDir, waitFor } from './harness';
 
 // The server is stopped while the analyzer prints; the bridge spools every slip and sends them all once
 // the server is back. Counted from the database: each sample ID stored exactly once.
 let server: ServerProcess | undefined;
 let bridge: BridgeProcess | undefined;
 let link: SerialLink | undefined;
-afterAll(() => stopAll(bridge, link, server));
+afterAll(async () => {
+  await stopAll(bridge, link, server);
+  removeTempDirs();
+});
 
 it('server down while records print: every record stored once after it returns', async () => {
   const { dataDir, token } = dataDirFrom(inject('faultsTemplate'), 'down');
@@ -32,7 +35,7 @@ it('server down while records print: every record stored once after it returns',
 
   // Back on the same address, as a restarted service would be.
   server = ServerProcess.spawn(dataDir, port);
-  await waitFor('the spool to drain', () => /0 pending/.test(b.output.split('\n').filter((l) => l.includes('confirmed')).at(-1) ?? ''), 180_000, () => b.output + server!.output);
+  await untilDelivered(b, sent, path.join(work, 'spool'));
   await stopAll(bridge, server);
   const summary = summarize('server down while printing', sent, await countStored(dataDir, 'FD'));
   expect(summary.lostIds).toEqual([]);
