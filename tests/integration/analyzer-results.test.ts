@@ -7,6 +7,8 @@ import * as results from '@/app/api/patients/[patientId]/results/route';
 import * as assign from '@/app/api/readings/[readingId]/assign/route';
 import * as unreviewed from '@/app/api/reviews/unreviewed/route';
 import { GET as typable } from '@/app/api/captures/analytes/route';
+import * as abnormalCodes from '@/app/api/admin/clinical/analytes/[code]/abnormal-codes/route';
+import * as clinicalConfig from '@/app/api/admin/clinical/route';
 import { POST as transcribe } from '@/app/api/captures/[captureId]/transcribe/route';
 import type { Database } from '@/db/client';
 import { seededDatabase } from '../helpers/db';
@@ -69,6 +71,35 @@ describe('analyzer ranges and flags', () => {
     expect(row.clinical.qualitative).toMatchObject({ label: 'Positive', abnormal: true });
     expect(row.clinical.flag).toBeNull();
     expect(analytes.FELV.qualitative).toBe(true);
+  });
+
+  // The per-test rule (Admin → Results and matching) interprets a coded result the analyzer did not flag;
+  // the analyzer's own flag still comes first (issue 9). Heartworm antigen as an ASTM word (E1394 R.4, from memory).
+  it('interprets an unflagged coded result by the clinic’s abnormal-codes rule, set through the admin API', async () => {
+    const admin = await signIn('admin@fernhollow.example');
+    const put = (code: string, payload: unknown, cookie = admin) =>
+      abnormalCodes.PUT(request(`/api/admin/clinical/analytes/${code}/abnormal-codes`, { method: 'PUT', cookie, body: payload }), params({ code }));
+    const before = await onBiscuit({ analyte: 'HWAG', value: null, code: { system: null, code: 'POS', display: null }, unit: null, raw: 'R|1|^^^HWAG|POS\r' });
+    expect((await chartRow(before)).row.clinical.qualitative).toMatchObject({ abnormal: null, basis: expect.stringMatching(/Not interpreted/) });
+    // The form's shared schema, on the server too: a code twice, a comma inside a code, a non-admin.
+    const twice = await put('HWAG', { abnormalCodes: ['POS', 'pos'] });
+    expect(twice.status).toBe(400);
+    expect((await body(twice)).error.issues[0].path).toBe('abnormalCodes');
+    expect((await body(await put('HWAG', { abnormalCodes: ['POS,WEAK'] }))).error.issues[0].path).toBe('abnormalCodes.0');
+    expect((await put('HWAG', { abnormalCodes: ['POS'] }, tech)).status).toBe(403);
+    const saved = await put('HWAG', { name: 'Heartworm antigen', abnormalCodes: ['POS', 'WEAK POS'] });
+    expect(saved.status).toBe(200);
+    expect((await body(saved)).analyte).toMatchObject({ code: 'HWAG', name: 'Heartworm antigen', abnormalCodes: ['POS', 'WEAK POS'] });
+    const positive = await onBiscuit({ analyte: 'HWAG', value: null, code: { system: null, code: 'pos', display: null }, unit: null, raw: 'R|1|^^^HWAG|pos\r' });
+    expect((await chartRow(positive)).row.clinical.qualitative).toMatchObject({ abnormal: true, basis: 'Clinic rule for HWAG: abnormal when POS, WEAK POS' });
+    const negative = await onBiscuit({ analyte: 'HWAG', value: null, code: { system: null, code: 'NEG', display: null }, unit: null, raw: 'R|1|^^^HWAG|NEG\r' });
+    expect((await chartRow(negative)).row.clinical.qualitative).toMatchObject({ abnormal: false });
+    // The analyzer's flag wins over the rule: NEG flagged A is abnormal.
+    const flagged = await onBiscuit({ analyte: 'HWAG', value: null, code: { system: null, code: 'NEG', display: null }, unit: null, flags: ['A'], raw: 'R|1|^^^HWAG|NEG||||A\r' });
+    expect((await chartRow(flagged)).row.clinical.qualitative).toMatchObject({ abnormal: true, basis: expect.stringMatching(/Analyzer flag/) });
+    // The admin screen lists what was sent so far, to write the rule from.
+    const config = await body(await clinicalConfig.GET(request('/api/admin/clinical', { cookie: admin }), undefined));
+    expect(config.codedResults).toEqual(expect.arrayContaining([expect.objectContaining({ analyte: 'HWAG', code: 'NEG', count: 2 })]));
   });
 
   it('refuses a reading that claims two kinds of value, with the field named', async () => {
