@@ -9,6 +9,8 @@ import * as unreviewed from '@/app/api/reviews/unreviewed/route';
 import { GET as typable } from '@/app/api/captures/analytes/route';
 import * as abnormalCodes from '@/app/api/admin/clinical/analytes/[code]/abnormal-codes/route';
 import * as clinicalConfig from '@/app/api/admin/clinical/route';
+import * as unitsList from '@/app/api/admin/units/route';
+import * as unitMapping from '@/app/api/admin/units/[unitId]/route';
 import { POST as transcribe } from '@/app/api/captures/[captureId]/transcribe/route';
 import type { Database } from '@/db/client';
 import { seededDatabase } from '../helpers/db';
@@ -39,6 +41,46 @@ const chartRow = async (readingId: string) => {
   const chart = await body(await results.GET(request('/api/patients/x/results', { cookie: vet }), params({ patientId: biscuit })));
   return { row: chart.results.find((r: { id: string }) => r.id === readingId), analytes: chart.analytes };
 };
+
+describe('units UCUM cannot read', () => {
+  // "x10^9/L" is a common printed spelling of 10⁹ per litre (common practice, no source); UCUM writes it
+  // 10*9/L (UCUM §§ on "10*" powers of ten, from memory), and ucum-lhc refuses the printed form.
+  it('are listed per instrument as printed, and a mapping applies to later readings with the printed text kept', async () => {
+    const admin = await signIn('admin@fernhollow.example');
+    const fromHaematology = async (value: number) => {
+      const response = await ingest(token, [readingRecord(key(), { analyte: 'WBC', value, unit: 'x10^9/L', raw: `WBC ${value} x10^9/L\n` }, 'hema-analyzer')]);
+      const readingId = (await body(response)).results[0].id;
+      expect((await assign.POST(request('/api/readings/x/assign', { cookie: tech, body: { patientId: biscuit } }), params({ readingId }))).status).toBe(200);
+      return readingId;
+    };
+    const listed = async () => (await body(await unitsList.GET(request('/api/admin/units', { cookie: admin }), undefined))).units;
+    const earlier = await fromHaematology(31.5);
+    const [unit] = (await listed()).filter((u: { printed: string }) => u.printed === 'x10^9/L');
+    expect(unit).toMatchObject({ instrumentCode: 'hema-analyzer', printed: 'x10^9/L', ucum: null, readingCount: 1 });
+    const before = (await chartRow(earlier)).row;
+    expect(before.unit).toBe('x10^9/L');
+    expect(before.clinical.flag).toBeNull();
+    expect(before.clinical.problems.join(' ')).toMatch(/not a UCUM unit/);
+
+    const map = (ucum: string | null, cookie = admin) =>
+      unitMapping.PUT(request(`/api/admin/units/${unit.id}`, { method: 'PUT', cookie, body: { ucum } }), params({ unitId: unit.id }));
+    const wrong = await map('x10^9/L');
+    expect(wrong.status).toBe(400);
+    expect((await body(wrong)).error.issues[0].path).toBe('ucum');
+    expect((await map('10*9/L', tech)).status).toBe(403);
+    expect((await map('10*9/L')).status).toBe(200);
+
+    const later = await fromHaematology(31.5);
+    const after = (await chartRow(later)).row;
+    expect(after).toMatchObject({ unit: '10*9/L', printedUnit: 'x10^9/L' });
+    expect(after.clinical.unitNote).toBe('Printed "x10^9/L", read as 10*9/L (the clinic\'s mapping for this instrument).');
+    // Read in UCUM, it meets the clinic's dog interval for WBC (defaults, from memory) and is flagged.
+    expect(after.clinical.flag).toMatchObject({ flag: expect.stringMatching(/high/) });
+    // The reading that came before the mapping keeps what it arrived with.
+    expect((await chartRow(earlier)).row).toMatchObject({ unit: 'x10^9/L', printedUnit: null });
+    expect((await listed()).find((u: { id: string }) => u.id === unit.id)).toMatchObject({ ucum: '10*9/L', readingCount: 2, mappedByName: expect.any(String) });
+  });
+});
 
 describe('analyzer ranges and flags', () => {
   // Potassium has no clinic interval in the defaults: HL7 OBX-7 "3.5-5.8" and OBX-8 "L" (table 0078, from memory) decide.
