@@ -292,7 +292,10 @@ export const readings = pgTable(
     /** Typed in by a person from an unparsed capture: who. Null for everything an instrument sent. */
     enteredBy: uuid().references(() => staffUsers.id, { onDelete: 'restrict' }),
     comparator: text().$type<'<' | '>'>(),
+    /** The unit it is read in: as printed, or the UCUM unit the clinic mapped the printed text to (instrument_units). */
     unit: text(),
+    /** Set only when the unit was mapped on arrival: the text the instrument printed. */
+    printedUnit: text(),
     flags: text().array().notNull().default(sql`'{}'::text[]`),
     sampleId: text(),
     patientRef: text(),
@@ -898,6 +901,33 @@ export type StaffSession = typeof staffSessions.$inferSelect;
 export type StaffRole = (typeof staffRole.enumValues)[number];
 export type Patient = typeof patients.$inferSelect;
 export type Owner = typeof owners.$inferSelect;
+/**
+ * Units an instrument printed that UCUM cannot read, exactly as printed, listed for an administrator, and
+ * the UCUM unit each is mapped to. A mapping applies to readings that arrive after it is saved (fixed on
+ * the reading, the printed text kept beside it); earlier readings keep their unread unit.
+ */
+export const instrumentUnits = pgTable(
+  'instrument_units',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    instrumentId: uuid()
+      .notNull()
+      .references(() => instruments.id, { onDelete: 'restrict' }),
+    printed: text().notNull(),
+    /** UCUM unit later readings are read in; null until an administrator maps it. */
+    ucum: text(),
+    /** Readings that arrived with this unit (mapped or not). */
+    readingCount: integer().notNull().default(0),
+    firstSeenAt: createdAt(),
+    lastSeenAt: timestamp({ withTimezone: true }).notNull().defaultNow(),
+    mappedBy: uuid().references(() => staffUsers.id, { onDelete: 'restrict' }),
+    mappedAt: timestamp({ withTimezone: true }),
+  },
+  (t) => [uniqueIndex('instrument_units_instrument_printed_key').on(t.instrumentId, t.printed)],
+);
+export type InstrumentUnit = typeof instrumentUnits.$inferSelect;
+
 export type Instrument = typeof instruments.$inferSelect;
 export type Bridge = typeof bridges.$inferSelect;
 export type Reading = typeof readings.$inferSelect;

@@ -170,6 +170,8 @@ const instrumentEditable = (i: NewInstrumentInput) => ({
   serialNumber: i.serialNumber ?? null,
   bridgeId: i.bridgeId ?? null,
   profileId: i.profileId ?? null,
+  // The number format and the name it answers as go to the bridge with its config (lib/bridge-config.ts).
+  readSettings: i.readSettings,
   connection: i.connection ?? null,
 });
 

@@ -218,6 +218,13 @@ export class AstmMessageAssembler extends Transform {
   private text = '';
   private message: Line[] = [];
   private stray: Line[] = [];
+  /**
+   * After frames went missing (a replayed capture with a gap): the message they were in, kept unread until
+   * its L record or the next H record. Missing records could be a patient or an order, so nothing after
+   * the gap may be read as part of what came before it; the first record after the gap may itself be a
+   * tail, so even an H there does not end it.
+   */
+  private broken: { reason: string; raw: string; afterGap: number } | undefined;
 
   constructor(private readonly options: AssemblerOptions = {}) {
     super({ objectMode: true });
@@ -229,6 +236,8 @@ export class AstmMessageAssembler extends Transform {
     } else if (input.kind === 'text') {
       this.text += input.text;
       this.takeRecords();
+    } else if (input.kind === 'gap') {
+      this.gap(input.reason, input.partial);
     } else {
       this.sessionEnded(input.abandoned, input.partial);
     }
@@ -255,8 +264,34 @@ export class AstmMessageAssembler extends Transform {
     }
   }
 
+  private gap(reason: string, partial: string): void {
+    const before = this.broken ? this.broken.raw : '';
+    const reasonNow = this.broken ? this.broken.reason : reason;
+    this.flushStray();
+    this.broken = { reason: reasonNow, raw: before + rawOf(this.message) + partial, afterGap: 0 };
+    this.message = [];
+  }
+
+  private flushBroken(leftover = ''): void {
+    if (!this.broken) return;
+    const raw = this.broken.raw + leftover;
+    const reason = `message cut by a gap: ${this.broken.reason}`;
+    this.broken = undefined;
+    if (raw.trim() !== '') for (const piece of fragments(raw, reason)) this.out(piece);
+  }
+
   private takeRecord(line: Line): void {
     const type = line.text[0];
+    if (this.broken) {
+      if (type === 'H' && this.broken.afterGap > 0) {
+        this.flushBroken();
+      } else {
+        this.broken.raw += line.raw;
+        this.broken.afterGap++;
+        if (type === 'L' || this.broken.raw.length > MAX_MESSAGE_CHARS) this.flushBroken();
+        return;
+      }
+    }
     if (type === 'H') {
       this.flushStray();
       if (this.message.length) this.out(fragment(rawOf(this.message), 'message cut short: a new H record came before its L record'));
@@ -286,6 +321,11 @@ export class AstmMessageAssembler extends Transform {
   }
 
   private sessionEnded(abandoned?: string, partial?: string): void {
+    if (this.broken) {
+      this.flushBroken(rawOf(this.message) + (partial ?? ''));
+      this.message = [];
+      return this.flushStray();
+    }
     const leftover = partial ?? '';
     const cut = abandoned ? `message cut short: ${abandoned}` : 'message cut short: session ended before its L record';
     if (this.message.length) {

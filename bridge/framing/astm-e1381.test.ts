@@ -133,6 +133,47 @@ describe('ASTM E1381 receiver', () => {
   });
 });
 
+describe('ASTM E1381 corners', () => {
+  // LIS1-A state diagram (from memory): the receiver leaves the neutral state only on ENQ. A frame before
+  // ENQ is not answered (no ACK, no NAK) and not read; its bytes go up as one fragment.
+  it('neither answers nor reads a frame sent before ENQ, and keeps its bytes', () => {
+    const { core, outputs, said, problems } = link();
+    const frame = testFrame(1, 'R|1|^^^GLU|9.9\r');
+    core.receive(Buffer.concat([frame, Buffer.from([C.EOT])]));
+    expect(said()).toBe('');
+    expect(outputs).toEqual([{ kind: 'unparsed', raw: `${frame.toString('latin1')}\x04`, reason: expect.stringMatching(/without ENQ first, not accepted/) }]);
+    expect(problems[0]).toMatch(/without ENQ first/);
+  });
+
+  // Replay (no back channel): nobody can ask for the missing frames, so the jump is reported with the
+  // text received before it, and reading goes on from the frame that arrived.
+  it('reports a frame-number gap in a replay, with the text before it', () => {
+    const { core, outputs } = link({ reply: false });
+    core.receive(Buffer.concat([Buffer.from([C.ENQ]), testFrame(1, 'H|\\^&\r'), testFrame(2, 'R|1|^^^GLU|', { last: false }), testFrame(5, 'R|2|^^^K|4.1\r'), Buffer.from([C.EOT])]));
+    expect(outputs).toEqual([
+      { kind: 'text', text: 'H|\\^&\r' },
+      { kind: 'gap', reason: 'frame numbers jump from 2 to 5: frames 3, 4 missing from the capture', partial: 'R|1|^^^GLU|' },
+      { kind: 'text', text: 'R|2|^^^K|4.1\r' },
+      { kind: 'session-end' },
+    ]);
+  });
+
+  // Live: an out-of-sequence frame is NAKed (E1381 receiver requirements, from memory); when the sender
+  // never repeats the one that was missing, the refused frames' text is kept with the reason.
+  it('keeps refused out-of-sequence frames when the session ends without the missing one', () => {
+    const { core, outputs, said } = link();
+    core.receive(Buffer.concat([Buffer.from([C.ENQ]), testFrame(1, 'H|\\^&\r'), testFrame(3, 'L|1|N\r'), testFrame(3, 'L|1|N\r'), Buffer.from([C.EOT])]));
+    expect(said()).toBe('<ACK><ACK><NAK><NAK>');
+    expect(outputs.at(-1)).toEqual({ kind: 'session-end', abandoned: expect.stringMatching(/without frame 2; the frames after it \(3\)/), partial: 'L|1|N\r' });
+  });
+
+  it('drops a damaged frame once its good repeat arrives', () => {
+    const { core, outputs } = link();
+    core.receive(Buffer.concat([Buffer.from([C.ENQ]), testFrame(1, 'L|1|N\r', { checksum: '00' }), testFrame(1, 'L|1|N\r'), Buffer.from([C.EOT])]));
+    expect(outputs).toEqual([{ kind: 'text', text: 'L|1|N\r' }, { kind: 'session-end' }]);
+  });
+});
+
 describe('ASTM E1381 timeouts', () => {
   afterEach(() => vi.useRealTimers());
 

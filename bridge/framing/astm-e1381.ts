@@ -9,6 +9,14 @@ import { silentLog, type Log } from '../log';
 // numbers from memory): establishment (ENQ → ACK/NAK), transfer of frames
 // <STX> FN text <ETB|ETX> C1 C2 <CR> <LF> with FN 1..7,0,1.., checksum = sum of the bytes from FN
 // through ETB/ETX modulo 256 as two upper-case hex digits, termination (EOT).
+// Corners, as the standard's text reads to us (from memory):
+// - Neutral state: the receiver leaves it only on ENQ (data link layer state diagram: Idle → "receive
+//   ENQ" → Awake; nothing else moves it). A frame sent without ENQ is therefore neither ACKed nor NAKed
+//   nor read: its bytes go up as an unparsed fragment, so nothing is lost without trace.
+// - A frame is rejected (NAK) when its checksum is wrong or its number is neither the last accepted
+//   one nor one higher modulo 8 ("receiver requirements"); a repeat of the last accepted one is ACKed
+//   and kept once. On a live link the sender repeats a NAKed frame. In a file replay nobody can ask
+//   for it again, so a jump in frame numbers is reported as a gap (see AstmLinkOutput 'gap').
 
 export const STX = 0x02;
 export const ETX = 0x03;
@@ -40,7 +48,16 @@ const MAX_PENDING_BYTES = 1024 * 1024;
 export type AstmLinkOutput =
   | { kind: 'text'; text: string }
   | { kind: 'session-end'; abandoned?: string; partial?: string }
+  /**
+   * Frames are missing (replay only): `partial` holds the text received since the last complete
+   * message part (ETB frames, frames refused and never repeated); what follows the gap is text again,
+   * but the message it belongs to cannot be trusted whole.
+   */
+  | { kind: 'gap'; reason: string; partial: string }
   | UnparsedFragment;
+
+/** Why a frame was refused: a wrong checksum (or a broken-off frame) is superseded by the next good frame. */
+type Refused = { number: number; text: Buffer; why: 'damaged' | 'sequence' };
 
 /** Two upper-case hex digits: sum of the bytes modulo 256 (E1381 checksum). */
 export function astmChecksum(bytes: Uint8Array): string {
@@ -100,6 +117,8 @@ export class AstmLink {
   private pending: Buffer[] = [];
   /** Text of this session's complete messages, for a report if it is abandoned. */
   private sessionText = '';
+  /** Frames refused in this session and not yet received good: kept, so a session that ends without them loses nothing. */
+  private refused: Refused[] = [];
   private stray: number[] = [];
   private readonly outbox: Buffer[][] = [];
   private sending: { frames: Buffer[]; index: number; tries: number } | undefined;
@@ -155,9 +174,12 @@ export class AstmLink {
   /** Quiet line in neutral: stray bytes held so far go up as a fragment. */
   flushStray(): void {
     if (this.stray.length === 0) return;
+    const frameWithoutEnq = this.stray.includes(STX) && this.state === 'neutral';
     const raw = Buffer.from(this.stray).toString('latin1');
     this.stray = [];
-    this.options.emit(fragment(raw, 'bytes outside an ASTM session'));
+    this.options.emit(
+      fragment(raw, frameWithoutEnq ? 'bytes outside an ASTM session: a frame sent without ENQ first, not accepted (E1381: only ENQ opens a session)' : 'bytes outside an ASTM session'),
+    );
   }
 
   /** Input ended: an open session is abandoned, held bytes go up. */
@@ -192,12 +214,15 @@ export class AstmLink {
       this.openSession();
       return;
     }
-    if (byte === STX) {
-      // A capture that starts mid-session, or a sender that skips ENQ: read the frame anyway.
+    if (byte === STX && !this.stray.includes(STX)) {
+      // A sender that skips ENQ (or a capture that starts mid-session): no answer, not read (see the top).
       this.flushStray();
-      this.openSession(false);
-      this.startFrame();
-      return;
+      this.problem('a frame came without ENQ first; not answered and not read (kept as an unparsed fragment)');
+    }
+    if (byte === EOT && this.stray.length) {
+      // The end of what was sent outside a session: it goes up with it.
+      this.stray.push(byte);
+      return this.flushStray();
     }
     // EOT, ACK, NAK in neutral are the end of something we already handled.
     if (byte === EOT || byte === ACK || byte === NAK) return;
@@ -205,12 +230,13 @@ export class AstmLink {
     if (this.stray.length >= MAX_STRAY_BYTES) this.flushStray();
   }
 
-  private openSession(answer = true): void {
+  private openSession(): void {
     this.state = 'receiving';
     this.lastFrameNumber = undefined;
     this.pending = [];
+    this.refused = [];
     this.sessionText = '';
-    if (answer) this.reply(ACK);
+    this.reply(ACK);
   }
 
   private betweenFrames(byte: number): void {
@@ -238,6 +264,7 @@ export class AstmLink {
   private inFrame(byte: number): void {
     if (byte === STX) {
       this.problem('a frame was broken off by a new STX; waiting for it again');
+      this.hold(Buffer.from(this.body), 'damaged');
       this.reply(NAK);
       return this.startFrame();
     }
@@ -282,15 +309,30 @@ export class AstmLink {
     const number = numberChar - 0x30;
     const expected = ((this.lastFrameNumber ?? 0) + 1) % 8;
     if (astmChecksum(body) !== this.checksum.toUpperCase()) {
+      this.hold(body, 'damaged');
       return this.rejectFrame(`frame ${String.fromCharCode(numberChar)}: checksum ${this.checksum} is wrong (sum gives ${astmChecksum(body)})`);
     }
-    if (!(number >= 0 && number <= 7)) return this.rejectFrame(`frame number "${String.fromCharCode(numberChar)}" is not 0–7`);
+    if (!(number >= 0 && number <= 7)) {
+      this.hold(body, 'damaged');
+      return this.rejectFrame(`frame number "${String.fromCharCode(numberChar)}" is not 0–7`);
+    }
     if (number === this.lastFrameNumber) {
       // Our ACK was lost and the sender repeated the frame: acknowledge, keep one copy.
       this.reply(ACK);
       return;
     }
-    if (number !== expected) return this.rejectFrame(`frame ${number} out of sequence (expected ${expected})`);
+    if (number !== expected) {
+      // Replay: no sender to repeat it; the missing frames are reported, with the text around them.
+      if (!this.options.reply) return this.gap(body, number, expected);
+      this.hold(body, 'sequence');
+      return this.rejectFrame(`frame ${number} out of sequence (expected ${expected})`);
+    }
+    this.accept(body, number);
+  }
+
+  private accept(body: Buffer, number: number): void {
+    // A good frame stands for the damaged copies before it and for refused copies of itself.
+    this.refused = this.refused.filter((r) => r.why === 'sequence' && r.number !== number);
     this.lastFrameNumber = number;
     this.pending.push(body.subarray(1, body.length - 1));
     this.reply(ACK);
@@ -308,6 +350,41 @@ export class AstmLink {
     }
   }
 
+  /** Frame numbers jumped in a replay: report the span, then go on from the frame that arrived. */
+  private gap(body: Buffer, number: number, expected: number): void {
+    const missing = Array.from({ length: (number - expected + 8) % 8 }, (_, i) => (expected + i) % 8);
+    const reason = `frame numbers jump from ${this.lastFrameNumber ?? 'the session start'} to ${number}: frame${missing.length > 1 ? 's' : ''} ${missing.join(', ')} missing from the capture`;
+    this.problem(reason);
+    const partial = this.pendingText() + this.refusedText();
+    this.pending = [];
+    this.refused = [];
+    this.options.emit({ kind: 'gap', reason, partial });
+    this.accept(body, number);
+  }
+
+  /** A refused frame's text, kept until it arrives good (bounded like the ETB frames). */
+  private hold(body: Buffer, why: Refused['why']): void {
+    const text = body.subarray(1, Math.max(1, body.length - 1));
+    const copy = this.refused.find((r) => r.why === why && r.number === body[0] - 0x30 && r.text.equals(text));
+    if (copy) return;
+    if (this.refused.reduce((sum, r) => sum + r.text.length, 0) + text.length > MAX_PENDING_BYTES) return;
+    this.refused.push({ number: body[0] - 0x30, text, why });
+  }
+
+  /** Why refused frames are in a session's leftovers: the frame it still waited for, or damage. */
+  private refusedReason(): string | undefined {
+    if (!this.refused.length) return undefined;
+    const sequence = this.refused.filter((r) => r.why === 'sequence').map((r) => r.number);
+    const waited = ((this.lastFrameNumber ?? 0) + 1) % 8;
+    return sequence.length
+      ? `session ended without frame ${waited}; the frames after it (${sequence.join(', ')}) were refused as out of sequence and are kept unread`
+      : `session ended with ${this.refused.length === 1 ? 'a damaged frame' : `${this.refused.length} damaged frames`} never received good`;
+  }
+
+  private refusedText(): string {
+    return Buffer.concat(this.refused.map((r) => r.text)).toString(this.encoding);
+  }
+
   private rejectFrame(reason: string): void {
     this.problem(`${reason}; NAK, the sender repeats it`);
     this.state = 'receiving';
@@ -315,17 +392,22 @@ export class AstmLink {
   }
 
   private closeSession(): void {
-    const partial = this.pendingText();
+    const abandoned = this.refusedReason() ?? 'session ended with a message cut short (EOT before its last frame)';
+    const partial = this.pendingText() + this.refusedText();
     this.state = 'neutral';
     this.pending = [];
-    this.options.emit(partial ? { kind: 'session-end', abandoned: 'session ended with a message cut short (EOT before its last frame)', partial } : { kind: 'session-end' });
+    this.refused = [];
+    this.options.emit(partial ? { kind: 'session-end', abandoned, partial } : { kind: 'session-end' });
     this.startSending();
   }
 
-  private abandon(reason: string): void {
-    const partial = this.pendingText();
+  private abandon(why: string): void {
+    const refused = this.refusedReason();
+    const reason = refused ? `${why}; ${refused}` : why;
+    const partial = this.pendingText() + this.refusedText();
     this.state = 'neutral';
     this.pending = [];
+    this.refused = [];
     this.log.error(`${this.options.name ?? 'astm'}: ${reason}`);
     this.options.emit({ kind: 'session-end', abandoned: reason, partial });
     this.startSending();

@@ -1,13 +1,14 @@
 import 'server-only';
-import { and, asc, eq, inArray } from 'drizzle-orm';
+import { and, asc, eq, inArray, isNotNull, sql } from 'drizzle-orm';
 import { db, type Executor } from '@/db/client';
-import { analyteSettings, clinics, instruments, referenceIntervals, runProtocols } from '@/db/schema';
+import { analyteSettings, clinics, instruments, readings, referenceIntervals, runProtocols } from '@/db/schema';
 import { requirePermission, type Actor } from '@/lib/auth/guards';
 import { recordAudit } from '@/lib/audit';
 import { ApiError, notFound } from '@/lib/http';
 import { publish } from '@/lib/live/bus';
 import {
   clinicalSettingsSchema,
+  type AbnormalCodesInput,
   type AnalyteSettingsInput,
   type ClinicalSettings,
   type IntervalInput,
@@ -84,7 +85,56 @@ export async function clinicalConfiguration(actor: Actor) {
       .where(and(eq(instruments.clinicId, actor.clinicId), eq(instruments.active, true)))
       .orderBy(asc(instruments.name)),
   ]);
-  return { analytes, intervals, protocols, settings, instruments: instrumentRows };
+  return { analytes, intervals, protocols, settings, instruments: instrumentRows, codedResults: await codedResultsSeen(database, actor.clinicId) };
+}
+
+/** The codes instruments have sent as results, per test, so the abnormal-codes rule can be written from them. */
+async function codedResultsSeen(tx: Executor, clinicId: string) {
+  const code = sql<string>`${readings.valueCode} ->> 'code'`;
+  const display = sql<string | null>`max(${readings.valueCode} ->> 'display')`;
+  return tx
+    .select({ analyte: readings.analyte, code, display, count: sql<number>`count(*)::int` })
+    .from(readings)
+    .where(and(eq(readings.clinicId, clinicId), isNotNull(readings.valueCode)))
+    .groupBy(readings.analyte, code)
+    .orderBy(asc(readings.analyte), asc(code))
+    .limit(500);
+}
+
+/**
+ * Sets which codes mean abnormal for a test's coded results. A test the clinic has no settings for yet (a
+ * qualitative one) gets a row of its own, kept in UCUM's unity "1" since it has no quantity.
+ */
+export async function setAbnormalCodes(actor: Actor, code: string, input: AbnormalCodesInput) {
+  mustManage(actor);
+  const database = await db();
+  return database.transaction(async (tx) => {
+    const [existing] = await tx
+      .select()
+      .from(analyteSettings)
+      .where(and(eq(analyteSettings.clinicId, actor.clinicId), eq(analyteSettings.code, code)))
+      .for('update');
+    const [row] = existing
+      ? await tx
+          .update(analyteSettings)
+          .set({ abnormalCodes: input.abnormalCodes, updatedBy: actor.userId, updatedAt: new Date() })
+          .where(eq(analyteSettings.id, existing.id))
+          .returning()
+      : await tx
+          .insert(analyteSettings)
+          .values({ clinicId: actor.clinicId, code, name: input.name || code, unit: '1', displayUnit: '1', decimals: 0, abnormalCodes: input.abnormalCodes, updatedBy: actor.userId })
+          .returning();
+    await recordAudit(tx, {
+      clinicId: actor.clinicId,
+      actorUserId: actor.userId,
+      action: 'analyte.abnormal-codes-changed',
+      entityType: 'analyte_setting',
+      entityId: row.id,
+      details: { analyte: code, before: existing?.abnormalCodes ?? null, after: input.abnormalCodes },
+    });
+    await publish(tx, { type: 'settings.updated', clinicId: actor.clinicId, id: row.id });
+    return row;
+  });
 }
 
 /** Adds or replaces the interval for (analyte, species, instrument); the old values stay in the audit trail. */

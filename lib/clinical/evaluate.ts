@@ -142,6 +142,8 @@ export interface EvaluatedReading {
   value: number | null;
   comparator: Comparator;
   unit: string | null;
+  /** Set when `unit` is the clinic's mapping of a unit UCUM could not read: the text as printed. */
+  printedUnit?: string | null;
   instrumentId: string | null;
   /** The range the analyzer sent (ASTM R.6, HL7 OBX-7). */
   instrumentRange?: string | null;
@@ -225,7 +227,8 @@ export function evaluateResult(
   if (analyzerFlag?.abnormal && flag && flag.certain && flag.flag === 'normal') {
     problems.push(`${analyzerFlag.text}, although ${interval?.origin === 'clinic' ? 'the clinic’s interval' : 'its range'} has the value within: check the analyzer’s settings and the interval.`);
   }
-  return { display, interval, flag, band, analyzerFlag, qualitative: null, unitNote: unitCheck.ok ? (unitCheck.note ?? null) : null, problems, speciesWarning: warning };
+  const mappedNote = reading.printedUnit && unitCheck.ok ? `Printed "${reading.printedUnit}", read as ${unitCheck.ucum} (the clinic's mapping for this instrument).` : null;
+  return { display, interval, flag, band, analyzerFlag, qualitative: null, unitNote: mappedNote ?? (unitCheck.ok ? (unitCheck.note ?? null) : null), problems, speciesWarning: warning };
 }
 
 // Display formatting lives with the other client-safe helpers: this module reaches ucum-lhc (units.ts).

@@ -118,6 +118,7 @@ export async function unreviewedResults(actor: Actor, mine: boolean) {
       instrumentRange: readings.instrumentRange,
       comparator: readings.comparator,
       unit: readings.unit,
+      printedUnit: readings.printedUnit,
       instrumentId: readings.instrumentId,
       instrumentName: instruments.name,
       measuredAt: readings.measuredAt,

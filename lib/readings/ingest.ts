@@ -8,6 +8,7 @@ import type { BridgeBatch, BridgeBatchResult, BridgeRecord } from '@/lib/validat
 import { autoAssignBatchOnIngest } from './suggestions';
 import { applyQualityOnIngest } from '@/lib/quality/ingest-step';
 import { specimenFor } from './specimens';
+import { unitsOnArrival } from './instrument-units';
 
 /** PostgreSQL text cannot hold U+0000, which line noise often sends; keep it visible as ␀ (U+2400) instead. */
 export function storable<T>(value: T): T {
@@ -80,6 +81,13 @@ export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promis
       specimenByRecord.set(record.key, specimenId);
     }
 
+    // Units UCUM cannot read are listed per instrument; one an administrator has mapped is read as mapped.
+    const units = await unitsOnArrival(
+      tx,
+      bridge.clinicId,
+      readingRecords.filter((r) => !alreadyStored.has(r.key)).map((r) => ({ key: r.key, instrumentId: instrumentByCode.get(r.instrument) ?? null, unit: r.payload.unit })),
+    );
+
     const createdReadings = readingRecords.length
       ? await tx
           .insert(readings)
@@ -99,7 +107,8 @@ export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promis
                 valueText: p.text,
                 notes: p.notes,
                 comparator: p.comparator,
-                unit: p.unit,
+                unit: units.get(record.key)?.unit ?? p.unit,
+                printedUnit: units.get(record.key)?.printedUnit ?? null,
                 flags: p.flags,
                 sampleId: p.sampleId,
                 patientRef: p.patientRef,

@@ -22,6 +22,7 @@ const readingColumns = {
   enteredByName: sql<string | null>`(select ${staffUsers.displayName} from ${staffUsers} where ${staffUsers.id} = ${readings.enteredBy})`,
   comparator: readings.comparator,
   unit: readings.unit,
+  printedUnit: readings.printedUnit,
   flags: readings.flags,
   sampleId: readings.sampleId,
   patientRef: readings.patientRef,

@@ -100,6 +100,12 @@ export const newInstrumentSchema = z.object({
 
 export type NewInstrumentInput = z.infer<typeof newInstrumentSchema>;
 
+/** Admin → Units: the UCUM unit a printed unit is read as from now on (null removes the mapping). */
+export const unitMappingSchema = z.object({
+  ucum: text(32, { min: 1, minMessage: 'Write the UCUM unit (e.g. mg/dL), or remove the mapping.' }).nullable(),
+});
+export type UnitMappingInput = z.infer<typeof unitMappingSchema>;
+
 /** Retire an instrument or return it to service, with a reason for the audit trail. */
 export const instrumentServiceSchema = z.object({
   active: z.boolean(),

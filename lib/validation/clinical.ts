@@ -145,6 +145,24 @@ export const analyteSettingsSchema = z.object({
 });
 export type AnalyteSettingsInput = z.infer<typeof analyteSettingsSchema>;
 
+/**
+ * The per-test rule for coded results (POS/NEG, HL7 CE/CWE): the codes that mean abnormal when the analyzer
+ * sends no flag of its own. Compared without regard to case, against the code and its display text.
+ * An empty list removes the rule (such results are shown as "not interpreted").
+ */
+export const abnormalCodesSchema = z.object({
+  /** For a test the clinic has no settings for yet: the name to show. */
+  name: text(120).optional(),
+  abnormalCodes: z
+    .array(text(32, { min: 1 }).regex(/^[^,]+$/, 'One code per entry, without commas.'))
+    .max(20, 'List at most 20 codes.')
+    .refine((codes) => new Set(codes.map((c) => c.toUpperCase())).size === codes.length, 'A code is listed twice.'),
+});
+export type AbnormalCodesInput = z.infer<typeof abnormalCodesSchema>;
+
+/** A test code in a path (as instruments print it). */
+export const analyteCodeParam = text(64, { min: 1, minMessage: 'Name the test.' });
+
 export const protocolSchema = z.object({
   name: text(120, { min: 2 }),
   stages: z

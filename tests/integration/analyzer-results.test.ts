@@ -7,6 +7,10 @@ import * as results from '@/app/api/patients/[patientId]/results/route';
 import * as assign from '@/app/api/readings/[readingId]/assign/route';
 import * as unreviewed from '@/app/api/reviews/unreviewed/route';
 import { GET as typable } from '@/app/api/captures/analytes/route';
+import * as abnormalCodes from '@/app/api/admin/clinical/analytes/[code]/abnormal-codes/route';
+import * as clinicalConfig from '@/app/api/admin/clinical/route';
+import * as unitsList from '@/app/api/admin/units/route';
+import * as unitMapping from '@/app/api/admin/units/[unitId]/route';
 import { POST as transcribe } from '@/app/api/captures/[captureId]/transcribe/route';
 import type { Database } from '@/db/client';
 import { seededDatabase } from '../helpers/db';
@@ -37,6 +41,46 @@ const chartRow = async (readingId: string) => {
   const chart = await body(await results.GET(request('/api/patients/x/results', { cookie: vet }), params({ patientId: biscuit })));
   return { row: chart.results.find((r: { id: string }) => r.id === readingId), analytes: chart.analytes };
 };
+
+describe('units UCUM cannot read', () => {
+  // "x10^9/L" is a common printed spelling of 10⁹ per litre (common practice, no source); UCUM writes it
+  // 10*9/L (UCUM §§ on "10*" powers of ten, from memory), and ucum-lhc refuses the printed form.
+  it('are listed per instrument as printed, and a mapping applies to later readings with the printed text kept', async () => {
+    const admin = await signIn('admin@fernhollow.example');
+    const fromHaematology = async (value: number) => {
+      const response = await ingest(token, [readingRecord(key(), { analyte: 'WBC', value, unit: 'x10^9/L', raw: `WBC ${value} x10^9/L\n` }, 'hema-analyzer')]);
+      const readingId = (await body(response)).results[0].id;
+      expect((await assign.POST(request('/api/readings/x/assign', { cookie: tech, body: { patientId: biscuit } }), params({ readingId }))).status).toBe(200);
+      return readingId;
+    };
+    const listed = async () => (await body(await unitsList.GET(request('/api/admin/units', { cookie: admin }), undefined))).units;
+    const earlier = await fromHaematology(31.5);
+    const [unit] = (await listed()).filter((u: { printed: string }) => u.printed === 'x10^9/L');
+    expect(unit).toMatchObject({ instrumentCode: 'hema-analyzer', printed: 'x10^9/L', ucum: null, readingCount: 1 });
+    const before = (await chartRow(earlier)).row;
+    expect(before.unit).toBe('x10^9/L');
+    expect(before.clinical.flag).toBeNull();
+    expect(before.clinical.problems.join(' ')).toMatch(/not a UCUM unit/);
+
+    const map = (ucum: string | null, cookie = admin) =>
+      unitMapping.PUT(request(`/api/admin/units/${unit.id}`, { method: 'PUT', cookie, body: { ucum } }), params({ unitId: unit.id }));
+    const wrong = await map('x10^9/L');
+    expect(wrong.status).toBe(400);
+    expect((await body(wrong)).error.issues[0].path).toBe('ucum');
+    expect((await map('10*9/L', tech)).status).toBe(403);
+    expect((await map('10*9/L')).status).toBe(200);
+
+    const later = await fromHaematology(31.5);
+    const after = (await chartRow(later)).row;
+    expect(after).toMatchObject({ unit: '10*9/L', printedUnit: 'x10^9/L' });
+    expect(after.clinical.unitNote).toBe('Printed "x10^9/L", read as 10*9/L (the clinic\'s mapping for this instrument).');
+    // Read in UCUM, it meets the clinic's dog interval for WBC (defaults, from memory) and is flagged.
+    expect(after.clinical.flag).toMatchObject({ flag: expect.stringMatching(/high/) });
+    // The reading that came before the mapping keeps what it arrived with.
+    expect((await chartRow(earlier)).row).toMatchObject({ unit: 'x10^9/L', printedUnit: null });
+    expect((await listed()).find((u: { id: string }) => u.id === unit.id)).toMatchObject({ ucum: '10*9/L', readingCount: 2, mappedByName: expect.any(String) });
+  });
+});
 
 describe('analyzer ranges and flags', () => {
   // Potassium has no clinic interval in the defaults: HL7 OBX-7 "3.5-5.8" and OBX-8 "L" (table 0078, from memory) decide.
@@ -69,6 +113,35 @@ describe('analyzer ranges and flags', () => {
     expect(row.clinical.qualitative).toMatchObject({ label: 'Positive', abnormal: true });
     expect(row.clinical.flag).toBeNull();
     expect(analytes.FELV.qualitative).toBe(true);
+  });
+
+  // The per-test rule (Admin → Results and matching) interprets a coded result the analyzer did not flag;
+  // the analyzer's own flag still comes first (issue 9). Heartworm antigen as an ASTM word (E1394 R.4, from memory).
+  it('interprets an unflagged coded result by the clinic’s abnormal-codes rule, set through the admin API', async () => {
+    const admin = await signIn('admin@fernhollow.example');
+    const put = (code: string, payload: unknown, cookie = admin) =>
+      abnormalCodes.PUT(request(`/api/admin/clinical/analytes/${code}/abnormal-codes`, { method: 'PUT', cookie, body: payload }), params({ code }));
+    const before = await onBiscuit({ analyte: 'HWAG', value: null, code: { system: null, code: 'POS', display: null }, unit: null, raw: 'R|1|^^^HWAG|POS\r' });
+    expect((await chartRow(before)).row.clinical.qualitative).toMatchObject({ abnormal: null, basis: expect.stringMatching(/Not interpreted/) });
+    // The form's shared schema, on the server too: a code twice, a comma inside a code, a non-admin.
+    const twice = await put('HWAG', { abnormalCodes: ['POS', 'pos'] });
+    expect(twice.status).toBe(400);
+    expect((await body(twice)).error.issues[0].path).toBe('abnormalCodes');
+    expect((await body(await put('HWAG', { abnormalCodes: ['POS,WEAK'] }))).error.issues[0].path).toBe('abnormalCodes.0');
+    expect((await put('HWAG', { abnormalCodes: ['POS'] }, tech)).status).toBe(403);
+    const saved = await put('HWAG', { name: 'Heartworm antigen', abnormalCodes: ['POS', 'WEAK POS'] });
+    expect(saved.status).toBe(200);
+    expect((await body(saved)).analyte).toMatchObject({ code: 'HWAG', name: 'Heartworm antigen', abnormalCodes: ['POS', 'WEAK POS'] });
+    const positive = await onBiscuit({ analyte: 'HWAG', value: null, code: { system: null, code: 'pos', display: null }, unit: null, raw: 'R|1|^^^HWAG|pos\r' });
+    expect((await chartRow(positive)).row.clinical.qualitative).toMatchObject({ abnormal: true, basis: 'Clinic rule for HWAG: abnormal when POS, WEAK POS' });
+    const negative = await onBiscuit({ analyte: 'HWAG', value: null, code: { system: null, code: 'NEG', display: null }, unit: null, raw: 'R|1|^^^HWAG|NEG\r' });
+    expect((await chartRow(negative)).row.clinical.qualitative).toMatchObject({ abnormal: false });
+    // The analyzer's flag wins over the rule: NEG flagged A is abnormal.
+    const flagged = await onBiscuit({ analyte: 'HWAG', value: null, code: { system: null, code: 'NEG', display: null }, unit: null, flags: ['A'], raw: 'R|1|^^^HWAG|NEG||||A\r' });
+    expect((await chartRow(flagged)).row.clinical.qualitative).toMatchObject({ abnormal: true, basis: expect.stringMatching(/Analyzer flag/) });
+    // The admin screen lists what was sent so far, to write the rule from.
+    const config = await body(await clinicalConfig.GET(request('/api/admin/clinical', { cookie: admin }), undefined));
+    expect(config.codedResults).toEqual(expect.arrayContaining([expect.objectContaining({ analyte: 'HWAG', code: 'NEG', count: 2 })]));
   });
 
   it('refuses a reading that claims two kinds of value, with the field named', async () => {

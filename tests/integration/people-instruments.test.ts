@@ -13,6 +13,7 @@ import type { Database } from '@/db/client';
 import { auditEvents, instruments } from '@/db/schema';
 import { DEMO_PASSWORD } from '@/db/seed';
 import { seededDatabase } from '../helpers/db';
+import { instrumentsOf, serverConfigSchema } from '@/bridge/config-sync';
 import { params, request, signIn } from '../helpers/http';
 
 // Issue 8, "People and instruments": an administrator sets a temporary password (the person's sessions
@@ -117,6 +118,36 @@ describe('editing and retiring instruments', () => {
     );
     expect(recode.status).toBe(400);
     expect((await body(recode)).error.issues[0].path).toBe('code');
+  });
+
+  // Issue 9: the number format (decimal point or comma, lib/validation/numbers.ts) can be changed after the
+  // instrument was added, and the bridge reads the next numbers with it (its config carries read.decimalMark;
+  // bridge/config-sync.ts turns that into the pipeline's setting, and a changed setting restarts the pipeline).
+  it('changes the number format of an instrument, and the bridge config carries it', async () => {
+    const before = await crp();
+    const config = async () => serverConfigSchema.parse(await body(await bridgeConfig.GET(request('/api/bridge/config', { token }), undefined)));
+    const first = await config();
+    const response = await instrumentRoute.PATCH(
+      request('/api/admin/instruments/x', { method: 'PATCH', cookie: admin, body: { ...asInput(before), readSettings: { decimalMark: 'comma' } } }),
+      params({ instrumentId: before.id }),
+    );
+    expect(response.status).toBe(200);
+    expect((await body(response)).instrument.readSettings).toEqual({ decimalMark: 'comma' });
+    const after = await config();
+    expect(after.version).not.toBe(first.version);
+    expect(after.instruments.find((i) => i.code === 'crp-reader')?.read).toEqual({ decimalMark: 'comma' });
+    expect(instrumentsOf(after).instruments.find((i) => i.code === 'crp-reader')?.decimalMark).toBe('comma');
+    const events = await database.db.select().from(auditEvents).where(and(eq(auditEvents.action, 'instrument.updated'), eq(auditEvents.entityId, before.id)));
+    expect(events.at(-1)?.details.changed).toEqual(expect.arrayContaining(['readSettings']));
+    expect(events.at(-1)?.details.before).toMatchObject({ readSettings: {} });
+    const wrong = await instrumentRoute.PATCH(
+      request('/api/admin/instruments/x', { method: 'PATCH', cookie: admin, body: { ...asInput(before), readSettings: { decimalMark: 'dot' } } }),
+      params({ instrumentId: before.id }),
+    );
+    expect(wrong.status).toBe(400);
+    expect((await body(wrong)).error.issues[0].path).toBe('readSettings.decimalMark');
+    // Back to a decimal point for the tests after this one.
+    await instrumentRoute.PATCH(request('/api/admin/instruments/x', { method: 'PATCH', cookie: admin, body: { ...asInput(before), readSettings: { decimalMark: 'point' } } }), params({ instrumentId: before.id }));
   });
 
   it('retiring takes it out of the bridge’s configuration; its readings, old and late, keep it', async () => {

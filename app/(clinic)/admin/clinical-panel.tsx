@@ -8,6 +8,7 @@ import type { AnalyteSetting, ReferenceInterval, RunProtocol } from '@/db/schema
 import { fetcher, send } from '@/lib/client/fetcher';
 import { formatDuration, protocolSeconds } from '@/lib/clinical/protocols';
 import { speciesLabel } from '@/lib/format';
+import { AbnormalCodesForm, type CodedResultSeen } from './abnormal-codes-form';
 import { Panel, td, th } from './panel';
 
 interface Config {
@@ -16,6 +17,7 @@ interface Config {
   intervals: ReferenceInterval[];
   protocols: RunProtocol[];
   instruments: { id: string; name: string }[];
+  codedResults: CodedResultSeen[];
 }
 
 const num = (v: string) => (v.trim() === '' ? null : Number(v.replace(',', '.')));
@@ -76,6 +78,8 @@ export function ClinicalPanel() {
             <AnalyteRow key={a.id} analyte={a} onSave={(body) => run(() => send(`/api/admin/clinical/analytes/${encodeURIComponent(a.code)}`, 'PATCH', body), `${a.code} saved.`)} />
           ))}
         </div>
+
+        <AbnormalCodesForm analytes={data.analytes} seen={data.codedResults} onSaved={() => void mutate()} />
 
         <div>
           <h3 className="mb-2 font-semibold">Reference intervals</h3>

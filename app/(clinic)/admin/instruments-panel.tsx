@@ -171,7 +171,7 @@ export function InstrumentsPanel() {
               <td className={td}>{i.name}{!i.active && ' (retired)'}{i.serialNumber && <span className="block text-xs text-ink-500">S/N {i.serialNumber}</span>}</td>
               <td className={`${td} font-mono`}>{i.code}</td>
               <td className={td}>{i.analytes.join(', ')}</td>
-              <td className={td}>{DIALECT_LABELS[i.dialect] ?? i.dialect}</td>
+              <td className={td}>{DIALECT_LABELS[i.dialect] ?? i.dialect}<span className="block text-xs text-ink-500">{i.readSettings?.decimalMark === 'comma' ? 'decimal comma (12,5)' : 'decimal point (12.5)'}</span></td>
               <td className={`${td} font-mono text-xs`}>{describeConnection(i.connection)}</td>
               <td className={td}>{i.bridgeName ?? '—'}</td>
               <td className={td}>{i.active ? <HealthCell health={i.health} /> : 'retired'}</td>

@@ -12,6 +12,7 @@ import { InvitePanel } from './invite-panel';
 import { IntegrationsPanel } from './integrations-panel';
 import { PatientImportPanel } from './patient-import-panel';
 import { StaffPanel } from './staff-panel';
+import { UnitsPanel } from './units-panel';
 
 export const metadata: Metadata = { title: 'Admin' };
 
@@ -35,6 +36,7 @@ export default async function AdminPage() {
         <BridgesPanel />
         <InstrumentsPanel />
         <InstrumentHealthPanel />
+        <UnitsPanel />
         <ClinicalPanel />
         <MatchingReportPanel />
         <AlertsMailPanel />

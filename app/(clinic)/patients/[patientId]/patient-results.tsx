@@ -145,7 +145,7 @@ export function PatientResults({ patientId, patientName }: { patientId: string; 
                               typed in by {r.clinical.typedInBy}
                             </span>
                           )}
-                          {r.clinical.unitNote && <span className="block font-sans text-[11px] font-normal text-ink-500">{r.clinical.unitNote}</span>}
+                          {r.clinical.unitNote && <span className="block font-sans text-[11px] font-normal text-ink-500" data-testid="unit-note">{r.clinical.unitNote}</span>}
                           {r.notes.length > 0 && (
                             <span className="block max-w-xs whitespace-normal font-sans text-xs font-normal text-ink-700" data-testid="result-notes">
                               Note: {r.notes.join(' · ')}
