@@ -14,6 +14,8 @@ import { POST as panelAssignRoute } from '@/app/api/specimens/[specimenId]/assig
 import { POST as panelReassignRoute } from '@/app/api/specimens/[specimenId]/reassign/route';
 import { POST as panelVoidRoute } from '@/app/api/specimens/[specimenId]/void/route';
 import { POST as startOrderRoute } from '@/app/api/orders/route';
+import { GET as patientResultsRoute } from '@/app/api/patients/[patientId]/results/route';
+import { formatMeasured } from '@/lib/format';
 import type { Database } from '@/db/client';
 import { auditEvents, labOrders, readings, resultAssignments } from '@/db/schema';
 import { seededDatabase } from '../helpers/db';
@@ -274,5 +276,57 @@ describe('Intake never hides a reading', () => {
     const response = await waitingRoute(request('/api/readings/waiting?pageSize=0', { cookie: techCookie }), undefined);
     expect(response.status).toBe(400);
     expect((await body(response)).error.issues[0].path).toBe('pageSize');
+  });
+});
+
+describe('a panel as the analyzer sent it', () => {
+  // The order and the digits are the analyzer's: results are listed in the order its records came (ASTM
+  // E1394 §10.1.2 R.2 sequence numbers, HL7 v2 OBX-1 set IDs, from memory; the bridge sends them in that
+  // order), and each value keeps the decimals it was printed with (common practice, no source).
+  const SENT = [
+    { analyte: 'TP', value: 71, printed: '71', decimals: 0, unit: 'g/L' },
+    { analyte: 'GLU', value: 5, printed: '5.0', decimals: 1, unit: 'mmol/L' },
+    { analyte: 'ALB', value: 32, printed: '32', decimals: 0, unit: 'g/L' },
+    { analyte: 'ALT', value: 26, printed: '26', decimals: 0, unit: 'U/L' },
+    { analyte: 'CREA', value: 88, printed: '88', decimals: 0, unit: 'umol/L' },
+    { analyte: 'BUN', value: 6.25, printed: '6.25', decimals: 2, unit: 'mmol/L' },
+    { analyte: 'ALP', value: 40, printed: '40', decimals: null, unit: 'U/L' }, // an older bridge: precision unknown
+  ];
+
+  it('Intake lists the readings in the order they were sent, on every reload, with the precision each was sent with', async () => {
+    const measuredAt = new Date(Date.now() - 60_000).toISOString();
+    // One message: the bridge gives its records one arrival time, so only the sent order can order them.
+    const receivedAt = new Date().toISOString();
+    const records = SENT.map((s, i) => ({
+      ...readingRecord(
+        `order-${String(++n).padStart(8, '0')}`,
+        { analyte: s.analyte, value: s.value, unit: s.unit, sampleId: 'C-7401', measuredAt, raw: `R|${i + 1}|^^^${s.analyte}|${s.printed}|${s.unit}\r`, ...(s.decimals === null ? {} : { decimals: s.decimals }) },
+        'chem-analyzer',
+      ),
+      receivedAt,
+    }));
+    expect((await ingest(token, records)).status).toBe(200);
+    for (let reload = 0; reload < 3; reload++) {
+      const row = (await waiting('?pageSize=200')).specimens.find((s: { sampleId: string }) => s.sampleId === 'C-7401');
+      expect(row.readings.map((r: { analyte: string }) => r.analyte)).toEqual(SENT.map((s) => s.analyte));
+      // Intake's decimals: as sent, else the analyte's setting (ALP: 0 in the clinical defaults, lib/clinical/defaults.ts).
+      expect(row.readings.map((r: { decimals: number }) => r.decimals)).toEqual([0, 1, 0, 0, 0, 2, 0]);
+      expect(row.readings.map((r: { valueDecimals: number | null }) => r.valueDecimals)).toEqual(SENT.map((s) => s.decimals));
+    }
+  });
+
+  it('the chart shows "5.0" as 5.0 and "26" as 26 after the panel is assigned', async () => {
+    const row = (await waiting('?pageSize=200')).specimens.find((s: { sampleId: string }) => s.sampleId === 'C-7401');
+    const ids = row.readings.map((r: { id: string }) => r.id);
+    expect((await panelAssign(row.id, { patientId: otto.id, readingIds: ids })).status).toBe(200);
+    const chart = await body(await patientResultsRoute(request(`/api/patients/${otto.id}/results`, { cookie: vetCookie }), params({ patientId: otto.id })));
+    const shown = (analyte: string) => {
+      const r = chart.results.find((x: { id: string; analyte: string }) => ids.includes(x.id) && x.analyte === analyte);
+      return formatMeasured(r.clinical.display, chart.analytes[analyte].decimals);
+    };
+    expect(shown('GLU')).toBe('5.0 mmol/L');
+    expect(shown('ALT')).toBe('26 U/L');
+    expect(shown('BUN')).toBe('6.25 mmol/L');
+    expect(shown('ALP')).toBe('40 U/L');
   });
 });
