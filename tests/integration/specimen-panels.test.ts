@@ -10,6 +10,7 @@ import { body, ingest, patientByRecord, readingRecord } from './support';
 import { GET as waitingRoute } from '@/app/api/readings/waiting/route';
 import { POST as assignReadingRoute } from '@/app/api/readings/[readingId]/assign/route';
 import { POST as splitRoute } from '@/app/api/readings/[readingId]/split/route';
+import { POST as reassignReadingRoute } from '@/app/api/readings/[readingId]/reassign/route';
 import { POST as panelAssignRoute } from '@/app/api/specimens/[specimenId]/assign/route';
 import { POST as panelReassignRoute } from '@/app/api/specimens/[specimenId]/reassign/route';
 import { POST as panelVoidRoute } from '@/app/api/specimens/[specimenId]/void/route';
@@ -226,6 +227,56 @@ describe('moving and voiding a panel', () => {
     const response = await panelVoid(specimenIds[0], { readingIds: ids, reason: '' });
     expect(response.status).toBe(400);
     expect((await body(response)).error.issues[0].path).toBe('reason');
+  });
+});
+
+describe('correcting a panel from the chart', () => {
+  it('moves the panel the person saw: 409 patient_changed when it was moved meanwhile, nothing half-moved', async () => {
+    const { ids, specimenIds } = await chemistryPanel('C-7211', ['GLU', 'ALT', 'ALB']);
+    expect((await panelAssign(specimenIds[0], { patientId: moss.id, readingIds: ids })).status).toBe(200);
+    // Someone else moved it to Pepper; a chart still showing it on Moss asks to move it from Moss.
+    expect((await panelMove(specimenIds[0], { patientId: pepper.id, fromPatientId: moss.id, readingIds: ids, reason: 'label misread' })).status).toBe(200);
+    const stale = await panelMove(specimenIds[0], { patientId: otto.id, fromPatientId: moss.id, readingIds: ids, reason: 'label misread' });
+    expect(stale.status).toBe(409);
+    expect((await body(stale)).error.code).toBe('patient_changed');
+    expect((await statuses(ids)).every((r) => r.patientId === pepper.id)).toBe(true);
+  });
+
+  it('moving one result alone splits it off the panel; the rest then moves as a panel without it', async () => {
+    const { ids, specimenIds } = await chemistryPanel('C-7212', ['GLU', 'ALT', 'ALB']);
+    expect((await panelAssign(specimenIds[0], { patientId: moss.id, readingIds: ids })).status).toBe(200);
+    const single = await reassignReadingRoute(
+      request('/api/readings/x/reassign', { cookie: techCookie, body: { patientId: otto.id, fromPatientId: moss.id, reason: 'ALT was another tube' } }),
+      params({ readingId: ids[1] }),
+    );
+    expect(single.status).toBe(200);
+    const moved = (await statuses([ids[1]]))[0];
+    expect(moved).toMatchObject({ patientId: otto.id });
+    expect(moved.specimenId).not.toBe(specimenIds[0]);
+    const split = await database.db.select().from(auditEvents).where(and(eq(auditEvents.action, 'reading.split-off'), eq(auditEvents.entityId, ids[1])));
+    expect(split).toHaveLength(1);
+    // The panel left on Moss is GLU and ALB; moving it does not take ALT back.
+    const rest = [ids[0], ids[2]];
+    expect((await panelMove(specimenIds[0], { patientId: pepper.id, fromPatientId: moss.id, readingIds: rest, reason: 'label misread' })).status).toBe(200);
+    expect((await statuses(ids)).map((r) => [r.id, r.patientId]).sort()).toEqual([
+      [ids[0], pepper.id],
+      [ids[1], otto.id],
+      [ids[2], pepper.id],
+    ].sort());
+    // Named as part of the panel, the split-off result is refused, and nothing moves.
+    const wrong = await panelMove(specimenIds[0], { patientId: moss.id, readingIds: ids, reason: 'label misread' });
+    expect(wrong.status).toBe(409);
+    expect((await statuses(rest)).every((r) => r.patientId === pepper.id)).toBe(true);
+  });
+
+  it('voids a panel on the record in one action; each result keeps its history', async () => {
+    const { ids, specimenIds } = await chemistryPanel('C-7213', ['GLU', 'ALT']);
+    expect((await panelAssign(specimenIds[0], { patientId: moss.id, readingIds: ids })).status).toBe(200);
+    expect((await panelVoid(specimenIds[0], { readingIds: ids, reason: 'clotted sample', onRecord: true })).status).toBe(200);
+    const rows = await statuses(ids);
+    expect(rows.every((r) => r.status === 'voided' && r.patientId === null)).toBe(true);
+    const ended = await database.db.select().from(resultAssignments).where(inArray(resultAssignments.readingId, ids));
+    expect(ended.every((a) => a.endReason === 'clotted sample')).toBe(true);
   });
 });
 
