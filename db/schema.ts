@@ -2,6 +2,7 @@
 // Every row belongs to a clinic, so a clinic group can share one PostgreSQL server later.
 import { sql } from 'drizzle-orm';
 import {
+  smallint,
   bigint,
   boolean,
   check,
@@ -314,6 +315,10 @@ export const readings = pgTable(
     qualityMarks: text().array().notNull().default(sql`'{}'::text[]`),
     /** The sample it was measured on; set at ingest (older rows get their own specimen in the migration). */
     specimenId: uuid().references((): AnyPgColumn => specimens.id, { onDelete: 'restrict' }),
+    /** Digits after the decimal mark as the instrument printed the value ("5.0" → 1, "26" → 0); null when unknown (typed in, older rows). */
+    valueDecimals: smallint(),
+    /** Arrival order: ingest numbers a batch's readings in the order the bridge sent them (the analyzer's own order). */
+    arrival: bigint({ mode: 'number' }).generatedByDefaultAsIdentity(),
   },
   (t) => [
     uniqueIndex('readings_bridge_key').on(t.bridgeId, t.idempotencyKey),

@@ -38,9 +38,15 @@ export function formatResult(
   return `${r.comparator ?? ''}${number}${unit ? ` ${unit}` : ''}`;
 }
 
-/** Rounds for display with the analyte's decimals, keeping the comparator as sent: "<5 mg/L". */
-export function formatMeasured(m: { value: number | null; comparator: '<' | '>' | null; unit: string | null }, decimals = 1): string {
-  return formatResult(m, decimals);
+/**
+ * Rounds for display with the decimals the result carries (the precision it was sent with, else the
+ * analyte's setting: lib/clinical/evaluate.ts), else `decimals`; the comparator as sent: "<5 mg/L".
+ */
+export function formatMeasured(
+  m: { value: number | null; comparator: '<' | '>' | null; unit: string | null; decimals?: number | null },
+  decimals = 1,
+): string {
+  return formatResult(m, m.decimals ?? decimals);
 }
 
 /** The cautions every screen, report and e-mail that shows results carries. */

@@ -1,6 +1,6 @@
 import 'server-only';
 import { aliasedTable, and, asc, desc, eq, inArray } from 'drizzle-orm';
-import { db } from '@/db/client';
+import { db, type Tx } from '@/db/client';
 import { analyteSettings, instruments, labOrders, patients, runProtocols, staffUsers, type StaffRole } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { allowed } from '@/lib/auth/roles';
@@ -10,7 +10,7 @@ import { dueAt } from '@/lib/clinical/protocols';
 import { ApiError, notFound } from '@/lib/http';
 import { publish } from '@/lib/live/bus';
 import { loadedLot } from '@/lib/quality/store';
-import type { NewOrderInput } from '@/lib/validation/clinical';
+import type { NewOrderInput, NewPanelInput } from '@/lib/validation/clinical';
 
 // Starting and closing tests is bench work: technicians and veterinarians (the brief), not administrators.
 const RUNS_TESTS: readonly StaffRole[] = ['technician', 'veterinarian'];
@@ -25,9 +25,8 @@ const FUTURE_SLACK_MS = 60_000;
 /** A run started this long ago is not a bench run any more: refuse rather than invent a due time. */
 const MAX_PAST_MS = 24 * 3_600_000;
 
-/** Starts a test for a patient: the due time comes from the protocol's stages, which the order keeps a copy of. */
-export async function startOrder(actor: Actor, input: NewOrderInput, now = new Date()) {
-  mustRun(actor);
+/** The run's start time, checked: the past within a day, the future only within clock skew. */
+function startTime(input: { startedAt?: string }, now: Date): Date {
   const startedAt = input.startedAt ? new Date(input.startedAt) : now;
   if (startedAt.getTime() > now.getTime() + FUTURE_SLACK_MS) {
     throw new ApiError(400, 'invalid_request', 'The start time is in the future.', [{ path: 'startedAt', message: 'The start time is in the future.' }]);
@@ -35,67 +34,99 @@ export async function startOrder(actor: Actor, input: NewOrderInput, now = new D
   if (now.getTime() - startedAt.getTime() > MAX_PAST_MS) {
     throw new ApiError(400, 'invalid_request', 'The start time is more than a day ago.', [{ path: 'startedAt', message: 'The start time is more than a day ago.' }]);
   }
+  return startedAt;
+}
+
+/** Starts a test for a patient: the due time comes from the protocol's stages, which the order keeps a copy of. */
+export async function startOrder(actor: Actor, input: NewOrderInput, now = new Date()) {
+  mustRun(actor);
+  const startedAt = startTime(input, now);
+  const database = await db();
+  return database.transaction((tx) => startOrderIn(tx, actor, input, startedAt));
+}
+
+/**
+ * Starts a reader's whole panel on one sample: every test starts, or none does (one transaction). A test
+ * that cannot start names itself in the error (its path is `analytes.<index>`), and nothing is left running.
+ */
+export async function startPanel(actor: Actor, input: NewPanelInput, now = new Date()) {
+  mustRun(actor);
+  const startedAt = startTime(input, now);
   const database = await db();
   return database.transaction(async (tx) => {
-    const [patient] = await tx
-      .select({ id: patients.id, active: patients.active, name: patients.name, recordNumber: patients.recordNumber })
-      .from(patients)
-      .where(and(eq(patients.id, input.patientId), eq(patients.clinicId, actor.clinicId)));
-    if (!patient) throw notFound('The patient');
-    if (!patient.active) throw new ApiError(409, 'patient_inactive', 'This patient’s record is closed.');
-    const [orderer] = await tx
-      .select({ id: staffUsers.id, active: staffUsers.active })
-      .from(staffUsers)
-      .where(and(eq(staffUsers.id, input.orderedBy), eq(staffUsers.clinicId, actor.clinicId)));
-    if (!orderer || !orderer.active) throw notFound('The staff member who ordered the test');
-    if (input.instrumentId) {
-      const [instrument] = await tx
-        .select({ id: instruments.id, analytes: instruments.analytes, name: instruments.name })
-        .from(instruments)
-        .where(and(eq(instruments.id, input.instrumentId), eq(instruments.clinicId, actor.clinicId), eq(instruments.active, true)));
-      if (!instrument) throw notFound('The instrument');
-      if (!instrument.analytes.includes(input.analyte)) {
-        const message = `${instrument.name} does not run ${input.analyte}.`;
-        throw new ApiError(400, 'invalid_request', message, [{ path: 'analyte', message }]);
+    const orders = [];
+    for (const [index, analyte] of input.analytes.entries()) {
+      try {
+        orders.push(await startOrderIn(tx, actor, { ...input, analyte }, startedAt));
+      } catch (error) {
+        if (!(error instanceof ApiError)) throw error;
+        const message = `${analyte} could not start, so no test of the panel was started: ${error.message}`;
+        throw new ApiError(error.status, error.code, message, [{ path: `analytes.${index}`, message }], { analyte });
       }
     }
-    const protocol = await protocolFor(tx, actor.clinicId, input.analyte, input.instrumentId ?? null);
-    if (!protocol) {
-      throw new ApiError(409, 'no_protocol', `There is no run protocol for ${input.analyte}; an administrator can add one in Admin.`);
-    }
-    // Lab quality: the lot loaded for this test, so an aborted run still counts against it.
-    const lot = await loadedLot(tx, actor.clinicId, input.instrumentId ?? null, input.analyte);
-    const [order] = await tx
-      .insert(labOrders)
-      .values({
-        clinicId: actor.clinicId,
-        patientId: patient.id,
-        analyte: input.analyte,
-        instrumentId: input.instrumentId ?? null,
-        sampleType: input.sampleType,
-        sampleId: input.sampleId ?? null,
-        kitLot: input.kitLot ?? lot?.lotNumber ?? null,
-        kitLotId: lot?.id ?? null,
-        orderedBy: orderer.id,
-        startedBy: actor.userId,
-        startedAt,
-        dueAt: dueAt(startedAt, protocol.stages),
-        protocolId: protocol.id,
-        stages: protocol.stages,
-        note: input.note ?? null,
-      })
-      .returning();
-    await recordAudit(tx, {
-      clinicId: actor.clinicId,
-      actorUserId: actor.userId,
-      action: 'order.started',
-      entityType: 'order',
-      entityId: order.id,
-      details: { patientId: patient.id, recordNumber: patient.recordNumber, analyte: order.analyte, startedAt: order.startedAt, dueAt: order.dueAt, protocolId: protocol.id },
-    });
-    await publish(tx, { type: 'order.created', clinicId: actor.clinicId, id: order.id, patientId: patient.id });
-    return order;
+    return orders;
   });
+}
+
+async function startOrderIn(tx: Tx, actor: Actor, input: NewOrderInput, startedAt: Date) {
+  const [patient] = await tx
+    .select({ id: patients.id, active: patients.active, name: patients.name, recordNumber: patients.recordNumber })
+    .from(patients)
+    .where(and(eq(patients.id, input.patientId), eq(patients.clinicId, actor.clinicId)));
+  if (!patient) throw notFound('The patient');
+  if (!patient.active) throw new ApiError(409, 'patient_inactive', 'This patient’s record is closed.');
+  const [orderer] = await tx
+    .select({ id: staffUsers.id, active: staffUsers.active })
+    .from(staffUsers)
+    .where(and(eq(staffUsers.id, input.orderedBy), eq(staffUsers.clinicId, actor.clinicId)));
+  if (!orderer || !orderer.active) throw notFound('The staff member who ordered the test');
+  if (input.instrumentId) {
+    const [instrument] = await tx
+      .select({ id: instruments.id, analytes: instruments.analytes, name: instruments.name })
+      .from(instruments)
+      .where(and(eq(instruments.id, input.instrumentId), eq(instruments.clinicId, actor.clinicId), eq(instruments.active, true)));
+    if (!instrument) throw notFound('The instrument');
+    if (!instrument.analytes.includes(input.analyte)) {
+      const message = `${instrument.name} does not run ${input.analyte}.`;
+      throw new ApiError(400, 'invalid_request', message, [{ path: 'analyte', message }]);
+    }
+  }
+  const protocol = await protocolFor(tx, actor.clinicId, input.analyte, input.instrumentId ?? null);
+  if (!protocol) {
+    throw new ApiError(409, 'no_protocol', `There is no run protocol for ${input.analyte}; an administrator can add one in Admin.`);
+  }
+  // Lab quality: the lot loaded for this test, so an aborted run still counts against it.
+  const lot = await loadedLot(tx, actor.clinicId, input.instrumentId ?? null, input.analyte);
+  const [order] = await tx
+    .insert(labOrders)
+    .values({
+      clinicId: actor.clinicId,
+      patientId: patient.id,
+      analyte: input.analyte,
+      instrumentId: input.instrumentId ?? null,
+      sampleType: input.sampleType,
+      sampleId: input.sampleId ?? null,
+      kitLot: input.kitLot ?? lot?.lotNumber ?? null,
+      kitLotId: lot?.id ?? null,
+      orderedBy: orderer.id,
+      startedBy: actor.userId,
+      startedAt,
+      dueAt: dueAt(startedAt, protocol.stages),
+      protocolId: protocol.id,
+      stages: protocol.stages,
+      note: input.note ?? null,
+    })
+    .returning();
+  await recordAudit(tx, {
+    clinicId: actor.clinicId,
+    actorUserId: actor.userId,
+    action: 'order.started',
+    entityType: 'order',
+    entityId: order.id,
+    details: { patientId: patient.id, recordNumber: patient.recordNumber, analyte: order.analyte, startedAt: order.startedAt, dueAt: order.dueAt, protocolId: protocol.id },
+  });
+  await publish(tx, { type: 'order.created', clinicId: actor.clinicId, id: order.id, patientId: patient.id });
+  return order;
 }
 
 /**

@@ -51,6 +51,8 @@ describe('ASTM E1394 dialect', () => {
         kind: 'reading',
         analyte: 'GLU',
         value: 5.2,
+        // R.4 printed "5.2": one decimal, kept so the value shows as the analyzer printed it.
+        decimals: 1,
         comparator: null,
         unit: 'mmol/L',
         flags: ['N'],
@@ -67,7 +69,7 @@ describe('ASTM E1394 dialect', () => {
         resultStatus: 'final',
         raw: `${H}\r${P}\r${O}\r${R(1, 'GLU', '5.2', 'mmol/L', 'N')}\r${L}\r`,
       },
-      expect.objectContaining({ analyte: 'CREA', value: 18, comparator: '<', unit: 'umol/L', flags: ['L'], sampleId: 'S-2001' }),
+      expect.objectContaining({ analyte: 'CREA', value: 18, decimals: 0, comparator: '<', unit: 'umol/L', flags: ['L'], sampleId: 'S-2001' }),
     ]);
   });
 

@@ -159,12 +159,14 @@ function readResult(
   // A number in the instrument's own decimal mark (never guessed), else a word result such as POS or NEG.
   let value: number | null = null;
   let comparator: '<' | '>' | null = null;
+  let decimals: number | null = null;
   let code: CodedValue | null = null;
   if (looksNumeric(valueText)) {
     const number = readNumber(valueText, context.decimalMark);
     if (!number.ok) return fail(`${analyte}: R.4 ${number.reason}`);
     value = number.value;
     comparator = number.comparator;
+    decimals = number.decimals;
   } else if (WORD.test(valueText)) {
     code = { system: null, code: valueText, display: null };
   } else {
@@ -186,6 +188,7 @@ function readResult(
     analyte,
     value,
     comparator,
+    decimals,
     code,
     notes: context.notes,
     unit: record.component(5) || null,

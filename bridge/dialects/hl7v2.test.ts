@@ -58,6 +58,8 @@ describe('HL7 v2 dialect', () => {
         kind: 'reading',
         analyte: 'WBC',
         value: 12.4,
+        // OBX-5 printed "12.4": one decimal, kept as the precision it was sent with.
+        decimals: 1,
         comparator: null,
         unit: '10*9/L',
         flags: ['N'],

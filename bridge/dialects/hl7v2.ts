@@ -195,7 +195,7 @@ function parseMessage(frame: RecordFrame): ParserOutput[] {
   return outputs;
 }
 
-type NumericRead = { ok: true; value: number; comparator: '<' | '>' | null } | { ok: false; reason: string };
+type NumericRead = { ok: true; value: number; comparator: '<' | '>' | null; decimals: number } | { ok: false; reason: string };
 
 /** An NM or SN observation's value (HL7 v2 chapter 2: NM is an optional sign, digits and an optional decimal point). */
 function readNumeric(obx: Segment): NumericRead {
@@ -220,7 +220,7 @@ function readNumeric(obx: Segment): NumericRead {
   const number = readNumber(valueText, 'point');
   if (!number.ok) return { ok: false, reason: `OBX-5 should be a number (${type}): ${number.reason}` };
   if (comparator !== null && number.comparator !== null) return { ok: false, reason: `OBX-5 has two comparators` };
-  return { ok: true, value: number.value, comparator: (comparator as '<' | '>' | null) ?? number.comparator };
+  return { ok: true, value: number.value, comparator: (comparator as '<' | '>' | null) ?? number.comparator, decimals: number.decimals };
 }
 
 /** Whether an observation should be a number but cannot be read as one (the only case answered AE). */
@@ -244,6 +244,7 @@ function readObservation(
   const notes = context.notes.map((nte) => fieldText(nte, 3)).filter((n) => n !== '');
   let value: number | null = null;
   let comparator: '<' | '>' | null = null;
+  let decimals: number | null = null;
   let code: CodedValue | null = null;
   let text: string | null = null;
   if (obx.raw(5) === '') return fail('OBX-5 holds no value');
@@ -252,6 +253,7 @@ function readObservation(
     if (!number.ok) return fail(number.reason);
     value = number.value;
     comparator = number.comparator;
+    decimals = number.decimals;
   } else if (CODED_TYPES.has(type)) {
     // CE/CWE: identifier ^ text ^ name of coding system; further repetitions are kept as notes, not dropped.
     const [first, ...more] = obx.raw(5).split(obx.encoding.repetition).filter((r) => r !== '');
@@ -268,6 +270,7 @@ function readObservation(
     if (number.ok && !obx.raw(5).includes(obx.encoding.repetition)) {
       value = number.value;
       comparator = number.comparator;
+      decimals = number.decimals;
     } else text = fieldText(obx, 5);
   } else {
     text = fieldText(obx, 5);
@@ -289,6 +292,7 @@ function readObservation(
     analyte,
     value,
     comparator,
+    decimals,
     code,
     text,
     notes,

@@ -55,6 +55,7 @@ describe('plain-printout dialect', () => {
       kind: 'reading',
       analyte: 'cCRP',
       value: 37.4,
+      decimals: 1,
       comparator: null,
       unit: 'mg/L',
       flags: [],
@@ -79,7 +80,7 @@ describe('plain-printout dialect', () => {
   });
 
   it('reads comparators as value plus comparator', async () => {
-    expect(await readingOf(slip('TEST      cCRP', 'RESULT    <5.0 mg/L'))).toMatchObject({ value: 5, comparator: '<', unit: 'mg/L' });
+    expect(await readingOf(slip('TEST      cCRP', 'RESULT    <5.0 mg/L'))).toMatchObject({ value: 5, decimals: 1, comparator: '<', unit: 'mg/L' });
     expect(await readingOf(slip('TEST      cCRP', 'RESULT    >200 mg/L'))).toMatchObject({ value: 200, comparator: '>', unit: 'mg/L' });
     expect(await readingOf(slip('TEST      cCRP', 'RESULT    > 200 mg/L'))).toMatchObject({ value: 200, comparator: '>' });
   });

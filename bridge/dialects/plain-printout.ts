@@ -1,3 +1,4 @@
+import { printedDecimals } from '../../lib/validation/numbers';
 import { parsedReadingSchema, type ParserOutput } from '../../lib/validation/readings';
 import type { RecordFrame } from '../framing/records';
 import { fragment } from '../fragments';
@@ -68,6 +69,7 @@ function readFields(record: RecordFrame) {
     kind: 'reading' as const,
     analyte,
     value: Number(value[2].replace(',', '.')),
+    decimals: printedDecimals(value[2]),
     comparator: (value[1] ?? null) as '<' | '>' | null,
     unit: value[3]?.trim() || null,
     flags: [],

@@ -44,9 +44,9 @@ describe('previewProfile', () => {
     const common = { sampleId: 'S-5001', patientRef: 'PT-12', measuredAt: '2026-12-01T14:03:00+01:00', instrumentSerial: null, referenceRange: null, resultStatus: null, code: null, text: null, notes: [], raw: printout };
     expect(preview.outputs).toEqual([
       { kind: 'unparsed', raw: 'PAPER OUT\r\n', reason: 'text outside any record' },
-      { kind: 'reading', analyte: 'GLU', value: 5.2, comparator: null, unit: 'mmol/L', flags: [], ...common },
-      { kind: 'reading', analyte: 'CREA', value: 18, comparator: '<', unit: 'umol/L', flags: ['L'], ...common },
-      { kind: 'reading', analyte: 'ALT', value: 43, comparator: null, unit: 'U/L', flags: ['H'], ...common },
+      { kind: 'reading', analyte: 'GLU', value: 5.2, decimals: 1, comparator: null, unit: 'mmol/L', flags: [], ...common },
+      { kind: 'reading', analyte: 'CREA', value: 18, decimals: 0, comparator: '<', unit: 'umol/L', flags: ['L'], ...common },
+      { kind: 'reading', analyte: 'ALT', value: 43, decimals: 0, comparator: null, unit: 'U/L', flags: ['H'], ...common },
     ]);
     expect(preview.unparsed).toEqual([preview.outputs[0]]);
     expect(preview.records).toHaveLength(1);

@@ -1,3 +1,4 @@
+import { printedDecimals } from '../../lib/validation/numbers';
 import {
   profileDefinitionSchema,
   type ProfileCapture,
@@ -142,6 +143,7 @@ function readResult(profile: CompiledProfile, captures: Captures, raw: string): 
     kind: 'reading',
     analyte,
     value: Number(number[2].replace(',', '.')),
+    decimals: printedDecimals(number[2]),
     code: null,
     text: null,
     notes: [],

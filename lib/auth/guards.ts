@@ -16,6 +16,8 @@ export interface Actor {
   email: string;
   /** Veterinarians on duty see every open critical result, not only their own patients'. */
   onDuty?: boolean;
+  /** Signed in with a temporary password: only changing it, reading the session and signing out are allowed. */
+  mustChangePassword?: boolean;
 }
 
 /** Resolves a sealed session cookie to an active staff member, re-reading role and status from the database. */
@@ -38,17 +40,28 @@ export async function actorFromSeal(seal: string | null | undefined): Promise<Ac
     );
   const user = row?.user;
   if (!user || !user.active) return null;
-  return { userId: user.id, clinicId: user.clinicId, role: user.role, displayName: user.displayName, email: user.email, onDuty: user.onDuty };
+  return { userId: user.id, clinicId: user.clinicId, role: user.role, displayName: user.displayName, email: user.email, onDuty: user.onDuty, mustChangePassword: user.mustChangePassword };
 }
 
 export function actorFromRequest(request: Request): Promise<Actor | null> {
   return actorFromSeal(cookieValue(request.headers.get('cookie'), SESSION_COOKIE));
 }
 
-/** 401 without a valid session, 403 when the role lacks the permission. */
-export async function requireActor(request: Request, permission?: Permission): Promise<Actor> {
+/**
+ * 401 without a valid session, 403 when the role lacks the permission, 403 `password_change_required`
+ * while the person still has a temporary password (unless the route is one of the few allowed then:
+ * changing the password and reading one's own session; signing out needs no actor).
+ */
+export async function requireActor(
+  request: Request,
+  permission?: Permission,
+  options: { whilePasswordChangeRequired?: boolean } = {},
+): Promise<Actor> {
   const actor = await actorFromRequest(request);
   if (!actor) throw new ApiError(401, 'unauthenticated', 'Sign in to continue.');
+  if (actor.mustChangePassword && !options.whilePasswordChangeRequired) {
+    throw new ApiError(403, 'password_change_required', 'Choose a new password first (you signed in with a temporary one): POST /api/auth/password.');
+  }
   if (permission && !allowed(actor.role, permission)) {
     throw new ApiError(403, 'forbidden', 'Your role does not allow this.');
   }

@@ -120,8 +120,11 @@ export interface Qualitative {
 }
 
 export interface Evaluation {
-  /** The result in the clinic's display unit, comparator kept. */
-  display: { value: number | null; comparator: Comparator; unit: string | null };
+  /**
+   * The result in the clinic's display unit, comparator kept; `decimals` to show it with: the precision it
+   * was sent with while shown in the printed unit, else the analyte's setting (null: neither is known).
+   */
+  display: { value: number | null; comparator: Comparator; unit: string | null; decimals?: number | null };
   /** The interval in the display unit, when one applies and the units convert; `origin` says whose it is. */
   interval: (Limits & { unit: string; source: string; id: string; origin: 'clinic' | 'analyzer' }) | null;
   flag: FlagResult | null;
@@ -150,6 +153,8 @@ export interface EvaluatedReading {
   flags?: string[];
   valueCode?: { system: string | null; code: string; display: string | null } | null;
   valueText?: string | null;
+  /** Digits after the decimal mark as the instrument printed the value; null when unknown. */
+  valueDecimals?: number | null;
 }
 
 function qualitativeOf(reading: EvaluatedReading, analyte: AnalyteContext | undefined, analyzerFlag: AnalyzerFlag | null): Qualitative | null {
@@ -179,7 +184,7 @@ export function evaluateResult(
   if (qualitative) {
     return { display: { value: null, comparator: null, unit: reading.unit }, interval: null, flag: null, band: null, analyzerFlag, qualitative, unitNote: null, problems, speciesWarning: warning };
   }
-  let display = { value: reading.value, comparator: reading.comparator, unit: reading.unit };
+  let display: Evaluation['display'] = { value: reading.value, comparator: reading.comparator, unit: reading.unit };
   const unitCheck = checkUnit(reading.unit);
   if (!unitCheck.ok) problems.push(`Unit: ${unitCheck.message}`);
   const displayUnit = analyte?.displayUnit ?? (unitCheck.ok ? unitCheck.ucum : null);
@@ -190,6 +195,11 @@ export function evaluateResult(
   } else if (unitCheck.ok) {
     display = { ...display, unit: displayUnit ?? unitCheck.ucum };
   }
+  // The analyzer's printed digits hold while the value is shown in the unit it was printed in; a converted
+  // value (mg/dL shown as mg/L) takes the analyte's setting instead.
+  const inPrintedUnit = display.unit === (unitCheck.ok ? unitCheck.ucum : reading.unit);
+  const sent = inPrintedUnit ? (reading.valueDecimals ?? null) : null;
+  display = { ...display, decimals: sent ?? analyte?.decimals ?? null };
 
   // The clinic's interval (analyte, species, instrument) when there is one, else the analyzer's own range.
   const chosen = pickInterval(intervals, reading.analyte, patient.species, reading.instrumentId);

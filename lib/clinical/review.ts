@@ -111,6 +111,7 @@ export async function unreviewedResults(actor: Actor, mine: boolean) {
       id: readings.id,
       analyte: readings.analyte,
       value: readings.value,
+      valueDecimals: readings.valueDecimals,
       valueCode: readings.valueCode,
       valueText: readings.valueText,
       notes: readings.notes,

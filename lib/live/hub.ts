@@ -76,6 +76,8 @@ export async function createLiveHub() {
       console.error('[benchwire] live feed: could not check a session', error);
     }
     if (!actor) return refuse(socket, 401, 'Unauthorized');
+    // A temporary password must be changed before anything else, the live feed included.
+    if (actor.mustChangePassword) return refuse(socket, 403, 'Forbidden');
     const sessionId = (await unsealSession(seal))?.sessionId;
     wss.handleUpgrade(request, socket, head, (ws) => {
       const member: Member = { socket: ws, userId: actor.userId, sessionId, alive: true };

@@ -7,6 +7,7 @@ import { recordAudit } from '@/lib/audit';
 import { ApiError } from '@/lib/http';
 import { publish } from '@/lib/live/bus';
 import { loadPatientForPlacement, lockReading, placeReading, takeOffRecord, type PlacementPatient } from './placement';
+import { splitOffLocked } from './specimens';
 
 
 const mustAssign = (actor: Actor) => {
@@ -76,7 +77,10 @@ export async function reassignReading(
   const database = await db();
   return database.transaction(async (tx) => {
     const reading = await lockReading(tx, actor, readingId);
-    return reassignLocked(tx, actor, reading, input);
+    const moved = await reassignLocked(tx, actor, reading, input);
+    // Moved alone, a result of a panel leaves that panel: the rest stays together where it was.
+    const split = await splitOffLocked(tx, actor, reading, 'assigned');
+    return { ...moved, splitOffSpecimenId: split?.specimenId ?? null };
   });
 }
 

@@ -1,5 +1,5 @@
 import 'server-only';
-import { and, eq, inArray } from 'drizzle-orm';
+import { and, eq, inArray, sql } from 'drizzle-orm';
 import { db, type Tx } from '@/db/client';
 import { bridges, instruments, readings, unparsedCaptures, type Bridge } from '@/db/schema';
 import { recordAudits, type AuditEntry } from '@/lib/audit';
@@ -88,14 +88,27 @@ export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promis
       readingRecords.filter((r) => !alreadyStored.has(r.key)).map((r) => ({ key: r.key, instrumentId: instrumentByCode.get(r.instrument) ?? null, unit: r.payload.unit })),
     );
 
+    // Arrival numbers in the order the bridge sent the records (the analyzer's own order), drawn from the
+    // column's sequence and handed out sorted, so a panel lists its tests as the analyzer printed them.
+    const arrivals = readingRecords.length
+      ? (
+          await tx.execute<{ n: string }>(
+            sql`select nextval(pg_get_serial_sequence('readings', 'arrival')) as n from generate_series(1, ${readingRecords.length})`,
+          )
+        ).rows
+          .map((r) => Number(r.n))
+          .sort((a, b) => a - b)
+      : [];
     const createdReadings = readingRecords.length
       ? await tx
           .insert(readings)
           .values(
-            readingRecords.map((record) => {
+            readingRecords.map((record, index) => {
               const p = record.payload;
               return {
                 ...common(record),
+                arrival: arrivals[index],
+                valueDecimals: p.value === null ? null : (p.decimals ?? null),
                 specimenId: specimenByRecord.get(record.key) ?? null,
                 instrumentSerial: p.instrumentSerial,
                 instrumentRange: p.referenceRange,

@@ -5,9 +5,9 @@ import { labOrders, readings, specimens, type Reading } from '@/db/schema';
 import { requirePermission, type Actor } from '@/lib/auth/guards';
 import { recordAudit } from '@/lib/audit';
 import { ApiError, notFound } from '@/lib/http';
-import { publish } from '@/lib/live/bus';
 import { assignLocked, reassignLocked, voidLocked } from './assign';
 import { loadPatientForPlacement, lockReading } from './placement';
+import { splitOffLocked } from './specimens';
 
 // A specimen's readings (one tube's panel) are assigned, moved and voided together, in one transaction:
 // all of them or none. The person names the readings they saw; if the panel changed meanwhile (a result
@@ -100,7 +100,11 @@ export async function assignSpecimen(actor: Actor, specimenId: string, input: Pa
 }
 
 /** Moves a specimen's results from one patient to another (a wrong match corrected), all or none. */
-export async function reassignSpecimen(actor: Actor, specimenId: string, input: { patientId: string; readingIds: string[]; reason: string }) {
+export async function reassignSpecimen(
+  actor: Actor,
+  specimenId: string,
+  input: { patientId: string; readingIds: string[]; reason: string; fromPatientId?: string; runWillGiveReading?: boolean },
+) {
   requirePermission(actor, 'assignReadings');
   const database = await db();
   return database.transaction(async (tx) => {
@@ -111,7 +115,15 @@ export async function reassignSpecimen(actor: Actor, specimenId: string, input: 
     if (from.size !== 1) throw new ApiError(409, 'panel_split', 'These results are on different patients; move them one at a time.');
     const moved = [];
     for (const reading of chosen) {
-      moved.push(await reassignLocked(tx, actor, reading, { patientId: input.patientId, reason: input.reason, details: { specimenId } }));
+      moved.push(
+        await reassignLocked(tx, actor, reading, {
+          patientId: input.patientId,
+          fromPatientId: input.fromPatientId,
+          reason: input.reason,
+          runWillGiveReading: input.runWillGiveReading,
+          details: { specimenId },
+        }),
+      );
     }
     await auditPanel(tx, actor, specimenId, 'specimen.reassigned', {
       fromPatientId: [...from][0],
@@ -149,34 +161,8 @@ export async function splitReading(actor: Actor, readingId: string) {
     const reading = await lockReading(tx, actor, readingId);
     if (reading.status !== 'unassigned') throw new ApiError(409, 'not_waiting', 'Only a waiting reading can be split off its panel.');
     if (!reading.specimenId) throw new ApiError(409, 'not_in_panel', 'This reading is not part of a panel.');
-    const [from] = await tx.select().from(specimens).where(eq(specimens.id, reading.specimenId)).for('update');
-    const others = await tx
-      .select({ id: readings.id })
-      .from(readings)
-      .where(and(eq(readings.specimenId, from.id), eq(readings.status, 'unassigned')));
-    if (others.length < 2) throw new ApiError(409, 'not_in_panel', 'This reading is the only one waiting in its specimen.');
-    const [created] = await tx
-      .insert(specimens)
-      .values({
-        clinicId: actor.clinicId,
-        instrumentId: from.instrumentId,
-        instrumentCode: from.instrumentCode,
-        sampleId: from.sampleId,
-        patientRef: from.patientRef,
-        receivedAt: reading.receivedAt,
-        splitFrom: from.id,
-      })
-      .returning({ id: specimens.id });
-    await tx.update(readings).set({ specimenId: created.id }).where(eq(readings.id, reading.id));
-    await recordAudit(tx, {
-      clinicId: actor.clinicId,
-      actorUserId: actor.userId,
-      action: 'reading.split-off',
-      entityType: 'reading',
-      entityId: reading.id,
-      details: { fromSpecimenId: from.id, specimenId: created.id },
-    });
-    await publish(tx, { type: 'reading.split', clinicId: actor.clinicId, id: reading.id });
-    return { readingId: reading.id, specimenId: created.id, fromSpecimenId: from.id };
+    const split = await splitOffLocked(tx, actor, reading, 'unassigned');
+    if (!split) throw new ApiError(409, 'not_in_panel', 'This reading is the only one waiting in its specimen.');
+    return { readingId: reading.id, ...split };
   });
 }

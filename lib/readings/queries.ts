@@ -14,6 +14,8 @@ const readingColumns = {
   status: readings.status,
   analyte: readings.analyte,
   value: readings.value,
+  /** The precision the value was sent with (null when unknown: typed in, older rows). */
+  valueDecimals: readings.valueDecimals,
   valueCode: readings.valueCode,
   valueText: readings.valueText,
   notes: readings.notes,
@@ -128,14 +130,15 @@ export async function listWaiting(actor: Actor, query: WaitingQuery, now = new D
   const keys = page.map((p) => p.key);
   const rows = keys.length
     ? await database
-        .select({ ...readingColumns, decimals: analyteSettings.decimals, key: specimenKey, specimenSampleId: specimens.sampleId, specimenPatientRef: specimens.patientRef })
+        .select({ ...readingColumns, decimals: sql<number | null>`coalesce(${readings.valueDecimals}, ${analyteSettings.decimals})`, key: specimenKey, specimenSampleId: specimens.sampleId, specimenPatientRef: specimens.patientRef })
         .from(readings)
         .leftJoin(instruments, eq(instruments.id, readings.instrumentId))
         .leftJoin(patients, eq(patients.id, readings.patientId))
         .leftJoin(specimens, eq(specimens.id, readings.specimenId))
         .leftJoin(analyteSettings, and(eq(analyteSettings.clinicId, readings.clinicId), eq(analyteSettings.code, readings.analyte)))
         .where(and(...waiting, inArray(specimenKey, keys)))
-        .orderBy(asc(readings.receivedAt), asc(readings.storedAt), asc(readings.id))
+        // A panel's readings in the order the analyzer sent them (arrival), the same on every reload.
+        .orderBy(asc(readings.arrival))
     : [];
   // A waiting reading is flagged at once when it is critical for a species the clinic has limits for.
   const codes = [...new Set(rows.map((r) => r.analyte))];

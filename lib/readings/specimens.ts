@@ -1,7 +1,10 @@
 import 'server-only';
-import { and, desc, eq, gte, isNull, lte, sql } from 'drizzle-orm';
+import { and, desc, eq, gte, isNull, lte, ne, sql } from 'drizzle-orm';
 import type { Tx } from '@/db/client';
-import { readings, specimens } from '@/db/schema';
+import { readings, specimens, type Reading } from '@/db/schema';
+import type { Actor } from '@/lib/auth/guards';
+import { recordAudit } from '@/lib/audit';
+import { publish } from '@/lib/live/bus';
 
 /**
  * How far apart two readings with the same instrument and sample ID may arrive and still be one tube.
@@ -87,4 +90,41 @@ export async function specimenFor(tx: Tx, key: SpecimenKey): Promise<string> {
     })
     .returning({ id: specimens.id });
   return created.id;
+}
+
+/**
+ * Gives a locked reading a specimen of its own, when other readings of the given status share its specimen
+ * (a waiting one split off in Intake; a result moved alone off a patient's panel). Null when it is alone.
+ */
+export async function splitOffLocked(tx: Tx, actor: Actor, reading: Reading, mates: Reading['status']) {
+  if (!reading.specimenId) return null;
+  const [from] = await tx.select().from(specimens).where(eq(specimens.id, reading.specimenId)).for('update');
+  const others = await tx
+    .select({ id: readings.id })
+    .from(readings)
+    .where(and(eq(readings.specimenId, from.id), eq(readings.status, mates), ne(readings.id, reading.id)));
+  if (others.length === 0) return null;
+  const [created] = await tx
+    .insert(specimens)
+    .values({
+      clinicId: actor.clinicId,
+      instrumentId: from.instrumentId,
+      instrumentCode: from.instrumentCode,
+      sampleId: from.sampleId,
+      patientRef: from.patientRef,
+      receivedAt: reading.receivedAt,
+      splitFrom: from.id,
+    })
+    .returning({ id: specimens.id });
+  await tx.update(readings).set({ specimenId: created.id }).where(eq(readings.id, reading.id));
+  await recordAudit(tx, {
+    clinicId: actor.clinicId,
+    actorUserId: actor.userId,
+    action: 'reading.split-off',
+    entityType: 'reading',
+    entityId: reading.id,
+    details: { fromSpecimenId: from.id, specimenId: created.id },
+  });
+  await publish(tx, { type: 'reading.split', clinicId: actor.clinicId, id: reading.id });
+  return { specimenId: created.id, fromSpecimenId: from.id };
 }

@@ -156,6 +156,10 @@ export const panelReassignSchema = z.object({
   patientId: z.uuid('Choose a patient.'),
   readingIds: readingIdList,
   reason: z.string().trim().min(3, 'Give a reason for moving these results.').max(500),
+  /** The patient the panel was on when the person chose to move it (the chart sends it): 409 if it moved meanwhile. */
+  fromPatientId: z.uuid().optional(),
+  /** The runs the panel completed will still give readings: keep them open (else they stay closed, tests used). */
+  runWillGiveReading: z.boolean().optional(),
 });
 
 export const panelVoidSchema = z.object({

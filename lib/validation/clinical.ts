@@ -32,6 +32,17 @@ export const newOrderSchema = z.object({
 });
 export type NewOrderInput = z.infer<typeof newOrderSchema>;
 
+/** A reader's whole panel started on one sample: the same fields, with the tests in place of one test. */
+export const newPanelSchema = newOrderSchema.omit({ analyte: true }).extend({
+  instrumentId: z.uuid('Choose the reader whose panel runs.'),
+  analytes: z
+    .array(text(64, { min: 1, minMessage: 'Name the test.' }))
+    .min(1, 'Choose at least one test.')
+    .max(32)
+    .refine((codes) => new Set(codes).size === codes.length, 'A test is listed twice.'),
+});
+export type NewPanelInput = z.infer<typeof newPanelSchema>;
+
 export const closeOrderSchema = z.object({
   reason: text(500, { min: 3, minMessage: 'Give a reason.', multiline: true }),
 });

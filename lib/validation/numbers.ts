@@ -10,7 +10,8 @@ export type DecimalMark = (typeof DECIMAL_MARKS)[number];
 export type NumberReading = DecimalMark | 'either';
 
 export type ReadNumber =
-  | { ok: true; value: number; comparator: '<' | '>' | null }
+  /** `decimals`: the digits after the decimal mark as written (the precision it was sent with). */
+  | { ok: true; value: number; comparator: '<' | '>' | null; decimals: number }
   | { ok: false; reason: string };
 
 const EXPONENT = '(?:[eE][+-]?\\d+)?';
@@ -72,5 +73,17 @@ export function readNumber(text: string, mark: NumberReading): ReadNumber {
   }
   const value = Number(normal);
   if (!Number.isFinite(value)) return { ok: false, reason: `${quoted} is out of range` };
-  return { ok: true, value, comparator };
+  return { ok: true, value, comparator, decimals: printedDecimals(normal) };
+}
+
+/**
+ * How many decimals a number was written with: "5.0" → 1, "26" → 0, ".25" → 2, "1.25E1" → 1 (the exponent
+ * shifts the point). Trailing zeros count: they are the instrument's precision, not noise.
+ */
+export function printedDecimals(text: string): number {
+  const match = /^[<>]?\s*[+-]?(\d*)(?:[.,](\d*))?(?:[eE]([+-]?\d+))?$/.exec(text.trim());
+  if (!match) return 0;
+  const fraction = match[2]?.length ?? 0;
+  const exponent = match[3] ? Number(match[3]) : 0;
+  return Math.max(0, Math.min(15, fraction - exponent));
 }

@@ -24,6 +24,8 @@ export const parsedReadingSchema = z.object({
   kind: z.literal('reading').default('reading'),
   analyte: z.string().trim().min(1, 'analyte is required').max(64),
   value: z.number().finite().nullable(),
+  /** Digits after the decimal mark as printed ("5.0" → 1), so the value is shown with the precision it was sent with; null when unknown. */
+  decimals: z.number().int().min(0).max(15).nullable().optional(),
   code: codedValueSchema.nullable().default(null),
   /** A text result (HL7 ST/TX/FT), as sent with escapes undone. */
   text: z.string().max(4000).nullable().default(null),

@@ -124,6 +124,125 @@ describe.each(VIEWPORTS)('the bench on a $name', ({ viewport, patient, keyboardP
     await tech.context().close();
   }, 300_000);
 
+  it('shows a panel in the order and with the digits the analyzer sent, and moves it from the chart (whole panel, or one result alone) by keyboard', async () => {
+    const tech = await signInAs(running.browser, running.app.baseUrl, 'tech@fernhollow.example', undefined, { viewport });
+    const at = new Date().toISOString();
+    // Printed digits: "5.0" stays 5.0, "26" stays 26 (reporting at the instrument's resolution: common practice, no source).
+    const sent = [
+      { analyte: 'TP', printed: '71', unit: 'g/L' },
+      { analyte: 'GLU', printed: '5.0', unit: 'mmol/L' },
+      { analyte: 'ALT', printed: '26', unit: 'U/L' },
+      { analyte: 'BUN', printed: '6.25', unit: 'mmol/L' },
+    ];
+    const sampleId = `M-${viewport.width}-${Date.now()}`;
+    const ids = await post(
+      sent.map((x, i) => ({
+        key: `e2e-move-${++key}-${Date.now()}`,
+        instrument: 'chem-analyzer',
+        receivedAt: at,
+        payload: {
+          kind: 'reading',
+          analyte: x.analyte,
+          value: Number(x.printed),
+          decimals: x.printed.includes('.') ? x.printed.split('.')[1].length : 0,
+          unit: x.unit,
+          sampleId,
+          measuredAt: at,
+          raw: `R|${i + 1}|^^^${x.analyte}|${x.printed}|${x.unit}\r`,
+        },
+      })),
+    );
+    await tech.goto('/intake');
+    const card = tech.locator(`[data-specimen-id]:has([data-reading-id="${ids[0]}"])`);
+    await card.waitFor({ timeout: 60_000 });
+    // The analyzer's order (R.2 sequence), not the alphabet nor the database's whim.
+    expect(await card.locator('[data-reading-id]').evaluateAll((els) => els.map((el) => el.getAttribute('data-reading-id')))).toEqual(ids);
+    const valueOf = (id: string) => card.locator(`[data-reading-id="${id}"] [data-testid=reading-value]`).innerText();
+    expect(await valueOf(ids[1])).toMatch(/^5\.0 mmol\/L/);
+    expect(await valueOf(ids[2])).toMatch(/^26 U\/L/);
+    expect(await valueOf(ids[3])).toMatch(/^6\.25 mmol\/L/);
+
+    // Put it on the first patient (as Intake would), then correct it from that patient's chart.
+    const placed = await tech.evaluate(
+      async ({ readingIds, from }) => {
+        const find = async (q: string) => (await (await fetch(`/api/patients?q=${encodeURIComponent(q)}&limit=5`)).json()).patients[0].id as string;
+        const fromId = await find(from);
+        const { reading } = await (await fetch(`/api/readings/${readingIds[0]}`)).json();
+        const response = await fetch(`/api/specimens/${reading.specimenId}/assign`, {
+          method: 'POST',
+          headers: { 'content-type': 'application/json' },
+          body: JSON.stringify({ patientId: fromId, readingIds }),
+        });
+        return { status: response.status, fromId };
+      },
+      { readingIds: ids, from: patient.record },
+    );
+    expect(placed.status).toBe(200);
+    await tech.goto(`/patients/${placed.fromId}`);
+    const row = (id: string) => tech.locator(`[data-testid=patient-results] tr[data-reading-id="${id}"]`);
+    await row(ids[1]).waitFor({ timeout: 60_000 });
+    expect(await row(ids[1]).locator('[data-testid=result-value]').innerText()).toMatch(/^5\.0 mmol\/L/);
+    expect(await row(ids[2]).locator('[data-testid=result-value]').innerText()).toMatch(/^26 U\/L/);
+
+    const locationOf = () =>
+      tech.evaluate(async (readingIds) => {
+        const rows = await Promise.all(readingIds.map(async (id) => (await (await fetch(`/api/readings/${id}`)).json()).reading));
+        return rows.map((r: { patientName: string | null }) => r.patientName);
+      }, ids);
+
+    // One result alone, by keyboard: Details, Move, "only this result", a patient, a reason, Enter.
+    await row(ids[2]).locator('button:has-text("Details")').focus();
+    await tech.keyboard.press('Enter');
+    const move = tech.locator('button:has-text("Move to another patient (panel or this result)")');
+    await move.focus();
+    await tech.keyboard.press('Enter');
+    await tech.waitForSelector('dialog[open] [data-testid=panel-scope]');
+    await expectNoSidewaysScroll(tech, 'the move dialog');
+    // The whole panel is the default; arrow keys move between the two choices (native radio group).
+    expect(await tech.locator('dialog[open] input[type=radio]').first().isChecked()).toBe(true);
+    await tech.locator('dialog[open] input[type=radio]').first().focus();
+    await tech.keyboard.press('ArrowDown');
+    expect(await tech.locator('dialog[open] input[type=radio]').nth(1).isChecked()).toBe(true);
+    await tech.locator('#reassign-search').focus();
+    await tech.keyboard.type(keyboardPatient);
+    const choice = tech.locator(`dialog[open] button:has-text("${keyboardPatient}")`).first();
+    await choice.waitFor({ timeout: 30_000 });
+    await choice.focus();
+    await tech.keyboard.press('Enter');
+    await tech.locator('#reassign-reason').focus();
+    await tech.keyboard.type('ALT came from another tube');
+    const confirm = tech.locator(`dialog[open] button:has-text("Move result to ${keyboardPatient}")`);
+    await confirm.focus();
+    await tech.keyboard.press('Enter');
+    await tech.waitForSelector('dialog[open]', { state: 'detached', timeout: 30_000 });
+    await expect.poll(locationOf, { timeout: 30_000 }).toEqual([patient.name, patient.name, keyboardPatient, patient.name]);
+
+    // The rest of the panel, whole, in one action (once the live feed has refreshed the chart).
+    await row(ids[2]).waitFor({ state: 'detached', timeout: 30_000 });
+    await row(ids[1]).waitFor({ timeout: 30_000 });
+    await row(ids[1]).locator('button:has-text("Details")').focus();
+    await tech.keyboard.press('Enter');
+    await move.focus();
+    await tech.keyboard.press('Enter');
+    await tech.waitForSelector('dialog[open] [data-testid=panel-scope]');
+    expect(await tech.locator('dialog[open] [data-testid=panel-scope]').innerText()).toMatch(/3 results of this sample \(TP, GLU, BUN\)/);
+    await tech.locator('#reassign-search').focus();
+    await tech.keyboard.type(keyboardPatient);
+    await choice.waitFor({ timeout: 30_000 });
+    await choice.focus();
+    await tech.keyboard.press('Enter');
+    await tech.locator('#reassign-reason').focus();
+    await tech.keyboard.type('tube label misread');
+    const confirmAll = tech.locator(`dialog[open] button:has-text("Move 3 results to ${keyboardPatient}")`);
+    await confirmAll.focus();
+    await tech.keyboard.press('Enter');
+    await tech.waitForSelector('dialog[open]', { state: 'detached', timeout: 30_000 });
+    await expect.poll(locationOf, { timeout: 30_000 }).toEqual(Array(4).fill(keyboardPatient));
+    // Nothing vanishes: the chart it left lists them as taken off.
+    await expectNoSidewaysScroll(tech, 'the chart after the move');
+    await tech.context().close();
+  }, 300_000);
+
   it('pages past 100 waiting readings, with the true count and the oldest wait', async () => {
     const tech = await signInAs(running.browser, running.app.baseUrl, 'tech@fernhollow.example', undefined, { viewport });
     const before = Number(await tech.innerText('[data-testid=unassigned-count]'));

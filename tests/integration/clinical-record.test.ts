@@ -144,8 +144,9 @@ describe('the chart reads results in context', () => {
     expect((await patch(c.admin, settings)).status).toBe(200);
     const { results: list, analytes } = await chart(p.biscuit);
     expect(analytes.cCRP).toMatchObject({ unit: 'mg/dL', interval: { high: 1, criticalHigh: 10 } });
-    expect(list[3].clinical.display).toEqual({ value: 9.64, comparator: null, unit: 'mg/dL' });
-    expect(list[0].clinical.display).toEqual({ value: 0.5, comparator: '<', unit: 'mg/dL' });
+    // Shown in another unit than printed, the value takes the analyte's decimals (2 here).
+    expect(list[3].clinical.display).toEqual({ value: 9.64, comparator: null, unit: 'mg/dL', decimals: 2 });
+    expect(list[0].clinical.display).toEqual({ value: 0.5, comparator: '<', unit: 'mg/dL', decimals: 2 });
     expect(list[3].clinical.delta.flagged).toBe(true); // limits stay in mg/L: the same answer in any display unit
     await patch(c.admin, { ...settings, displayUnit: 'mg/L', decimals: 1 });
   });

@@ -9,6 +9,9 @@ import * as ownPassword from '@/app/api/auth/password/route';
 import { POST as signInRoute } from '@/app/api/auth/sign-in/route';
 import * as bridgeConfig from '@/app/api/bridge/config/route';
 import * as readingRoute from '@/app/api/readings/[readingId]/route';
+import * as waitingRoute from '@/app/api/readings/waiting/route';
+import * as patientsRoute from '@/app/api/patients/route';
+import { POST as signOutRoute } from '@/app/api/auth/sign-out/route';
 import type { Database } from '@/db/client';
 import { auditEvents, instruments } from '@/db/schema';
 import { DEMO_PASSWORD } from '@/db/seed';
@@ -48,6 +51,21 @@ describe('temporary passwords', () => {
     expect((await body(signedIn)).user.mustChangePassword).toBe(true);
     const cookie = (signedIn.headers.get('set-cookie') ?? '').split(';')[0];
 
+    // Until the new password is chosen, every other API answers 403 with its own code (RFC 9110 §15.5.4:
+    // understood, refused); reading one's own session stays open so the page can say why.
+    const waiting = await waitingRoute.GET(request('/api/readings/waiting', { cookie }), undefined);
+    expect(waiting.status).toBe(403);
+    expect((await body(waiting)).error.code).toBe('password_change_required');
+    const register = await patientsRoute.POST(
+      request('/api/patients', { cookie, body: { name: 'Pip', species: 'dog', recordNumber: 'TMP-1' } }),
+      undefined,
+    );
+    expect(register.status).toBe(403);
+    expect((await body(register)).error.code).toBe('password_change_required');
+    const own = await me.GET(request('/api/auth/me', { cookie }), undefined);
+    expect(own.status).toBe(200);
+    expect((await body(own)).user.mustChangePassword).toBe(true);
+
     const same = await ownPassword.POST(
       request('/api/auth/password', { cookie, body: { currentPassword: 'temporary-pass-2026', newPassword: 'temporary-pass-2026', confirmPassword: 'temporary-pass-2026' } }),
       undefined,
@@ -64,6 +82,9 @@ describe('temporary passwords', () => {
       undefined,
     );
     expect(changed.status).toBe(200);
+    // The same session may work once the password is its own.
+    expect((await waitingRoute.GET(request('/api/readings/waiting', { cookie }), undefined)).status).toBe(200);
+    expect((await signOutRoute(request('/api/auth/sign-out', { cookie, body: {} }), undefined)).status).toBe(200);
     const again = await signInWith('vet2@fernhollow.example', 'my-own-password-1');
     expect((await body(again)).user.mustChangePassword).toBe(false);
 

@@ -10,10 +10,13 @@ import { body, ingest, patientByRecord, readingRecord } from './support';
 import { GET as waitingRoute } from '@/app/api/readings/waiting/route';
 import { POST as assignReadingRoute } from '@/app/api/readings/[readingId]/assign/route';
 import { POST as splitRoute } from '@/app/api/readings/[readingId]/split/route';
+import { POST as reassignReadingRoute } from '@/app/api/readings/[readingId]/reassign/route';
 import { POST as panelAssignRoute } from '@/app/api/specimens/[specimenId]/assign/route';
 import { POST as panelReassignRoute } from '@/app/api/specimens/[specimenId]/reassign/route';
 import { POST as panelVoidRoute } from '@/app/api/specimens/[specimenId]/void/route';
 import { POST as startOrderRoute } from '@/app/api/orders/route';
+import { GET as patientResultsRoute } from '@/app/api/patients/[patientId]/results/route';
+import { formatMeasured } from '@/lib/format';
 import type { Database } from '@/db/client';
 import { auditEvents, labOrders, readings, resultAssignments } from '@/db/schema';
 import { seededDatabase } from '../helpers/db';
@@ -227,6 +230,56 @@ describe('moving and voiding a panel', () => {
   });
 });
 
+describe('correcting a panel from the chart', () => {
+  it('moves the panel the person saw: 409 patient_changed when it was moved meanwhile, nothing half-moved', async () => {
+    const { ids, specimenIds } = await chemistryPanel('C-7211', ['GLU', 'ALT', 'ALB']);
+    expect((await panelAssign(specimenIds[0], { patientId: moss.id, readingIds: ids })).status).toBe(200);
+    // Someone else moved it to Pepper; a chart still showing it on Moss asks to move it from Moss.
+    expect((await panelMove(specimenIds[0], { patientId: pepper.id, fromPatientId: moss.id, readingIds: ids, reason: 'label misread' })).status).toBe(200);
+    const stale = await panelMove(specimenIds[0], { patientId: otto.id, fromPatientId: moss.id, readingIds: ids, reason: 'label misread' });
+    expect(stale.status).toBe(409);
+    expect((await body(stale)).error.code).toBe('patient_changed');
+    expect((await statuses(ids)).every((r) => r.patientId === pepper.id)).toBe(true);
+  });
+
+  it('moving one result alone splits it off the panel; the rest then moves as a panel without it', async () => {
+    const { ids, specimenIds } = await chemistryPanel('C-7212', ['GLU', 'ALT', 'ALB']);
+    expect((await panelAssign(specimenIds[0], { patientId: moss.id, readingIds: ids })).status).toBe(200);
+    const single = await reassignReadingRoute(
+      request('/api/readings/x/reassign', { cookie: techCookie, body: { patientId: otto.id, fromPatientId: moss.id, reason: 'ALT was another tube' } }),
+      params({ readingId: ids[1] }),
+    );
+    expect(single.status).toBe(200);
+    const moved = (await statuses([ids[1]]))[0];
+    expect(moved).toMatchObject({ patientId: otto.id });
+    expect(moved.specimenId).not.toBe(specimenIds[0]);
+    const split = await database.db.select().from(auditEvents).where(and(eq(auditEvents.action, 'reading.split-off'), eq(auditEvents.entityId, ids[1])));
+    expect(split).toHaveLength(1);
+    // The panel left on Moss is GLU and ALB; moving it does not take ALT back.
+    const rest = [ids[0], ids[2]];
+    expect((await panelMove(specimenIds[0], { patientId: pepper.id, fromPatientId: moss.id, readingIds: rest, reason: 'label misread' })).status).toBe(200);
+    expect((await statuses(ids)).map((r) => [r.id, r.patientId]).sort()).toEqual([
+      [ids[0], pepper.id],
+      [ids[1], otto.id],
+      [ids[2], pepper.id],
+    ].sort());
+    // Named as part of the panel, the split-off result is refused, and nothing moves.
+    const wrong = await panelMove(specimenIds[0], { patientId: moss.id, readingIds: ids, reason: 'label misread' });
+    expect(wrong.status).toBe(409);
+    expect((await statuses(rest)).every((r) => r.patientId === pepper.id)).toBe(true);
+  });
+
+  it('voids a panel on the record in one action; each result keeps its history', async () => {
+    const { ids, specimenIds } = await chemistryPanel('C-7213', ['GLU', 'ALT']);
+    expect((await panelAssign(specimenIds[0], { patientId: moss.id, readingIds: ids })).status).toBe(200);
+    expect((await panelVoid(specimenIds[0], { readingIds: ids, reason: 'clotted sample', onRecord: true })).status).toBe(200);
+    const rows = await statuses(ids);
+    expect(rows.every((r) => r.status === 'voided' && r.patientId === null)).toBe(true);
+    const ended = await database.db.select().from(resultAssignments).where(inArray(resultAssignments.readingId, ids));
+    expect(ended.every((a) => a.endReason === 'clotted sample')).toBe(true);
+  });
+});
+
 describe('splitting a reading off its panel', () => {
   it('gives the reading its own row; the rest of the panel is then assigned without it', async () => {
     const { ids, specimenIds } = await chemistryPanel('C-7301', ['GLU', 'ALT', 'ALB']);
@@ -274,5 +327,57 @@ describe('Intake never hides a reading', () => {
     const response = await waitingRoute(request('/api/readings/waiting?pageSize=0', { cookie: techCookie }), undefined);
     expect(response.status).toBe(400);
     expect((await body(response)).error.issues[0].path).toBe('pageSize');
+  });
+});
+
+describe('a panel as the analyzer sent it', () => {
+  // The order and the digits are the analyzer's: results are listed in the order its records came (ASTM
+  // E1394 §10.1.2 R.2 sequence numbers, HL7 v2 OBX-1 set IDs, from memory; the bridge sends them in that
+  // order), and each value keeps the decimals it was printed with (common practice, no source).
+  const SENT = [
+    { analyte: 'TP', value: 71, printed: '71', decimals: 0, unit: 'g/L' },
+    { analyte: 'GLU', value: 5, printed: '5.0', decimals: 1, unit: 'mmol/L' },
+    { analyte: 'ALB', value: 32, printed: '32', decimals: 0, unit: 'g/L' },
+    { analyte: 'ALT', value: 26, printed: '26', decimals: 0, unit: 'U/L' },
+    { analyte: 'CREA', value: 88, printed: '88', decimals: 0, unit: 'umol/L' },
+    { analyte: 'BUN', value: 6.25, printed: '6.25', decimals: 2, unit: 'mmol/L' },
+    { analyte: 'ALP', value: 40, printed: '40', decimals: null, unit: 'U/L' }, // an older bridge: precision unknown
+  ];
+
+  it('Intake lists the readings in the order they were sent, on every reload, with the precision each was sent with', async () => {
+    const measuredAt = new Date(Date.now() - 60_000).toISOString();
+    // One message: the bridge gives its records one arrival time, so only the sent order can order them.
+    const receivedAt = new Date().toISOString();
+    const records = SENT.map((s, i) => ({
+      ...readingRecord(
+        `order-${String(++n).padStart(8, '0')}`,
+        { analyte: s.analyte, value: s.value, unit: s.unit, sampleId: 'C-7401', measuredAt, raw: `R|${i + 1}|^^^${s.analyte}|${s.printed}|${s.unit}\r`, ...(s.decimals === null ? {} : { decimals: s.decimals }) },
+        'chem-analyzer',
+      ),
+      receivedAt,
+    }));
+    expect((await ingest(token, records)).status).toBe(200);
+    for (let reload = 0; reload < 3; reload++) {
+      const row = (await waiting('?pageSize=200')).specimens.find((s: { sampleId: string }) => s.sampleId === 'C-7401');
+      expect(row.readings.map((r: { analyte: string }) => r.analyte)).toEqual(SENT.map((s) => s.analyte));
+      // Intake's decimals: as sent, else the analyte's setting (ALP: 0 in the clinical defaults, lib/clinical/defaults.ts).
+      expect(row.readings.map((r: { decimals: number }) => r.decimals)).toEqual([0, 1, 0, 0, 0, 2, 0]);
+      expect(row.readings.map((r: { valueDecimals: number | null }) => r.valueDecimals)).toEqual(SENT.map((s) => s.decimals));
+    }
+  });
+
+  it('the chart shows "5.0" as 5.0 and "26" as 26 after the panel is assigned', async () => {
+    const row = (await waiting('?pageSize=200')).specimens.find((s: { sampleId: string }) => s.sampleId === 'C-7401');
+    const ids = row.readings.map((r: { id: string }) => r.id);
+    expect((await panelAssign(row.id, { patientId: otto.id, readingIds: ids })).status).toBe(200);
+    const chart = await body(await patientResultsRoute(request(`/api/patients/${otto.id}/results`, { cookie: vetCookie }), params({ patientId: otto.id })));
+    const shown = (analyte: string) => {
+      const r = chart.results.find((x: { id: string; analyte: string }) => ids.includes(x.id) && x.analyte === analyte);
+      return formatMeasured(r.clinical.display, chart.analytes[analyte].decimals);
+    };
+    expect(shown('GLU')).toBe('5.0 mmol/L');
+    expect(shown('ALT')).toBe('26 U/L');
+    expect(shown('BUN')).toBe('6.25 mmol/L');
+    expect(shown('ALP')).toBe('40 U/L');
   });
 });

@@ -10,7 +10,7 @@ const crp = { ...DEFAULT_ANALYTES[0], speciesNote: DEFAULT_ANALYTES[0].speciesNo
 const dogInterval: IntervalContext = { ...DEFAULT_INTERVALS[0], id: 'i-dog', instrumentId: null };
 const readerInterval: IntervalContext = { ...dogInterval, id: 'i-reader', instrumentId: 'reader-1', high: 8, source: 'in-house, reader 1' };
 const dog = { name: 'Biscuit', species: 'dog' };
-const r = (value: number | null, extra: Partial<{ comparator: '<' | '>' | null; unit: string | null; instrumentId: string | null }> = {}) => ({
+const r = (value: number | null, extra: Partial<{ comparator: '<' | '>' | null; unit: string | null; instrumentId: string | null; valueDecimals: number | null }> = {}) => ({
   analyte: 'cCRP',
   value,
   comparator: null,
@@ -28,11 +28,27 @@ describe('a result in context', () => {
 
   it('flags in the display unit: 37.4 mg/L shown as 3.74 mg/dL is high against 1 mg/dL', () => {
     const e = evaluateResult(r(37.4), dog, { ...crp, displayUnit: 'mg/dL' }, [dogInterval]);
-    expect(e.display).toEqual({ value: 3.74, comparator: null, unit: 'mg/dL' });
+    expect(e.display).toMatchObject({ value: 3.74, comparator: null, unit: 'mg/dL' });
     expect(e.interval).toMatchObject({ high: 1, criticalHigh: 10, unit: 'mg/dL' });
     expect(e.flag).toMatchObject({ flag: 'high', certain: true });
     expect(e.band).toEqual({ label: 'Raised', certain: true });
-    expect(formatMeasured(e.display, 2)).toBe('3.74 mg/dL');
+    // Converted, the value takes the analyte's decimals (1 for CRP), not the printed ones.
+    expect(formatMeasured(e.display, 2)).toBe('3.7 mg/dL');
+  });
+
+  // The precision a value was sent with is kept on screen: an analyzer printing "5.0" reports to a tenth,
+  // "26" to a unit (reporting at the instrument's resolution: common practice, no source).
+  it('shows a value with the decimals it was printed with, in the printed unit; the analyte setting otherwise', () => {
+    const cat = { name: 'Miso', species: 'cat' };
+    const alt = { ...crp, code: 'ALT', unit: 'U/L', displayUnit: 'U/L', decimals: 0 };
+    expect(formatMeasured(evaluateResult({ ...r(5, { valueDecimals: 1 }), analyte: 'ALT', unit: 'U/L' }, cat, alt, []).display)).toBe('5.0 U/L');
+    expect(formatMeasured(evaluateResult({ ...r(26, { valueDecimals: 0 }), analyte: 'ALT', unit: 'U/L' }, cat, { ...alt, decimals: 2 }, []).display)).toBe('26 U/L');
+    // Unknown precision (typed in, older rows): the analyte's setting.
+    expect(formatMeasured(evaluateResult({ ...r(26, { valueDecimals: null }), analyte: 'ALT', unit: 'U/L' }, cat, { ...alt, decimals: 2 }, []).display)).toBe('26.00 U/L');
+    // A value shown in another unit than printed: the analyte's setting (5.25 mg/L as 0.5 mg/dL with 1 decimal).
+    expect(formatMeasured(evaluateResult(r(5.25, { valueDecimals: 2 }), dog, { ...crp, displayUnit: 'mg/dL', decimals: 1 }, [dogInterval]).display)).toBe('0.5 mg/dL');
+    // A limit keeps its form as sent.
+    expect(formatMeasured(evaluateResult(r(5, { comparator: '<', valueDecimals: 1 }), dog, crp, [dogInterval]).display)).toBe('<5 mg/L');
   });
 
   it('a loosely printed unit (mg/l) is the same UCUM unit; an unknown unit is said, not flagged', () => {
@@ -44,7 +60,7 @@ describe('a result in context', () => {
 
   it('keeps the comparator through conversion: <5 mg/L is <0.5 mg/dL', () => {
     const e = evaluateResult(r(5, { comparator: '<' }), dog, { ...crp, displayUnit: 'mg/dL' }, [dogInterval]);
-    expect(e.display).toEqual({ value: 0.5, comparator: '<', unit: 'mg/dL' });
+    expect(e.display).toMatchObject({ value: 0.5, comparator: '<', unit: 'mg/dL' });
     expect(formatMeasured(e.display, 1)).toBe('<0.5 mg/dL');
   });
 });

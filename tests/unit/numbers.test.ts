@@ -1,6 +1,6 @@
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
-import { looksNumeric, readNumber } from '@/lib/validation/numbers';
+import { looksNumeric, printedDecimals, readNumber } from '@/lib/validation/numbers';
 
 // Decimal marks and digit grouping: ISO 80000-1 §7.3.2 allows either a point or a comma as the decimal
 // sign and groups digits in threes with a (thin) space, never with a point or comma (from memory, verify);
@@ -8,13 +8,13 @@ import { looksNumeric, readNumber } from '@/lib/validation/numbers';
 
 describe('readNumber', () => {
   it('reads a decimal point, a comparator and exponent notation', () => {
-    expect(readNumber('5.2', 'point')).toEqual({ ok: true, value: 5.2, comparator: null });
-    expect(readNumber('<0.5', 'point')).toEqual({ ok: true, value: 0.5, comparator: '<' });
-    expect(readNumber('> 1500', 'point')).toEqual({ ok: true, value: 1500, comparator: '>' });
+    expect(readNumber('5.2', 'point')).toEqual({ ok: true, value: 5.2, comparator: null, decimals: 1 });
+    expect(readNumber('<0.5', 'point')).toEqual({ ok: true, value: 0.5, comparator: '<', decimals: 1 });
+    expect(readNumber('> 1500', 'point')).toEqual({ ok: true, value: 1500, comparator: '>', decimals: 0 });
     // E notation: mantissa E exponent, as ECMAScript's StrDecimalLiteral reads it (ECMA-262 §7.1.4.1.1).
-    expect(readNumber('1.2E3', 'point')).toEqual({ ok: true, value: 1200, comparator: null });
-    expect(readNumber('4.5e-2', 'point')).toEqual({ ok: true, value: 0.045, comparator: null });
-    expect(readNumber('-3', 'point')).toEqual({ ok: true, value: -3, comparator: null });
+    expect(readNumber('1.2E3', 'point')).toEqual({ ok: true, value: 1200, comparator: null, decimals: 0 });
+    expect(readNumber('4.5e-2', 'point')).toEqual({ ok: true, value: 0.045, comparator: null, decimals: 3 });
+    expect(readNumber('-3', 'point')).toEqual({ ok: true, value: -3, comparator: null, decimals: 0 });
   });
 
   it('never reads a comma from a decimal-point instrument, and never a point from a decimal-comma one', () => {
@@ -22,8 +22,8 @@ describe('readNumber', () => {
     expect(grouped.ok).toBe(false);
     expect(!grouped.ok && grouped.reason).toMatch(/has a comma, but this instrument is set to a decimal point/);
     expect(readNumber('12.500', 'comma').ok).toBe(false);
-    expect(readNumber('12,5', 'comma')).toEqual({ ok: true, value: 12.5, comparator: null });
-    expect(readNumber('1,2E3', 'comma')).toEqual({ ok: true, value: 1200, comparator: null });
+    expect(readNumber('12,5', 'comma')).toEqual({ ok: true, value: 12.5, comparator: null, decimals: 1 });
+    expect(readNumber('1,2E3', 'comma')).toEqual({ ok: true, value: 1200, comparator: null, decimals: 0 });
   });
 
   it('refuses grouping in any form', () => {
@@ -35,8 +35,8 @@ describe('readNumber', () => {
   });
 
   it('lets a person type either mark for one value', () => {
-    expect(readNumber('12,4', 'either')).toEqual({ ok: true, value: 12.4, comparator: null });
-    expect(readNumber('12.4', 'either')).toEqual({ ok: true, value: 12.4, comparator: null });
+    expect(readNumber('12,4', 'either')).toEqual({ ok: true, value: 12.4, comparator: null, decimals: 1 });
+    expect(readNumber('12.4', 'either')).toEqual({ ok: true, value: 12.4, comparator: null, decimals: 1 });
     expect(readNumber('12,500', 'either').ok).toBe(false);
     expect(readNumber('1.250', 'either').ok).toBe(false);
   });
@@ -78,5 +78,23 @@ describe('readNumber', () => {
       }),
       { numRuns: 300 },
     );
+  });
+});
+
+describe('printedDecimals', () => {
+  // The precision a value was sent with is its printed digits after the decimal mark, trailing zeros
+  // included ("5.0" is a tenth-resolution result, not 5): reporting at the instrument's resolution is
+  // common practice, no source. The exponent moves the point (1.25E1 = 12.5); worked by hand.
+  it('counts the digits after the mark, keeps trailing zeros, and shifts by the exponent', () => {
+    expect(printedDecimals('5.0')).toBe(1);
+    expect(printedDecimals('26')).toBe(0);
+    expect(printedDecimals('0.050')).toBe(3);
+    expect(printedDecimals('<5.00')).toBe(2);
+    expect(printedDecimals('12,50')).toBe(2);
+    expect(printedDecimals('.25')).toBe(2);
+    expect(printedDecimals('5.')).toBe(0);
+    expect(printedDecimals('1.25E1')).toBe(1);
+    expect(printedDecimals('1.2E3')).toBe(0);
+    expect(printedDecimals('4.5e-2')).toBe(3);
   });
 });

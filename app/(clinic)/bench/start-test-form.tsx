@@ -64,29 +64,19 @@ export function StartTestForm() {
     if (!Number.isFinite(minutes) || minutes < 0) return setFailure('Give how many minutes ago the run started (0 for now).');
     setSaving(true);
     const startedAt = minutes > 0 ? new Date(new Date().getTime() - minutes * 60_000).toISOString() : undefined;
-    const started: string[] = [];
+    const common = { patientId: patient.id, instrumentId: instrumentId || undefined, sampleType, sampleId: sampleId || undefined, orderedBy: orderer, startedAt };
     try {
-      for (const code of codes) {
-        await send('/api/orders', 'POST', {
-          patientId: patient.id,
-          analyte: code,
-          instrumentId: instrumentId || undefined,
-          sampleType,
-          sampleId: sampleId || undefined,
-          orderedBy: orderer,
-          startedAt,
-        });
-        started.push(code);
-      }
-      setDone(`${started.join(', ')} started for ${patient.name} (${patient.recordNumber})${sampleId ? ` on tube ${sampleId}` : ''}.${warning ? ` ${warning}` : ''}`);
+      // A whole panel is one request and one transaction: every test starts, or none does.
+      if (codes.length > 1) await send('/api/orders/panel', 'POST', { ...common, analytes: codes });
+      else await send('/api/orders', 'POST', { ...common, analyte: codes[0] });
+      setDone(`${codes.join(', ')} started for ${patient.name} (${patient.recordNumber})${sampleId ? ` on tube ${sampleId}` : ''}.${warning ? ` ${warning}` : ''}`);
       setWholePanel(false);
       setPatient(null);
       setQ('');
       setSampleId('');
       setMinutesAgo('0');
     } catch (error) {
-      const message = error instanceof Error ? error.message : 'Could not start the test.';
-      setFailure(started.length ? `${message} (${started.join(', ')} did start; cancel them on the board if needed.)` : message);
+      setFailure(error instanceof Error ? error.message : 'Could not start the test.');
     } finally {
       setSaving(false);
     }

@@ -188,7 +188,14 @@ export function PatientResults({ patientId, patientName }: { patientId: string; 
                       {open === r.id && (
                         <tr>
                           <td colSpan={8} className="bg-paper px-4 py-3">
-                            <ResultDetail result={r} analyte={a} patientId={patientId} patientName={patientName ?? ''} onMoved={() => setOpen(null)} />
+                            <ResultDetail
+                              result={r}
+                              analyte={a}
+                              patientId={patientId}
+                              patientName={patientName ?? ''}
+                              panel={r.specimenId ? data.results.filter((x) => x.specimenId === r.specimenId) : [r]}
+                              onMoved={() => setOpen(null)}
+                            />
                           </td>
                         </tr>
                       )}

@@ -52,12 +52,15 @@ export function ResultDetail({
   analyte,
   patientId,
   patientName,
+  panel,
   onMoved,
 }: {
   result: ChartResult;
   analyte: ChartAnalyte | undefined;
   patientId: string;
   patientName: string;
+  /** The results on this chart measured on the same sample (this one included): moved or voided together by default. */
+  panel: ChartResult[];
   onMoved: () => void;
 }) {
   const actor = useActor();
@@ -117,10 +120,10 @@ export function ResultDetail({
         {actor.role !== 'admin' && (
           <div className="flex flex-wrap gap-2 border-t border-ink-100 pt-3">
             <button type="button" className={buttonClass.secondary} onClick={() => setMoving(true)}>
-              Move to another patient…
+              {panel.length > 1 ? 'Move to another patient (panel or this result)…' : 'Move to another patient…'}
             </button>
             <button type="button" className={buttonClass.danger} onClick={() => setVoiding(true)}>
-              Void result…
+              {panel.length > 1 ? 'Void (panel or this result)…' : 'Void result…'}
             </button>
           </div>
         )}
@@ -128,6 +131,7 @@ export function ResultDetail({
       {moving && (
         <ReassignDialog
           result={result}
+          panel={panel}
           fromName={patientName}
           fromId={patientId}
           onClose={(moved) => {
@@ -139,6 +143,7 @@ export function ResultDetail({
       {voiding && (
         <VoidFromRecordDialog
           result={result}
+          panel={panel}
           onClose={(voided) => {
             setVoiding(false);
             if (voided) onMoved();
@@ -185,28 +190,85 @@ function ReviewForm({ result }: { result: ChartResult }) {
   );
 }
 
-function ReassignDialog({ result, fromName, fromId, onClose }: { result: ChartResult; fromName: string; fromId: string; onClose: (moved: boolean) => void }) {
+/**
+ * Whole panel or this result only: a result measured with others on one sample is corrected with them by
+ * default (a misread tube label moves every result of the tube); "only this result" splits it off.
+ */
+function PanelScope({ result, panel, whole, onChange, verb }: { result: ChartResult; panel: ChartResult[]; whole: boolean; onChange: (whole: boolean) => void; verb: string }) {
+  if (panel.length < 2) return null;
+  return (
+    <fieldset className="mb-3 space-y-1 text-sm" data-testid="panel-scope">
+      <legend className="mb-1 font-medium">What to {verb.toLowerCase()}</legend>
+      <label className="flex items-start gap-2">
+        <input type="radio" name="panel-scope" className="mt-1" checked={whole} onChange={() => onChange(true)} />
+        <span>
+          The whole panel: {panel.length} results of this sample ({panel.map((p) => p.analyte).join(', ')})
+        </span>
+      </label>
+      <label className="flex items-start gap-2">
+        <input type="radio" name="panel-scope" className="mt-1" checked={!whole} onChange={() => onChange(false)} />
+        <span>Only this result ({result.analyte}); it is split off the panel, the rest stays</span>
+      </label>
+    </fieldset>
+  );
+}
+
+function ReassignDialog({
+  result,
+  panel,
+  fromName,
+  fromId,
+  onClose,
+}: {
+  result: ChartResult;
+  panel: ChartResult[];
+  fromName: string;
+  fromId: string;
+  onClose: (moved: boolean) => void;
+}) {
   const [q, setQ] = useState('');
   const debounced = useDebounced(q.trim(), 200);
   const search = useSWR<{ patients: PatientView[] }>(debounced ? `/api/patients?q=${encodeURIComponent(debounced)}&limit=10` : null, fetcher);
   const [chosen, setChosen] = useState<PatientView | null>(null);
   const [reason, setReason] = useState('');
   const [runWillGiveReading, setRunWillGiveReading] = useState(false);
+  const [whole, setWhole] = useState(panel.length > 1);
   const [failure, setFailure] = useState<string | null>(null);
+  const moving = whole && panel.length > 1 ? panel : [result];
   const submit = async () => {
     if (!chosen) return;
     try {
-      await send(`/api/readings/${result.id}/reassign`, 'POST', { patientId: chosen.id, fromPatientId: fromId, reason, runWillGiveReading });
+      if (moving.length > 1 && result.specimenId) {
+        // One request, one transaction: every result of the panel moves, or none (409 if the panel changed).
+        await send(`/api/specimens/${result.specimenId}/reassign`, 'POST', {
+          patientId: chosen.id,
+          fromPatientId: fromId,
+          readingIds: moving.map((r) => r.id),
+          reason,
+          runWillGiveReading,
+        });
+      } else {
+        await send(`/api/readings/${result.id}/reassign`, 'POST', { patientId: chosen.id, fromPatientId: fromId, reason, runWillGiveReading });
+      }
       onClose(true);
     } catch (error) {
       setFailure(error instanceof Error ? error.message : 'Could not move the result.');
     }
   };
+  const what = moving.length > 1 ? `${moving.length} results` : 'result';
   return (
-    <Modal title="Move result to another patient" onClose={() => onClose(false)}>
+    <Modal title={moving.length > 1 ? 'Move panel to another patient' : 'Move result to another patient'} onClose={() => onClose(false)}>
+      <PanelScope result={result} panel={panel} whole={whole} onChange={setWhole} verb="Move" />
       <p className="mb-3 text-sm">
-        {result.analyte} {result.comparator ?? ''}
-        {result.value} {result.unit} is on {fromName}’s record. It will be taken off with your reason, kept in the history, and put on the
+        {moving.length > 1 ? (
+          <>These {moving.length} results are</>
+        ) : (
+          <>
+            {result.analyte} {result.comparator ?? ''}
+            {result.value} {result.unit} is
+          </>
+        )}{' '}
+        on {fromName}’s record. {moving.length > 1 ? 'They' : 'It'} will be taken off with your reason, kept in the history, and put on the
         patient you choose.
       </p>
       <label htmlFor="reassign-search" className="mb-1 block text-sm font-medium">
@@ -221,6 +283,7 @@ function ReassignDialog({ result, fromName, fromId, onClose }: { result: ChartRe
               <button
                 type="button"
                 onClick={() => setChosen(p)}
+                aria-pressed={chosen?.id === p.id}
                 className={`w-full rounded border px-2 py-1 text-left text-sm ${chosen?.id === p.id ? 'border-ink-800 bg-ink-100' : 'border-transparent hover:border-ink-300'}`}
               >
                 {p.name} <span className="font-mono">{p.recordNumber}</span> <span className="text-xs text-ink-500">{p.species}</span>
@@ -235,48 +298,58 @@ function ReassignDialog({ result, fromName, fromId, onClose }: { result: ChartRe
         <label className="mt-2 flex items-start gap-2 text-sm">
           <input type="checkbox" checked={runWillGiveReading} onChange={(e) => setRunWillGiveReading(e.target.checked)} />
           <span>
-            The run this result completed will still give a reading (keep its test open on the Bench). Leave unticked if that run is
-            over: it is closed as used, with no reading.
+            The run {moving.length > 1 ? 'these results' : 'this result'} completed will still give a reading (keep its test open on the
+            Bench). Leave unticked if that run is over: it is closed as used, with no reading.
           </span>
         </label>
       </div>
-      <div className="mt-4 flex justify-end gap-2">
+      <div className="mt-4 flex flex-wrap justify-end gap-2">
         <button type="button" className={buttonClass.secondary} onClick={() => onClose(false)}>
           Cancel
         </button>
         <button type="button" className={buttonClass.primary} disabled={!chosen || reason.trim().length < 3} onClick={submit}>
-          {chosen ? `Move to ${chosen.name} (${chosen.recordNumber})` : 'Choose a patient'}
+          {chosen ? `Move ${what} to ${chosen.name} (${chosen.recordNumber})` : 'Choose a patient'}
         </button>
       </div>
     </Modal>
   );
 }
 
-function VoidFromRecordDialog({ result, onClose }: { result: ChartResult; onClose: (voided: boolean) => void }) {
+function VoidFromRecordDialog({ result, panel, onClose }: { result: ChartResult; panel: ChartResult[]; onClose: (voided: boolean) => void }) {
   const [reason, setReason] = useState('');
+  const [whole, setWhole] = useState(panel.length > 1);
   const [failure, setFailure] = useState<string | null>(null);
+  const voiding = whole && panel.length > 1 ? panel : [result];
   const submit = async (e: React.FormEvent) => {
     e.preventDefault();
     try {
-      await send(`/api/readings/${result.id}/void`, 'POST', { reason, onRecord: true });
+      if (voiding.length > 1 && result.specimenId) {
+        await send(`/api/specimens/${result.specimenId}/void`, 'POST', { readingIds: voiding.map((r) => r.id), reason, onRecord: true });
+      } else {
+        await send(`/api/readings/${result.id}/void`, 'POST', { reason, onRecord: true });
+      }
       onClose(true);
     } catch (error) {
       setFailure(error instanceof Error ? error.message : 'Could not void.');
     }
   };
   return (
-    <Modal title="Void result on the record" onClose={() => onClose(false)}>
+    <Modal title={voiding.length > 1 ? 'Void panel on the record' : 'Void result on the record'} onClose={() => onClose(false)}>
       <form onSubmit={submit} className="space-y-3" noValidate>
-        <p className="text-sm">The result comes off the record; the history keeps it, with your reason.</p>
+        <PanelScope result={result} panel={panel} whole={whole} onChange={setWhole} verb="Void" />
+        <p className="text-sm">
+          {voiding.length > 1 ? `The ${voiding.length} results come` : 'The result comes'} off the record; the history keeps{' '}
+          {voiding.length > 1 ? 'them' : 'it'}, with your reason.
+        </p>
         <Field id="void-record-reason" label="Reason (required)" error={failure ?? undefined}>
           <input id="void-record-reason" className={inputClass} value={reason} onChange={(e) => setReason(e.target.value)} autoFocus />
         </Field>
-        <div className="flex justify-end gap-2">
+        <div className="flex flex-wrap justify-end gap-2">
           <button type="button" className={buttonClass.secondary} onClick={() => onClose(false)}>
             Cancel
           </button>
           <button type="submit" className={buttonClass.danger} disabled={reason.trim().length < 3}>
-            Void result
+            {voiding.length > 1 ? `Void ${voiding.length} results` : 'Void result'}
           </button>
         </div>
       </form>
