@@ -42,5 +42,30 @@ if (fs.existsSync(summaryFile)) {
   failed++;
 }
 
+// Second pass: the integration tests against a real PostgreSQL server (server mode), when Debian's
+// PostgreSQL is installed (.ci/run installs it). Lean on purpose: integration files only, same workers;
+// the PGlite-only files (its data-dir lock, its fsync) are left out.
+const hasPostgres = fs.existsSync('/usr/lib/postgresql') && fs.readdirSync('/usr/lib/postgresql').some((v) => fs.existsSync(path.join('/usr/lib/postgresql', v, 'bin', 'pg_ctl')));
+if (process.argv.length > 2) {
+  // A chosen subset (npm test -- <paths>): no second pass.
+} else if (!hasPostgres) {
+  console.log('\n▶ tests on PostgreSQL: skipped (no /usr/lib/postgresql/*/bin/pg_ctl)');
+} else {
+  const pgSummary = path.join(path.dirname(summaryFile), 'summary-postgres.json');
+  const ok = step('tests on PostgreSQL', bin('vitest'), ['run', 'tests/integration', '--exclude', 'tests/integration/store-lock.test.ts', '--exclude', 'tests/integration/durable-ack.test.ts'], {
+    BENCHWIRE_TEST_SUMMARY: pgSummary,
+    BENCHWIRE_TEST_POSTGRES: '1',
+  });
+  if (fs.existsSync(pgSummary)) {
+    const counts = JSON.parse(fs.readFileSync(pgSummary, 'utf8')) as { passed: number; failed: number; skipped: number };
+    passed += counts.passed;
+    failed += counts.failed;
+    skipped += counts.skipped;
+    if (!ok && counts.failed === 0) failed++;
+  } else if (!ok) {
+    failed++;
+  }
+}
+
 console.log(`\n${passed} passed, ${failed} failed${skipped ? `, ${skipped} skipped` : ''}`);
 process.exit(failed === 0 ? 0 : 1);
