@@ -20,6 +20,10 @@ async function main() {
   // A short SESSION_SECRET would let the server start and then fail every sign-in: refuse to start instead.
   const { sessionSecret } = await import('@/lib/auth/session');
   try {
+    // Instances sharing one PostgreSQL must seal sessions alike; a secret generated per DATA_DIR would not.
+    if (process.env.DATABASE_URL && !process.env.SESSION_SECRET) {
+      throw new Error('DATABASE_URL is set (server mode): set SESSION_SECRET too, the same on every app instance');
+    }
     sessionSecret();
   } catch (error) {
     console.error(`[benchwire] cannot start: ${error instanceof Error ? error.message : String(error)}`);

@@ -1,6 +1,9 @@
 import path from 'node:path';
 import { defineConfig } from 'vitest/config';
 
+// BENCHWIRE_TEST_POSTGRES=1: the integration tests against a real PostgreSQL server (npm test's second pass).
+const postgresPass = process.env.BENCHWIRE_TEST_POSTGRES === '1';
+
 export default defineConfig({
   resolve: {
     alias: {
@@ -12,6 +15,7 @@ export default defineConfig({
   test: {
     include: ['tests/unit/**/*.test.ts', 'tests/integration/**/*.test.ts', 'tests/e2e/**/*.test.ts', 'bridge/**/*.test.ts'],
     environment: 'node',
+    ...(postgresPass ? { globalSetup: ['tests/helpers/postgres-setup.ts'] } : {}),
     testTimeout: 30_000,
     hookTimeout: 180_000,
     // PGlite and the browser are heavy; two cores, two workers.

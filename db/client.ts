@@ -3,13 +3,29 @@ import fs from 'node:fs';
 import path from 'node:path';
 import { PGlite } from '@electric-sql/pglite';
 import { pg_trgm } from '@electric-sql/pglite/contrib/pg_trgm';
-import { drizzle, type PgliteDatabase } from 'drizzle-orm/pglite';
+import { drizzle } from 'drizzle-orm/pglite';
 import { migrate } from 'drizzle-orm/pglite/migrator';
+import { drizzle as drizzleNodePg } from 'drizzle-orm/node-postgres';
+import { migrate as migrateNodePg } from 'drizzle-orm/node-postgres/migrator';
+import type { PgDatabase, PgQueryResultHKT } from 'drizzle-orm/pg-core';
+import type { Assume } from 'drizzle-orm/utils';
+import pg from 'pg';
 import * as schema from './schema';
 import { dataDir } from '@/lib/config';
+import { durableSyncer } from '@/lib/durable-sync';
+import { PgListener } from '@/lib/live/pg-listener';
 import { lockStore, tightenPermissions } from '@/lib/store-lock';
 
-export type Db = PgliteDatabase<typeof schema>;
+/** What both drivers' raw execute() gives back that the app reads: the rows. */
+interface Rows<T> {
+  rows: T[];
+}
+export interface QueryRowsHKT extends PgQueryResultHKT {
+  type: Rows<Assume<this['row'], Record<string, unknown>>>;
+}
+
+/** The same Drizzle code runs on embedded PGlite and on a PostgreSQL server (node-postgres). */
+export type Db = PgDatabase<QueryRowsHKT, typeof schema>;
 export type Tx = Parameters<Parameters<Db['transaction']>[0]>[0];
 /** Anything that runs queries: the database or an open transaction. */
 export type Executor = Db | Tx;
@@ -18,6 +34,14 @@ export interface Database {
   db: Db;
   /** LISTEN on a channel; resolves to an unsubscribe function. */
   listen(channel: string, onPayload: (payload: string) => void): Promise<() => Promise<void>>;
+  /**
+   * Resolves once every transaction committed before the call is on disk. A PostgreSQL server fsyncs its
+   * WAL at COMMIT itself (fsync and synchronous_commit on, its defaults); PGlite on a data directory never
+   * does, so this fsyncs its changed files (lib/durable-sync.ts). In memory there is no disk: nothing to do.
+   */
+  durable(): Promise<void>;
+  /** 'pglite' (embedded, one process per data directory) or 'postgres' (DATABASE_URL). */
+  kind: 'pglite' | 'postgres';
   close(): Promise<void>;
 }
 
@@ -25,7 +49,7 @@ const MIGRATIONS = path.join(/*turbopackIgnore: true*/ process.cwd(), 'db', 'mig
 
 /**
  * Opens embedded PostgreSQL (PGlite) at dir, or in memory when dir is undefined, and applies
- * the committed migrations. PGlite allows one process per data directory.
+ * the committed migrations. PGlite allows one process per data directory (openDataDir locks it).
  */
 export async function openDatabase(dir?: string): Promise<Database> {
   if (dir) fs.mkdirSync(dir, { recursive: true, mode: 0o700 });
@@ -33,10 +57,57 @@ export async function openDatabase(dir?: string): Promise<Database> {
   const pg = await PGlite.create(dir, { extensions: { pg_trgm } });
   const db = drizzle({ client: pg, schema, casing: 'snake_case' });
   await migrate(db, { migrationsFolder: MIGRATIONS });
+  const sync = dir ? durableSyncer(dir) : null;
+  // What migrations (and any earlier run) left only in the page cache goes to disk before we serve.
+  await sync?.();
   return {
-    db,
+    db: db as unknown as Db,
+    kind: 'pglite',
     listen: (channel, onPayload) => pg.listen(channel, onPayload),
+    durable: () => (sync ? sync() : Promise.resolve()),
     close: () => pg.close(),
+  };
+}
+
+/** Migrations on a server: one instance at a time (others starting together wait), under an advisory lock. */
+const MIGRATION_LOCK = 'benchwire.migrations';
+
+/**
+ * A PostgreSQL server through node-postgres (DATABASE_URL): a connection pool for queries and one
+ * dedicated connection for LISTEN, so live events reach every app instance on the same database.
+ */
+export async function openServerDatabase(url: string, options: { poolSize?: number } = {}): Promise<Database> {
+  const pool = new pg.Pool({ connectionString: url, max: options.poolSize ?? Number(process.env.DATABASE_POOL_SIZE ?? 10) });
+  // An idle connection dropped by the server (restart, admin) must not take the process down; the pool replaces it.
+  pool.on('error', (error) => console.error('[benchwire] database connection lost', error.message));
+  try {
+    const client = await pool.connect();
+    try {
+      await client.query('select pg_advisory_lock(hashtext($1))', [MIGRATION_LOCK]);
+      try {
+        await migrateNodePg(drizzleNodePg({ client, schema, casing: 'snake_case' }), { migrationsFolder: MIGRATIONS });
+      } finally {
+        await client.query('select pg_advisory_unlock(hashtext($1))', [MIGRATION_LOCK]);
+      }
+    } finally {
+      client.release();
+    }
+  } catch (error) {
+    await pool.end().catch(() => {});
+    throw error;
+  }
+  const db = drizzleNodePg({ client: pool, schema, casing: 'snake_case' });
+  const listener = new PgListener(url);
+  return {
+    db: db as unknown as Db,
+    kind: 'postgres',
+    listen: (channel, onPayload) => listener.listen(channel, onPayload),
+    // COMMIT returned: the server has flushed its WAL (synchronous_commit = on).
+    durable: () => Promise.resolve(),
+    close: async () => {
+      await listener.close();
+      await pool.end();
+    },
   };
 }
 
@@ -85,8 +156,20 @@ const KEY = Symbol.for('benchwire.database');
 type Holder = { [KEY]?: Promise<Database> };
 const holder = globalThis as Holder;
 
+/** DATABASE_URL (postgres://…) selects a PostgreSQL server; without it, PGlite in DATA_DIR. */
+export function databaseUrl(): string | undefined {
+  const url = process.env.DATABASE_URL?.trim();
+  if (!url) return undefined;
+  if (!/^postgres(ql)?:\/\//.test(url)) throw new Error('DATABASE_URL must start with postgres:// or postgresql://');
+  return url;
+}
+
 export function getDatabase(): Promise<Database> {
-  holder[KEY] ??= openDataDir();
+  if (!holder[KEY]) {
+    const url = databaseUrl();
+    // The store lock guards PGlite's one-process data directory only; a server takes many instances.
+    holder[KEY] = url ? openServerDatabase(url) : openDataDir();
+  }
   return holder[KEY];
 }
 

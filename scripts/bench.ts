@@ -11,6 +11,7 @@ import os from 'node:os';
 import path from 'node:path';
 import { buildIfNeeded } from './build-if-needed';
 import { benchInProcess } from '../tests/bench/suite/database';
+import { benchDurability } from '../tests/bench/suite/durability';
 import { buildDataset, datasetReady } from '../tests/bench/suite/dataset';
 import { benchParsers } from '../tests/bench/suite/parsers';
 import { Report } from '../tests/bench/suite/report';
@@ -51,6 +52,11 @@ try {
     } finally {
       fs.rmSync(work, { recursive: true, force: true });
     }
+  }
+
+  if (wanted('durable')) {
+    step('durability: a batch answered after its fsync against answered at COMMIT');
+    await benchDurability(report, quick ? 5 : 25);
   }
 
   if (wanted('parser')) {

@@ -1,6 +1,6 @@
 // `npm test`: the whole suite in one run — type check, lint, production build (the browser test
 // serves it), then every vitest test (unit, integration, bridge, pseudo-terminal, browser), then the
-// fault suite (tests/faults: real server and bridge processes killed, unplugged, out of disk).
+// integration tests again on PostgreSQL, then the fault suite (tests/faults: real server and bridge processes killed, unplugged, out of disk).
 // Ends with one line `N passed, N failed` for the whole run.
 import { spawnSync } from 'node:child_process';
 import fs from 'node:fs';
@@ -47,6 +47,24 @@ function vitestStep(name: string, args: string[], extraEnv: Record<string, strin
 }
 
 vitestStep('tests', process.argv.slice(2));
+// Second pass: the integration tests against a real PostgreSQL server (server mode), when Debian's
+// PostgreSQL is installed (.ci/run installs it). Lean on purpose: integration files only; the
+// PGlite-only files (its data-dir lock, its fsync) are left out. Not run when only some tests were asked for.
+const hasPostgres =
+  fs.existsSync('/usr/lib/postgresql') &&
+  fs.readdirSync('/usr/lib/postgresql').some((v) => fs.existsSync(path.join('/usr/lib/postgresql', v, 'bin', 'pg_ctl')));
+if (process.argv.length <= 2) {
+  if (hasPostgres) {
+    vitestStep(
+      'tests on PostgreSQL',
+      ['tests/integration', '--exclude', 'tests/integration/store-lock.test.ts', '--exclude', 'tests/integration/durable-ack.test.ts'],
+      { BENCHWIRE_TEST_POSTGRES: '1' },
+    );
+  } else {
+    console.log('\n▶ tests on PostgreSQL: skipped (no /usr/lib/postgresql/*/bin/pg_ctl)');
+  }
+}
+
 // The fault suite (real server and bridge processes, tests/faults): one scenario per test, each line
 // "sent, stored, duplicates, lost" printed again here. Not run when only some tests were asked for.
 if (process.argv.length <= 2) {

@@ -1,6 +1,6 @@
 import 'server-only';
 import { and, eq, inArray, sql } from 'drizzle-orm';
-import { db, type Tx } from '@/db/client';
+import { getDatabase, type Tx } from '@/db/client';
 import { bridges, instruments, readings, unparsedCaptures, type Bridge } from '@/db/schema';
 import { recordAudits, type AuditEntry } from '@/lib/audit';
 import { publishBatch } from '@/lib/live/bus';
@@ -39,11 +39,13 @@ type CaptureRecord = BridgeRecord & { payload: Extract<BridgeRecord['payload'], 
  * per kind carrying the new ids, and the clinic's exact-ID rule looked up once for the whole batch.
  * A record whose key this bridge already sent is acknowledged as a duplicate and not stored again, so the
  * bridge can resend freely.
+ * Returns only once the transaction is on disk (Database.durable): the bridge drops what it is answered
+ * for, so an answer given before that would lose readings in a power cut.
  */
 export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promise<BridgeBatchResult> {
   const batch = storable(received);
-  const database = await db();
-  return database.transaction(async (tx) => {
+  const store = await getDatabase();
+  const result = await store.db.transaction(async (tx) => {
     const codes = [...new Set(batch.records.map((r) => r.instrument))];
     const known = await tx
       .select({ id: instruments.id, code: instruments.code })
@@ -186,4 +188,7 @@ export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promis
     await tx.update(bridges).set({ lastSeenAt: new Date() }).where(eq(bridges.id, bridge.id));
     return { results };
   });
+  // Duplicates too: the first answer for those keys may have failed before its sync finished.
+  await store.durable();
+  return result;
 }

@@ -70,7 +70,9 @@ export async function startApp(extraEnv: Record<string, string> = {}): Promise<R
       throw new Error(`${error.message}\n--- server output ---\n${output}`);
     },
   );
-  const bridgeToken = fs.readFileSync(path.join(dataDir, 'demo-bridge-token'), 'utf8').trim();
+  // A second instance on a shared PostgreSQL finds the clinic seeded already and writes no token.
+  const tokenFile = path.join(dataDir, 'demo-bridge-token');
+  const bridgeToken = fs.existsSync(tokenFile) ? fs.readFileSync(tokenFile, 'utf8').trim() : '';
   return {
     baseUrl,
     port,

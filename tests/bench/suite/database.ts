@@ -5,7 +5,7 @@ import { PGlite } from '@electric-sql/pglite';
 import { pg_trgm } from '@electric-sql/pglite/contrib/pg_trgm';
 import { sql } from 'drizzle-orm';
 import { drizzle } from 'drizzle-orm/pglite';
-import { installDatabase, schema } from '@/db/client';
+import { installDatabase, schema, type Db } from '@/db/client';
 import type { Bridge } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import type { BridgeBatch } from '@/lib/validation/readings';
@@ -75,7 +75,7 @@ export async function benchInProcess(report: Report, dataDir: string, batches: n
   const log: Logged[] = [];
   let capturing = false;
   const db = drizzle({ client: pg, schema, casing: 'snake_case', logger: { logQuery: (q, p) => capturing && log.push({ sql: q, params: p }) } });
-  installDatabase({ db, listen: (c, f) => pg.listen(c, f), close: () => pg.close() });
+  installDatabase({ db: db as unknown as Db, kind: 'pglite', listen: (c, f) => pg.listen(c, f), durable: async () => {}, close: () => pg.close() });
   const first = async <T>(q: string, p: unknown[] = []) => (await pg.query<T>(q, p)).rows[0];
   const clinic = await first<{ id: string }>(`select id from clinics order by created_at limit 1`);
   const tech = await first<Actor>(`select id as "userId", clinic_id as "clinicId", role, display_name as "displayName", email from staff_users where email = 'vet@fernhollow.example'`);
