@@ -196,13 +196,30 @@ export class RecordFramer extends Transform {
   override _transform(line: Line, _encoding: BufferEncoding, callback: TransformCallback): void {
     this.clearIdleTimer();
     for (const output of this.grouper.take(line)) this.push(output);
-    if (this.quietMs !== undefined && this.grouper.holding) {
-      this.idleTimer = setTimeout(() => {
-        this.idleTimer = undefined;
-        for (const output of this.grouper.quiet()) this.push(output);
-      }, this.quietMs);
-    }
+    this.armIdleTimer();
     callback();
+  }
+
+  /**
+   * Quiet is only quiet when lines can reach this stage. While the stages after it are held back (the
+   * spool cannot write), lines wait in the buffers before it, so the timer starts again instead of
+   * cutting a slip short; the lines that were held reset it as usual once they come through.
+   */
+  private armIdleTimer(): void {
+    if (this.quietMs === undefined || !this.grouper.holding) return;
+    this.idleTimer = setTimeout(() => {
+      this.idleTimer = undefined;
+      if (this.heldBack()) {
+        this.armIdleTimer();
+        return;
+      }
+      for (const output of this.grouper.quiet()) this.push(output);
+    }, this.quietMs);
+  }
+
+  /** A line is waiting to be taken, or what was pushed is not being read. */
+  private heldBack(): boolean {
+    return this.writableLength > 0 || this.readableLength >= this.readableHighWaterMark;
   }
 
   override _flush(callback: TransformCallback): void {
