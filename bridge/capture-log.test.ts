@@ -1,6 +1,11 @@
-import { readdir, readFile } from 'node:fs/promises';
+import { mkdir, readdir, readFile, symlink, unlink } from 'node:fs/promises';
+import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { CaptureLog } from './capture-log';
+import { plainPrintout } from './dialects/plain-printout';
+import { captureWarning, startInstrument } from './pipeline';
+import { openFileSource } from './sources/file';
+import { Spool } from './spool';
 import { tempDir } from './testing/payloads';
 
 // The rotation scheme is ours (common practice for logs, no source): capture.log is the newest,
@@ -49,4 +54,37 @@ describe('CaptureLog', () => {
     await broken.close();
     expect(errors[0]).toMatch(/cannot write the raw capture log/);
   });
+
+  // A disk that is full: writing to Linux's /dev/full always fails with ENOSPC (null(4) man page), so
+  // capture.log pointing at it is a real ENOSPC, not a simulated one.
+  it.runIf(process.platform === 'linux')('counts what a full disk kept out of the log, and says so in the link health', async () => {
+    const full = join(dir, 'full');
+    await mkdir(full);
+    await symlink('/dev/full', join(full, 'capture.log'));
+    const log = new CaptureLog(full);
+    await expect(log.append(Buffer.from('12345'))).resolves.toBeUndefined();
+    await log.append(Buffer.from('678'));
+    expect(log.problem()).toEqual({ writing: false, lostBytes: 8, lostChunks: 2, lastError: 'ENOSPC' });
+    // Space again: the log goes on, and the gap stays counted.
+    await unlink(join(full, 'capture.log'));
+    await log.append(Buffer.from('ok'));
+    expect(log.problem()).toEqual({ writing: true, lostBytes: 8, lostChunks: 2, lastError: 'ENOSPC' });
+    expect(await readFile(join(full, 'capture.log'), 'utf8')).toBe('ok');
+    await log.close();
+    await unlink(join(full, 'capture.log'));
+    await symlink('/dev/full', join(full, 'capture.log'));
+
+    // Through a whole instrument pipeline: the readings are spooled and the heartbeat carries the warning.
+    const slips = new URL('./fixtures/plain-printout/mixed.txt', import.meta.url).pathname;
+    const text = await readFile(slips);
+    const spool = await Spool.open(join(dir, 'spool'));
+    const instrument = startInstrument({ code: 'crp', dialect: plainPrintout, source: openFileSource(slips), spool, captureDir: full });
+    await instrument.done;
+    const warnings = instrument.status().warnings ?? [];
+    expect(warnings).toEqual([captureWarning({ writing: false, lostBytes: text.length, lostChunks: 1, lastError: 'ENOSPC' })]);
+    expect(warnings[0]).toMatch(/^raw capture log cannot be written \(ENOSPC; disk full or failing\?\): \d+ byte\(s\) in 1 piece\(s\) not logged/);
+    expect(spool.pending().length).toBeGreaterThan(0);
+    await spool.close();
+  });
 });
+

@@ -20,7 +20,8 @@ export const CAPTURE_FILE = 'capture.log';
  * Every byte an instrument sent, before any framing, appended in arrival order to capture.log in the
  * instrument's own folder; rotated by size (capture.1.log is the newest old one) and fsynced on a timer.
  * The files hold the bytes exactly as received (`cat -v` or a hex viewer shows them). A disk problem
- * is logged and never stops the instrument's pipeline: the spool is the record that counts.
+ * is logged, counted (problem(), shown as a link-health warning) and never stops the instrument's
+ * pipeline: the spool is the record that counts.
  */
 export class CaptureLog {
   private queue: Promise<void> = Promise.resolve();
@@ -29,6 +30,9 @@ export class CaptureLog {
   private dirty = false;
   private failing = false;
   private closed = false;
+  private lostBytes = 0;
+  private lostChunks = 0;
+  private lastError: string | undefined;
   private readonly timer: NodeJS.Timeout;
   private readonly maxBytes: number;
   private readonly files: number;
@@ -61,7 +65,16 @@ export class CaptureLog {
       await this.file?.appendFile(copy);
       this.size += copy.length;
       this.dirty = true;
-    });
+    }, copy.length);
+  }
+
+  /**
+   * What could not be logged since this log was opened, for the link-health heartbeat: a disk that is
+   * full (ENOSPC) or failing (EIO) must show on the admin's health panel, with the size of the gap.
+   */
+  problem(): { writing: boolean; lostBytes: number; lostChunks: number; lastError: string } | undefined {
+    if (!this.failing && this.lostBytes === 0) return undefined;
+    return { writing: !this.failing, lostBytes: this.lostBytes, lostChunks: this.lostChunks, lastError: this.lastError ?? 'unknown error' };
   }
 
   /** Flush what is written to disk. */
@@ -108,9 +121,12 @@ export class CaptureLog {
     await this.ensureOpen();
   }
 
-  private serially(task: () => Promise<void>): Promise<void> {
+  /** Runs tasks one at a time; `bytes` is how much is lost if this one fails (0: a sync or close). */
+  private serially(task: () => Promise<void>, bytes = 0): Promise<void> {
     const run = this.queue.then(task).then(
       () => {
+        // Only bytes written show the disk is back; a sync or close with nothing open says nothing.
+        if (bytes === 0) return;
         if (this.failing) this.log.info(`${this.name}: raw capture log is being written again`);
         this.failing = false;
       },
@@ -118,6 +134,11 @@ export class CaptureLog {
         // Log once per failure streak; the handle may be broken, so reopen next time.
         if (!this.failing) this.log.error(`${this.name}: cannot write the raw capture log ${this.path} (${errorMessage(error)})`);
         this.failing = true;
+        this.lastError = (error as NodeJS.ErrnoException)?.code ?? errorMessage(error);
+        if (bytes > 0) {
+          this.lostBytes += bytes;
+          this.lostChunks++;
+        }
         const broken = this.file;
         this.file = undefined;
         void broken?.close().catch(() => {});

@@ -161,6 +161,8 @@ export function startInstrument(options: InstrumentOptions): InstrumentPipeline 
     done: finished,
     status: () => {
       const { warnings, bytesReceived, lastByteAt, checksumRetransmissions, framingErrors } = health.status();
+      const captureProblem = capture?.problem();
+      if (captureProblem) warnings.push(captureWarning(captureProblem));
       return {
         instrument: options.code,
         ...source.state(),
@@ -180,6 +182,16 @@ export function startInstrument(options: InstrumentOptions): InstrumentPipeline 
       clearTimeout(giveUp);
     },
   };
+}
+
+/** The heartbeat line for a raw capture log that cannot be (or could not be) written. */
+export function captureWarning(problem: NonNullable<ReturnType<CaptureLog['problem']>>): string {
+  const gap = `${problem.lostBytes} byte(s) in ${problem.lostChunks} piece(s) not logged`;
+  return (
+    problem.writing
+      ? `raw capture log has a gap (${problem.lastError} earlier): ${gap}; readings were still spooled`
+      : `raw capture log cannot be written (${problem.lastError}; disk full or failing?): ${gap} so far; readings are still spooled`
+  ).slice(0, 200);
 }
 
 /** Where an instrument's raw capture log lives in the spool directory. */

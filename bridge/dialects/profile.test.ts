@@ -150,3 +150,42 @@ describe('a start-only profile whose fields are all read once', () => {
     expect(framing?.complete).toBeUndefined();
   });
 });
+
+describe('patterns run in a linear-time engine', () => {
+  // A nested quantifier such as ^(a+)+$ takes time exponential in the line's length in a backtracking
+  // engine on a line that almost matches (the classic ReDoS case, OWASP "Regular expression Denial of
+  // Service"); RE2's automaton takes linear time (RE2 syntax documentation: no backreferences, no lookaround).
+  // No timing is asserted: under the old engine this test would not finish, and vitest's timeout fails it.
+  const catastrophic: ProfileDefinitionInput = {
+    analyzer: 'Invented single-test reader',
+    record: { formFeed: true },
+    analyte: 'CRP',
+    fields: [
+      { label: 'Filler', pattern: '^(a+)+$' },
+      { label: 'Result', pattern: '^RESULT\\s+(?<value>\\d+)', required: true },
+    ],
+  };
+
+  it('accepts ^(a+)+$ and answers correctly on a 4,000-character line that almost matches (just under the line limit)', () => {
+    const loaded = loadProfile(catastrophic);
+    expect(loaded.ok).toBe(true);
+    const almost = `${'a'.repeat(4_000)}!`;
+    const preview = previewProfile(profileDefinitionSchema.parse(catastrophic), `${almost}\nRESULT 12\n\f`);
+    expect(preview.records).toHaveLength(1);
+    // The filler line does not match (it ends in "!"); the result line does.
+    expect(preview.records[0].lines.map((line) => line.fields)).toEqual([[], ['Result'], []]); // the last line is the form feed
+    expect(preview.outputs).toEqual([expect.objectContaining({ kind: 'reading', analyte: 'CRP', value: 12 })]);
+    const whole = previewProfile(profileDefinitionSchema.parse(catastrophic), `${'a'.repeat(4_000)}\nRESULT 7\n\f`);
+    expect(whole.records[0].lines.map((line) => line.fields)).toEqual([['Filler'], ['Result'], []]);
+  });
+
+  it('refuses backreferences and lookaround at load, naming the field and why', () => {
+    const withPattern = (pattern: string) => ({ ...catastrophic, fields: [catastrophic.fields[1], { label: 'Extra', pattern }] });
+    expect(loadProfile(withPattern('^(\\d)\\1$'))).toEqual({ ok: false, message: expect.stringMatching(/^fields\.1\.pattern: Not a valid pattern: a backreference/) });
+    expect(loadProfile(withPattern('^(?<sampleId>\\S+)\\k<sampleId>'))).toEqual({ ok: false, message: expect.stringMatching(/^fields\.1\.pattern: .*backreference/) });
+    for (const look of ['^ID(?=:)', '^ID(?!X)', '(?<=ID:)\\S+', '(?<!X)ID']) {
+      expect(loadProfile(withPattern(look))).toEqual({ ok: false, message: expect.stringMatching(/^fields\.1\.pattern: Not a valid pattern: lookahead and lookbehind/) });
+    }
+    expect(loadProfile({ ...catastrophic, record: { start: 'x(?=y)' } })).toEqual({ ok: false, message: expect.stringMatching(/^record\.start: .*lookahead/) });
+  });
+});

@@ -4,6 +4,7 @@ import {
   type ProfileCapture,
   type ProfileDefinition,
 } from '../../lib/validation/profile';
+import { linePattern, namedGroupsOf, type LinePattern } from '../../lib/validation/pattern';
 import type { ParsedReading, ParserOutput, UnparsedFragment } from '../../lib/validation/readings';
 import { LineCutter, type Line } from '../framing/lines';
 import { RecordGrouper, type FramerOutput, type RecordFrame, type RecordFraming } from '../framing/records';
@@ -32,7 +33,7 @@ export function loadProfile(json: unknown): { ok: true; definition: ProfileDefin
 
 interface CompiledField {
   label: string;
-  pattern: RegExp;
+  pattern: LinePattern;
   required: boolean;
   repeats: boolean;
 }
@@ -48,8 +49,8 @@ interface CompiledProfile {
 function compile(definition: ProfileDefinition): CompiledProfile {
   return {
     definition,
-    fields: definition.fields.map((f) => ({ label: f.label, pattern: new RegExp(f.pattern, 'u'), required: f.required, repeats: f.repeats })),
-    capturesTime: definition.fields.some((f) => f.pattern.includes('(?<time>')),
+    fields: definition.fields.map((f) => ({ label: f.label, pattern: linePattern(f.pattern), required: f.required, repeats: f.repeats })),
+    capturesTime: definition.fields.some((f) => namedGroupsOf(f.pattern).includes('time')),
     date: formatPattern(definition.dateFormat),
     time: formatPattern(definition.timeFormat),
   };
@@ -58,12 +59,12 @@ function compile(definition: ProfileDefinition): CompiledProfile {
 /** The record framing a profile describes, for the shared line and record stages. */
 export function profileFraming(definition: ProfileDefinition): RecordFraming {
   const r = definition.record;
-  const start = r.start ? new RegExp(r.start, 'u') : undefined;
-  const end = r.end ? new RegExp(r.end, 'u') : undefined;
+  const start = r.start ? linePattern(r.start) : undefined;
+  const end = r.end ? linePattern(r.end) : undefined;
   const gapMs = r.idleMs ?? (!end && !r.formFeed ? START_ONLY_GAP_MS : undefined);
   // Without an end line or form feed, a record whose every field is read once (none repeats) is whole
   // at the line that completes it: nothing more can belong to it, so it need not wait for the gap.
-  const patterns = definition.fields.map((f) => new RegExp(f.pattern, 'u'));
+  const patterns = definition.fields.map((f) => linePattern(f.pattern));
   const complete =
     !end && !r.formFeed && definition.fields.length > 0 && !definition.fields.some((f) => f.repeats)
       ? (lines: readonly Line[]) => patterns.every((p) => lines.some((line) => p.test(line.text)))
@@ -98,9 +99,9 @@ function readRecord(profile: CompiledProfile, record: RecordFrame): RecordReadin
       if (!field.repeats && matched.has(field.label)) continue;
       // A line already read by an earlier field (a header such as DATE) is not also a result line.
       if (field.repeats && lines[index].fields.length > 0) continue;
-      const match = field.pattern.exec(line.text);
-      if (!match) continue;
-      const captures = cleanCaptures(match.groups);
+      const groups = field.pattern.exec(line.text);
+      if (!groups) continue;
+      const captures = cleanCaptures(groups);
       lines[index].fields.push(field.label);
       Object.assign(lines[index].captures, captures);
       matched.add(field.label);

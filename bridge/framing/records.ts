@@ -1,6 +1,7 @@
 import { Transform, type TransformCallback } from 'node:stream';
 import type { UnparsedFragment } from '../../lib/validation/readings';
 import type { Line } from './lines';
+import type { LinePattern } from '../../lib/validation/pattern';
 import { fragment } from '../fragments';
 
 /** Lines from a start line through an end line, as printed (or the records of one protocol message). */
@@ -13,15 +14,18 @@ export interface RecordFrame {
 
 export type FramerOutput = RecordFrame | UnparsedFragment;
 
+/** A line pattern: a built-in RegExp, or an administrator's pattern compiled for the linear-time engine. */
+export type LineTest = RegExp | Pick<LinePattern, 'test'>;
+
 /**
  * How one printout format marks its records; plain data so it can come from a stored profile.
  * At least one of start, end, formFeed or gapMs says where records are.
  */
 export interface RecordFraming {
   /** A record starts at a matching line; without it, at any non-blank line. */
-  start?: RegExp;
+  start?: LineTest;
   /** A record ends at a matching line (included). */
-  end?: RegExp;
+  end?: LineTest;
   /** A form feed (page eject) ends a record. */
   formFeed?: boolean;
   /**
@@ -49,8 +53,8 @@ export const OUTSIDE_RECORD = 'text outside any record';
  * records are paper spacing and produce nothing.
  */
 export class RecordGrouper {
-  private readonly startPattern: RegExp | undefined;
-  private readonly endPattern: RegExp | undefined;
+  private readonly startPattern: LineTest | undefined;
+  private readonly endPattern: LineTest | undefined;
   private readonly formFeed: boolean;
   private readonly maxLines: number;
   private readonly maxChars: number;
@@ -192,13 +196,30 @@ export class RecordFramer extends Transform {
   override _transform(line: Line, _encoding: BufferEncoding, callback: TransformCallback): void {
     this.clearIdleTimer();
     for (const output of this.grouper.take(line)) this.push(output);
-    if (this.quietMs !== undefined && this.grouper.holding) {
-      this.idleTimer = setTimeout(() => {
-        this.idleTimer = undefined;
-        for (const output of this.grouper.quiet()) this.push(output);
-      }, this.quietMs);
-    }
+    this.armIdleTimer();
     callback();
+  }
+
+  /**
+   * Quiet is only quiet when lines can reach this stage. While the stages after it are held back (the
+   * spool cannot write), lines wait in the buffers before it, so the timer starts again instead of
+   * cutting a slip short; the lines that were held reset it as usual once they come through.
+   */
+  private armIdleTimer(): void {
+    if (this.quietMs === undefined || !this.grouper.holding) return;
+    this.idleTimer = setTimeout(() => {
+      this.idleTimer = undefined;
+      if (this.heldBack()) {
+        this.armIdleTimer();
+        return;
+      }
+      for (const output of this.grouper.quiet()) this.push(output);
+    }, this.quietMs);
+  }
+
+  /** A line is waiting to be taken, or what was pushed is not being read. */
+  private heldBack(): boolean {
+    return this.writableLength > 0 || this.readableLength >= this.readableHighWaterMark;
   }
 
   override _flush(callback: TransformCallback): void {
@@ -219,8 +240,8 @@ export class RecordFramer extends Transform {
 }
 
 /** A /g or /y pattern remembers lastIndex between test() calls; profiles must not depend on that. */
-function withoutState(pattern: RegExp): RegExp {
-  return new RegExp(pattern.source, pattern.flags.replace(/[gy]/g, ''));
+function withoutState(pattern: LineTest): LineTest {
+  return pattern instanceof RegExp ? new RegExp(pattern.source, pattern.flags.replace(/[gy]/g, '')) : pattern;
 }
 
 export function rawOf(lines: readonly Line[]): string {

@@ -4,6 +4,7 @@ import type { Tx } from '@/db/client';
 import { readings, type Reading } from '@/db/schema';
 import { recordAudit } from '@/lib/audit';
 import { publish } from '@/lib/live/bus';
+import { compileLinePattern } from '@/lib/validation/pattern';
 import { isExpiredOn, localDay } from './kits';
 import { qcStatusFor } from './qc';
 import { clinicClock, loadedLot, matchControlMaterial } from './store';
@@ -19,11 +20,9 @@ import type { QualityMark } from './labels';
 
 export function isQcSampleId(sampleId: string | null, pattern: string): boolean {
   if (!sampleId || !pattern) return false;
-  try {
-    return new RegExp(pattern, 'i').test(sampleId);
-  } catch {
-    return false;
-  }
+  // The clinic's own pattern runs in the linear-time engine, like printout profiles.
+  const compiled = compileLinePattern(pattern, { ignoreCase: true });
+  return compiled.ok && compiled.pattern.test(sampleId);
 }
 
 export async function applyQualityOnIngest(

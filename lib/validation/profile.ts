@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { compileLinePattern, namedGroupsOf } from './pattern';
 import { text } from './text';
 
 // A printout profile: how to read one text-printing analyzer, as data an admin edits in the browser.
@@ -22,25 +23,19 @@ export type ProfileCapture = (typeof PROFILE_CAPTURES)[number];
 export const DATE_FORMATS = ['YYYY-MM-DD', 'DD.MM.YYYY', 'DD/MM/YYYY', 'MM/DD/YYYY', 'DD-MM-YYYY', 'DD.MM.YY', 'YY/MM/DD'] as const;
 export const TIME_FORMATS = ['HH:mm', 'HH:mm:ss', 'hh:mm a', 'hh:mm:ss a'] as const;
 
-function compiles(source: string): string | null {
-  try {
-    new RegExp(source, 'u');
-    return null;
-  } catch (error) {
-    return error instanceof Error ? error.message : 'not a valid pattern';
-  }
-}
+const namedGroups = namedGroupsOf;
 
-const namedGroups = (source: string) => [...source.matchAll(/\(\?<([A-Za-z_$][\w$]*)>/g)].map((m) => m[1]);
-
-/** A regular expression (JavaScript syntax, Unicode mode) tested against one line without its line ending. */
+/**
+ * A regular expression tested against one line without its line ending. It runs in a linear-time
+ * engine (lib/validation/pattern.ts, RE2 syntax), so backreferences and lookaround are refused here.
+ */
 const pattern = z
   .string()
   .min(1, 'Enter a pattern.')
   .max(500)
   .superRefine((source, ctx) => {
-    const problem = compiles(source);
-    if (problem) ctx.addIssue({ code: 'custom', message: `Not a valid pattern: ${problem}` });
+    const compiled = compileLinePattern(source);
+    if (!compiled.ok) ctx.addIssue({ code: 'custom', message: `Not a valid pattern: ${compiled.reason}` });
   });
 
 export const profileFieldSchema = z

@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { compileLinePattern } from './pattern';
 import { species } from '@/db/schema';
 
 // Request shapes for lab quality: kit lots, the room-temperature log, control materials, QC readings,
@@ -92,14 +93,10 @@ export const qualitySettingsSchema = z.object({
     .string()
     .trim()
     .max(200)
-    .refine((p) => {
-      try {
-        new RegExp(p, 'i');
-        return true;
-      } catch {
-        return false;
-      }
-    }, 'Not a valid regular expression.')
+    .superRefine((p, ctx) => {
+      const compiled = compileLinePattern(p, { ignoreCase: true });
+      if (!compiled.ok) ctx.addIssue({ code: 'custom', message: `Not a valid regular expression: ${compiled.reason}` });
+    })
     .default('^QC'),
   /** Minutes without a heartbeat after which a bridge is shown offline. */
   bridgeOfflineMinutes: z.number().int().min(1).max(1440).default(3),

@@ -76,6 +76,34 @@ describe('printout profiles', () => {
     expect(second.error.issues.find((i: { path: string }) => i.path === 'definition.fields.0.pattern').message).toMatch(/Unknown capture name "reading"/);
   });
 
+  it('refuses at save a pattern the linear-time engine cannot run (backreference, lookahead), naming the field and why', async () => {
+    // RE2 syntax (the engine profiles run in) has no backreferences and no lookaround.
+    for (const [pattern, why] of [
+      ['^(?<value>\\d)\\1', /backreference/],
+      ['^(?<value>\\d+)(?= mmol)', /lookahead and lookbehind/],
+    ] as const) {
+      const bad = { ...definition, fields: [definition.fields[0], { label: 'Result', pattern, repeats: true }] };
+      const response = await createProfile(request('/api/admin/profiles', { cookie: admin, body: { name: 'Refused', definition: bad } }), undefined);
+      expect(response.status).toBe(400);
+      const issue = (await body(response)).error.issues.find((i: { path: string }) => i.path === 'definition.fields.1.pattern');
+      expect(issue.message).toMatch(why);
+    }
+  });
+
+  it('previews a catastrophic-backtracking pattern on a long line and answers correctly', async () => {
+    // ^(a+)+$ on a line of a's ending in another character is exponential for a backtracking engine
+    // (OWASP, "Regular expression Denial of Service"); it is accepted and runs in linear time here.
+    const risky = { ...definition, fields: [...definition.fields, { label: 'Filler', pattern: '^(a+)+$' }] };
+    // Inside the record, so the pattern is tried on it; just under the bridge's 4,096-byte line limit.
+    const sample = SLIP.replace('*** END ***', `${'a'.repeat(4_000)}!\r\n*** END ***`);
+    const response = await preview(request('/api/admin/profiles/preview', { cookie: admin, body: { definition: risky, sample } }), undefined);
+    expect(response.status).toBe(200);
+    const { items } = await body(response);
+    // The filler line matches nothing (it ends in "!"), so the slip reads as without it.
+    const readings = items.filter((i: { kind: string }) => i.kind === 'reading');
+    expect(readings.map((i: { reading: { analyte: string } }) => i.reading.analyte)).toEqual(['Na', 'K', 'Cl']);
+  });
+
   it('saves versions, keeps every one, and hands the latest to the bridge that reads the instrument', async () => {
     const created = await createProfile(request('/api/admin/profiles', { cookie: admin, body: { name: 'Electrolytes', definition } }), undefined);
     expect(created.status).toBe(201);
