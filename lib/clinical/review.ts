@@ -9,6 +9,7 @@ import { publish } from '@/lib/live/bus';
 import { analyteContexts, intervalContexts } from './config';
 import { evaluateResult } from './evaluate';
 import { lockReading } from '@/lib/readings/placement';
+import { qualityMarksFor } from '@/lib/quality/marks';
 
 const mustReview = (actor: Actor) => {
   requirePermission(actor, 'reviewResults', 'Only veterinarians review results.');
@@ -124,6 +125,8 @@ export async function unreviewedResults(actor: Actor, mine: boolean) {
       instrumentName: instruments.name,
       measuredAt: readings.measuredAt,
       receivedAt: readings.receivedAt,
+      qualityMarks: readings.qualityMarks,
+      kitLotId: readings.kitLotId,
       assignedAt: resultAssignments.assignedAt,
       patientId: patients.id,
       patientName: patients.name,
@@ -150,7 +153,12 @@ export async function unreviewedResults(actor: Actor, mine: boolean) {
     .orderBy(desc(resultAssignments.assignedAt))
     .limit(200);
   const codes = [...new Set(rows.map((r) => r.analyte))];
-  const [analytes, intervals] = await Promise.all([analyteContexts(database, actor.clinicId, codes), intervalContexts(database, actor.clinicId, codes)]);
+  const [analytes, intervals, quality] = await Promise.all([
+    analyteContexts(database, actor.clinicId, codes),
+    intervalContexts(database, actor.clinicId, codes),
+    // The same marks, in the same words, as the chart: a result is signed off knowing its QC, kit and room.
+    qualityMarksFor(database, actor.clinicId, rows),
+  ]);
   return rows.map((r) => {
     const e = evaluateResult(r, { name: r.patientName, species: r.patientSpecies }, analytes.get(r.analyte), intervals);
     return {
@@ -162,6 +170,7 @@ export async function unreviewedResults(actor: Actor, mine: boolean) {
       qualitative: e.qualitative,
       intervalOrigin: e.interval?.origin ?? null,
       decimals: analytes.get(r.analyte)?.decimals ?? 1,
+      quality: quality.get(r.id) ?? [],
     };
   });
 }

@@ -20,6 +20,7 @@ import { POST as verificationRoute } from '@/app/api/quality/verifications/route
 import { POST as assignRoute } from '@/app/api/readings/[readingId]/assign/route';
 import { POST as markControlRoute } from '@/app/api/readings/[readingId]/control/route';
 import { GET as readingsRoute } from '@/app/api/readings/route';
+import { GET as unreviewedRoute } from '@/app/api/reviews/unreviewed/route';
 import type { Database } from '@/db/client';
 import { readings, referenceIntervals, roomTemperatureLogs } from '@/db/schema';
 import { localDay } from '@/lib/quality/kits';
@@ -197,13 +198,19 @@ describe('room temperature', () => {
       (await body(await chartRoute(request(`/api/patients/${patient.id}/results`, { cookie: vet }), params({ patientId: patient.id })))).results.find(
         (x: { id: string }) => x.id === r.id,
       );
+    // The Review list shows the chart's marks word for word (one server helper), so a result is not signed off blind.
+    const review = async () =>
+      (await body(await unreviewedRoute(request('/api/reviews/unreviewed?mine=0', { cookie: vet }), undefined))).results.find((x: { id: string }) => x.id === r.id);
     const before = await chart();
     expect(before.quality.map((m: { code: string }) => m.code)).toEqual(['kit-expired', 'room-temperature']);
+    expect((await review()).quality).toEqual(before.quality);
     const hot = await temperatureRoute(request('/api/quality/temperatures', { cookie: tech, body: { day, temperatureC: 27.5 } }), undefined);
     expect(hot.status).toBe(201);
     expect((await chart()).quality.find((m: { code: string }) => m.code === 'room-temperature').detail).toMatch(/above the instrument's 25 °C/);
+    expect((await review()).quality).toEqual((await chart()).quality);
     await temperatureRoute(request('/api/quality/temperatures', { cookie: tech, body: { day, temperatureC: 21 } }), undefined);
     expect((await chart()).quality.map((m: { code: string }) => m.code)).toEqual(['kit-expired']);
+    expect((await review()).quality.map((m: { label: string }) => m.label)).toEqual(['Expired kit lot']);
   });
 });
 

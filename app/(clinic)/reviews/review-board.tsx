@@ -2,6 +2,7 @@
 import Link from 'next/link';
 import { useState } from 'react';
 import useSWR from 'swr';
+import { QualityMarks, type QualityMarkView } from '@/app/components/quality-marks';
 import { Notice, buttonClass, inputClass } from '@/app/components/ui';
 import type { StaffRole } from '@/db/schema';
 import { fetcher, send } from '@/lib/client/fetcher';
@@ -43,6 +44,8 @@ interface UnreviewedRow {
   patientName: string;
   patientRecordNumber: string;
   attendingVetName: string | null;
+  /** QC failed, expired kit lot, room temperature: the chart's marks, from the same server helper. */
+  quality: QualityMarkView[];
 }
 
 export function ReviewBoard({ role }: { role: StaffRole }) {
@@ -220,6 +223,7 @@ export function ReviewBoard({ role }: { role: StaffRole }) {
                     <td className="px-4 py-2 text-xs" title={[r.flag?.text, r.analyzerFlag?.text, r.qualitative?.basis].filter(Boolean).join(' · ')} data-testid="review-flag">
                       {r.flag ? `${FLAG_CODE[r.flag.flag]}${r.flag.certain ? '' : '?'}` : r.qualitative ? (r.qualitative.abnormal === null ? 'not interpreted' : r.qualitative.abnormal ? 'Abnormal' : 'Normal') : r.analyzerFlag ? '' : '—'}
                       {r.analyzerFlag && <span className="ml-1 text-alarm-700">analyzer: {r.analyzerFlag.codes.join(', ')}</span>}
+                      <QualityMarks marks={r.quality} />
                     </td>
                     <td className="whitespace-nowrap px-4 py-2">{formatDateTime(r.measuredAt ?? r.receivedAt)}</td>
                     <td className="px-4 py-2">{r.attendingVetName ?? '—'}</td>
