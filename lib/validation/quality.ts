@@ -99,9 +99,19 @@ export const qualitySettingsSchema = z.object({
     })
     .default('^QC'),
   /** Minutes without a heartbeat after which a bridge is shown offline. */
-  bridgeOfflineMinutes: z.number().int().min(1).max(1440).default(3),
+  bridgeOfflineMinutes: z
+    .number({ error: 'Give the minutes as a number.' })
+    .int('Whole minutes only.')
+    .min(1, 'At least 1 minute.')
+    .max(1440, 'At most 1440 minutes (a day).')
+    .default(3),
   /** Days before expiry a kit lot is warned about. */
-  kitWarnDays: z.number().int().min(0).max(365).default(30),
+  kitWarnDays: z
+    .number({ error: 'Give the days as a number.' })
+    .int('Whole days only.')
+    .min(0, 'At least 0 days.')
+    .max(365, 'At most 365 days.')
+    .default(30),
 });
 export type QualitySettings = z.infer<typeof qualitySettingsSchema>;
 export const qualitySettingsUpdateSchema = qualitySettingsSchema.partial();

@@ -11,6 +11,7 @@ import { MatchingReportPanel } from './matching-report-panel';
 import { InvitePanel } from './invite-panel';
 import { IntegrationsPanel } from './integrations-panel';
 import { PatientImportPanel } from './patient-import-panel';
+import { QualitySettingsPanel } from './quality-settings-panel';
 import { StaffPanel } from './staff-panel';
 import { UnitsPanel } from './units-panel';
 
@@ -36,6 +37,7 @@ export default async function AdminPage() {
         <BridgesPanel />
         <InstrumentsPanel />
         <InstrumentHealthPanel />
+        <QualitySettingsPanel />
         <UnitsPanel />
         <ClinicalPanel />
         <MatchingReportPanel />
