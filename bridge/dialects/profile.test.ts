@@ -189,3 +189,66 @@ describe('patterns run in a linear-time engine', () => {
     expect(loadProfile({ ...catastrophic, record: { start: 'x(?=y)' } })).toEqual({ ok: false, message: expect.stringMatching(/^record\.start: .*lookahead/) });
   });
 });
+
+// A single-test reader that prints no sample ID: a QC slip says so only in a line of its own. Invented
+// slips; that QC must never land on a patient is common practice, no source.
+describe('a control line marks a slip as a control run', () => {
+  const reader = profileDefinitionSchema.parse({
+    analyzer: 'Invented single-test CRP reader',
+    record: { formFeed: true },
+    fields: [
+      { label: 'Result', pattern: '^CRP\\s+(?<value>[<>]?[\\d.]+)\\s+(?<unit>\\S+)', required: true },
+      { label: 'Time', pattern: '^(?<date>\\d{4}-\\d\\d-\\d\\d) (?<time>\\d\\d:\\d\\d)$' },
+    ],
+    analyte: 'cCRP',
+    control: { pattern: '^QC\\s+LEVEL\\s+(?<level>\\S+)' },
+  });
+  const patientSlip = 'CRP  12.4 mg/L\n2026-12-01 09:15\n\f';
+  const qcSlip = 'QC LEVEL 2\nCRP  61.0 mg/L\n2026-12-01 09:20\n\f';
+  const unlevelledQc = 'QC LEVEL\nCONTROL RUN\nCRP  11.8 mg/L\n2026-12-01 09:25\n\f';
+  const capture = patientSlip + qcSlip + unlevelledQc;
+
+  it('gives every result of a slip with the line the control role and the printed level; others stay patient slips', () => {
+    const preview = previewProfile(reader, capture);
+    expect(preview.outputs).toEqual([
+      expect.objectContaining({ kind: 'reading', value: 12.4, sampleId: null }),
+      expect.objectContaining({ kind: 'reading', value: 61, specimenRole: 'control', controlLevel: '2', raw: qcSlip }),
+      expect.objectContaining({ kind: 'reading', value: 11.8 }),
+    ]);
+    expect(preview.outputs[0]).not.toHaveProperty('specimenRole');
+    // "QC LEVEL" without a level does not match the pattern (\s+ then \S+ need a level): not a control slip.
+    expect(preview.outputs[2]).not.toHaveProperty('specimenRole');
+    expect(preview.records.map((r) => r.control)).toEqual([null, { level: '2' }, null]);
+    expect(preview.records[1].lines.map((l) => l.fields)).toEqual([['Control run'], ['Result'], ['Time'], []]);
+  });
+
+  it('a level is optional: a plain "control" line marks the slip without one', () => {
+    const plain = profileDefinitionSchema.parse({ ...reader, control: { pattern: '^CONTROL RUN$' } });
+    const [, , third] = previewProfile(plain, capture).outputs;
+    expect(third).toMatchObject({ specimenRole: 'control', value: 11.8 });
+    expect(third).not.toHaveProperty('controlLevel');
+  });
+
+  it('the bridge on a byte stream gives what the server preview gives, for any split of the bytes', async () => {
+    const parse = (chunks: ReadonlyArray<Buffer | string>) => runThrough<ParserOutput>(chunks, createParsingStages(profileDialect(reader), { idle: false }));
+    const bytes = Buffer.from(capture);
+    const whole = await parse([bytes]);
+    expect(whole).toEqual(previewProfile(reader, capture).outputs);
+    await fc.assert(
+      fc.asyncProperty(fc.array(fc.nat({ max: bytes.length }), { maxLength: 8 }), async (cuts) => {
+        expect(await parse(splitAt(bytes, cuts))).toEqual(whole);
+      }),
+      { numRuns: 50 },
+    );
+  });
+
+  it('a control slip that cannot be read says it is a control slip, so nobody types it in for a patient', () => {
+    const [out] = previewProfile(reader, 'QC LEVEL 1\nCRP  ?? mg/L\n\f').outputs;
+    expect(out).toEqual({ kind: 'unparsed', raw: 'QC LEVEL 1\nCRP  ?? mg/L\n\f', reason: 'control slip: no line matches "Result"' });
+  });
+
+  it('refuses a control pattern that captures anything but level, or uses lookaround, naming the field', () => {
+    expect(loadProfile({ ...reader, control: { pattern: '^QC (?<sampleId>\\S+)' } })).toEqual({ ok: false, message: 'control.pattern: A control line may capture only (?<level>…), not "sampleId".' });
+    expect(loadProfile({ ...reader, control: { pattern: '^(?=QC)' } })).toEqual({ ok: false, message: expect.stringMatching(/^control\.pattern: Not a valid pattern: lookahead and lookbehind/) });
+  });
+});

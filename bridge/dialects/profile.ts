@@ -41,6 +41,8 @@ interface CompiledField {
 interface CompiledProfile {
   definition: ProfileDefinition;
   fields: CompiledField[];
+  /** The line that marks a slip as a control run, if the profile has one. */
+  control: LinePattern | null;
   capturesTime: boolean;
   date: RegExp;
   time: RegExp;
@@ -50,6 +52,7 @@ function compile(definition: ProfileDefinition): CompiledProfile {
   return {
     definition,
     fields: definition.fields.map((f) => ({ label: f.label, pattern: linePattern(f.pattern), required: f.required, repeats: f.repeats })),
+    control: definition.control ? linePattern(definition.control.pattern) : null,
     capturesTime: definition.fields.some((f) => namedGroupsOf(f.pattern).includes('time')),
     date: formatPattern(definition.dateFormat),
     time: formatPattern(definition.timeFormat),
@@ -80,11 +83,33 @@ export interface PreviewLine {
   captures: Captures;
 }
 
+/** A slip marked as a control run by the profile's control line, with the level it printed. */
+export interface ControlMark {
+  level: string | null;
+}
+
+/** The label the preview gives the line that marked a slip as a control run. */
+export const CONTROL_LINE_LABEL = 'Control run';
+
 export interface RecordReading {
   outputs: ParserOutput[];
   lines: PreviewLine[];
   /** The record's own captures (from lines that do not repeat), first match of each name. */
   fields: Captures;
+  /** Set when a line matched the profile's control pattern: every result of the slip is QC. */
+  control: ControlMark | null;
+}
+
+/** The first line matching the profile's control pattern marks the whole slip; its level, if captured. */
+function findControl(profile: CompiledProfile, lines: PreviewLine[]): ControlMark | null {
+  if (!profile.control) return null;
+  for (const line of lines) {
+    const groups = profile.control.exec(line.text);
+    if (!groups) continue;
+    line.fields.push(CONTROL_LINE_LABEL);
+    return { level: groups.level?.trim() || null };
+  }
+  return null;
 }
 
 /** Reads one record by the profile: one reading, or one per repeating line, or a fragment saying why not. */
@@ -109,14 +134,16 @@ function readRecord(profile: CompiledProfile, record: RecordFrame): RecordReadin
       else for (const [name, value] of Object.entries(captures) as [ProfileCapture, string][]) fields[name] ??= value;
     }
   });
-  const fail = (reason: string): RecordReading => ({ outputs: [fragment(record.raw, reason)], lines, fields });
+  const control = findControl(profile, lines);
+  // A control slip that cannot be read says so, so the person typing it in knows it is QC, not a patient's.
+  const fail = (reason: string): RecordReading => ({ outputs: [fragment(record.raw, control ? `control slip: ${reason}` : reason)], lines, fields, control });
   if (overlong) return fail('a line of the printout is too long and was cut');
   const missing = profile.fields.find((field) => field.required && !matched.has(field.label));
   if (missing) return fail(`no line matches "${missing.label}"`);
   const repeating = profile.fields.some((field) => field.repeats);
   if (repeating && results.length === 0) return fail('no result line matches');
-  const outputs = (repeating ? results : [{}]).map((own) => readResult(profile, { ...fields, ...own }, record.raw));
-  return { outputs, lines, fields };
+  const outputs = (repeating ? results : [{}]).map((own) => readResult(profile, { ...fields, ...own }, record.raw, control));
+  return { outputs, lines, fields, control };
 }
 
 function cleanCaptures(groups: Record<string, string | undefined> | undefined): Captures {
@@ -128,10 +155,10 @@ function cleanCaptures(groups: Record<string, string | undefined> | undefined): 
   return out;
 }
 
-function readResult(profile: CompiledProfile, captures: Captures, raw: string): ParserOutput {
+function readResult(profile: CompiledProfile, captures: Captures, raw: string, control: ControlMark | null): ParserOutput {
   const d = profile.definition;
   const analyte = captures.analyte ?? d.analyte;
-  const fail = (reason: string) => fragment(raw, analyte ? `${analyte}: ${reason}` : reason);
+  const fail = (reason: string) => fragment(raw, `${control ? 'control slip: ' : ''}${analyte ? `${analyte}: ${reason}` : reason}`);
   if (!analyte) return fail('no test named (capture analyte, or name it in the profile)');
   if (captures.value === undefined) return fail('no value printed');
   const number = (d.decimalComma ? /^([<>])?\s*([+-]?\d+(?:,\d+)?)$/ : /^([<>])?\s*([+-]?\d+(?:\.\d+)?)$/).exec(captures.value);
@@ -157,6 +184,7 @@ function readResult(profile: CompiledProfile, captures: Captures, raw: string): 
     instrumentSerial: captures.instrumentSerial ?? null,
     referenceRange: null,
     resultStatus: null,
+    ...(control ? { specimenRole: 'control' as const, ...(control.level ? { controlLevel: control.level } : {}) } : {}),
     raw,
   };
   return reading;
@@ -235,7 +263,7 @@ export interface ProfilePreview {
   /** Everything the bridge would send, in order: readings and unparsed fragments. */
   outputs: ParserOutput[];
   /** Each framed record with how its lines matched and what it gave. */
-  records: { raw: string; lines: PreviewLine[]; fields: Captures; outputs: ParserOutput[] }[];
+  records: { raw: string; lines: PreviewLine[]; fields: Captures; control: ControlMark | null; outputs: ParserOutput[] }[];
   /** The unparsed fragments among outputs (text outside records, records cut short or not read). */
   unparsed: UnparsedFragment[];
 }
@@ -261,7 +289,7 @@ export function previewProfile(definition: ProfileDefinition, text: string): Pro
     preview.unparsed.push(...outputs.filter((o): o is UnparsedFragment => o.kind === 'unparsed'));
     if (frame.kind === 'record') {
       const detail = readRecord(profile, frame);
-      preview.records.push({ raw: frame.raw, lines: detail.lines, fields: detail.fields, outputs });
+      preview.records.push({ raw: frame.raw, lines: detail.lines, fields: detail.fields, control: detail.control, outputs });
     }
   }
   return preview;

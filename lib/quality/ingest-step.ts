@@ -10,8 +10,9 @@ import { qcStatusFor } from './qc';
 import { clinicClock, loadedLot, matchControlMaterial } from './store';
 
 // The lab-quality step of ingest, run on each newly stored reading before anything may place it:
-//  1. QC recognition: the analyzer marked the specimen as a control, or the sample ID matches the clinic's
-//     QC pattern → status 'control' (never Intake, never a patient) with its control material when known.
+//  1. QC recognition: the analyzer marked the specimen as a control (ASTM, HL7, or a printout profile's
+//     control line), or the sample ID matches the clinic's QC pattern → status 'control' (never Intake,
+//     never a patient) with its control material when known (by sample ID, else by the printed level).
 //  2. The kit lot loaded in the instrument for the analyte is recorded (the run used one of its tests);
 //     a lot past its expiry date on the day of the run marks the reading 'kit-expired'.
 //  3. A patient reading of an analyte whose latest QC run on that instrument was rejected is marked 'qc-failed'.
@@ -28,7 +29,7 @@ export function isQcSampleId(sampleId: string | null, pattern: string): boolean 
 export async function applyQualityOnIngest(
   tx: Tx,
   row: Reading,
-  payload: { specimenRole?: 'patient' | 'control' },
+  payload: { specimenRole?: 'patient' | 'control'; controlLevel?: string },
 ): Promise<Reading> {
   const { timeZone, settings } = await clinicClock(tx, row.clinicId);
   const control = payload.specimenRole === 'control' || isQcSampleId(row.sampleId, settings.qcSampleIdPattern);
@@ -36,7 +37,8 @@ export async function applyQualityOnIngest(
   const day = localDay(row.measuredAt ?? row.receivedAt, timeZone);
   const marks: QualityMark[] = [];
   if (lot && isExpiredOn(lot.expiresOn, day)) marks.push('kit-expired');
-  const material = control ? await matchControlMaterial(tx, row.clinicId, row) : null;
+  const level = control ? (payload.controlLevel ?? null) : null;
+  const material = control ? await matchControlMaterial(tx, row.clinicId, { ...row, level }) : null;
   if (!control && (await qcStatusFor(tx, row.clinicId, row.analyte, row.instrumentId)) === 'rejected') marks.push('qc-failed');
   if (!control && !lot && marks.length === 0) return row;
   const [updated] = await tx
@@ -55,7 +57,11 @@ export async function applyQualityOnIngest(
       action: 'reading.marked-control',
       entityType: 'reading',
       entityId: row.id,
-      details: { how: payload.specimenRole === 'control' ? 'analyzer' : 'sample-id pattern', controlMaterialId: material?.id ?? null },
+      details: {
+        how: payload.specimenRole === 'control' ? 'analyzer' : 'sample-id pattern',
+        controlMaterialId: material?.id ?? null,
+        ...(level ? { level } : {}),
+      },
     });
   }
   if (control || marks.length) await publish(tx, { type: 'quality.updated', clinicId: row.clinicId, id: row.id });

@@ -265,7 +265,16 @@ export async function establishControlTarget(actor: Actor, materialId: string) {
 }
 
 /** The material a QC reading measured: by its sample ID, else the only active material for the test there. */
-export async function matchControlMaterial(tx: Executor, clinicId: string, reading: { analyte: string; instrumentId: string | null; sampleId: string | null }) {
+/**
+ * The control material a QC reading was run on: the one with its sample ID, else the one of the level the
+ * slip printed (a printout profile's control line), else the only one without a sample ID. Never a guess
+ * between two: an unmatched QC reading waits on the QC page for a person to name its material.
+ */
+export async function matchControlMaterial(
+  tx: Executor,
+  clinicId: string,
+  reading: { analyte: string; instrumentId: string | null; sampleId: string | null; level?: string | null },
+) {
   const candidates = await tx
     .select()
     .from(controlMaterials)
@@ -274,6 +283,11 @@ export async function matchControlMaterial(tx: Executor, clinicId: string, readi
   const sample = reading.sampleId?.trim().toLowerCase();
   const bySample = sample ? here.filter((m) => m.sampleId?.trim().toLowerCase() === sample) : [];
   if (bySample.length === 1) return bySample[0];
+  const level = reading.level?.trim().toLowerCase();
+  if (level) {
+    const byLevel = here.filter((m) => m.level.trim().toLowerCase() === level);
+    return byLevel.length === 1 ? byLevel[0] : null;
+  }
   return here.length === 1 && !here[0].sampleId ? here[0] : null;
 }
 

@@ -62,6 +62,29 @@ export const profileFieldSchema = z
     }
   });
 
+/** The one name a control line may capture: the control level as printed ("2", "HIGH"). */
+export const CONTROL_CAPTURES = ['level'] as const;
+
+/**
+ * How a slip says it is a control run, for readers that print no sample ID: a line such as
+ * "QC LEVEL 2". Every result of a slip with such a line is QC (status control, never a patient result);
+ * (?<level>…) picks the clinic's control material of that level.
+ */
+export const profileControlSchema = z
+  .object({
+    pattern,
+  })
+  .superRefine((control, ctx) => {
+    const unknown = namedGroups(control.pattern).filter((g) => !(CONTROL_CAPTURES as readonly string[]).includes(g));
+    if (unknown.length) {
+      ctx.addIssue({
+        code: 'custom',
+        path: ['pattern'],
+        message: `A control line may capture only (?<level>…), not ${unknown.map((u) => `"${u}"`).join(', ')}.`,
+      });
+    }
+  });
+
 export const profileDefinitionSchema = z
   .object({
     /** Which analyzer prints this (free text for people). */
@@ -81,6 +104,8 @@ export const profileDefinitionSchema = z
         message: 'Say how a record is told apart: a start pattern, an end pattern, a form feed or an idle gap.',
       }),
     fields: z.array(profileFieldSchema).min(1, 'Add at least one line to read.').max(40),
+    /** The line that marks a slip as a control run (optional). */
+    control: profileControlSchema.optional(),
     /** The test, when the printout does not name it (single-test readers). */
     analyte: text(64, { min: 1 }).optional(),
     /** The unit, when the printout does not print it. */

@@ -42,8 +42,10 @@ export const parsedReadingSchema = z.object({
   referenceRange: z.string().trim().max(64).nullable().default(null),
   /** The instrument's own result status (ASTM R.9, HL7 OBX-11); null when it sends none. */
   resultStatus: z.enum(RESULT_STATUSES).nullable().default(null),
-  /** 'control' when the analyzer marks the specimen as QC (ASTM O.12 action code Q, HL7 SPM-11 role Q). */
+  /** 'control' when the analyzer marks the specimen as QC (ASTM O.12 action code Q, HL7 SPM-11 role Q, a printout profile's control line). */
   specimenRole: z.enum(['patient', 'control']).optional(),
+  /** The control level as printed (a printout profile's control line), to pick the control material by. */
+  controlLevel: z.string().trim().min(1).max(32).optional(),
   raw: z.string().max(65536),
 }).refine((r) => [r.value !== null, r.code !== null, r.text !== null].filter(Boolean).length <= 1, {
   path: ['value'],

@@ -20,6 +20,8 @@ export type PreviewItem =
       raw: string;
       fields: Record<string, string>;
       reading: { analyte: string; value: number | null; comparator: '<' | '>' | null; unit: string | null; sampleId: string | null; measuredAt: string | null; flags: string[] };
+      /** Set when the slip's control line matched: the result goes to QC, never to a patient. */
+      control: { level: string | null } | null;
     }
   | { kind: 'unparsed'; raw: string; reason: string };
 
@@ -37,6 +39,10 @@ const TEMPLATE: ProfileDefinitionInput = {
 
 const blankToUndefined = (v: unknown) => (v === '' || v === null ? undefined : v);
 const numberOrUndefined = (v: unknown) => (v === '' || v === null || v === undefined ? undefined : Number(v));
+/** An empty control-line box means the profile has no control line (not a control line with no pattern). */
+function withoutBlankControl<T extends { control?: { pattern?: string } }>(definition: T): T {
+  return definition.control?.pattern ? definition : { ...definition, control: undefined };
+}
 
 
 /** The editor: the profile as a form on the left, the captured printout and what the profile makes of it on the right. */
@@ -46,14 +52,14 @@ export function ProfileEditor({ profileKey, initial, version }: { profileKey?: s
   const [saved, setSaved] = useState<string | null>(null);
   const [failure, setFailure] = useState<string | null>(null);
   const form = useForm<FormValues>({
-    resolver: zodResolver(saveProfileSchema),
+    resolver: (values, context, options) => zodResolver(saveProfileSchema)({ ...values, definition: withoutBlankControl(values.definition) }, context, options),
     defaultValues: initial ?? { name: '', definition: TEMPLATE },
   });
   const { register, handleSubmit, control, formState } = form;
   const errors = formState.errors;
   const lines = useFieldArray({ control, name: 'definition.fields' });
   const definition = useWatch({ control, name: 'definition' });
-  const request = useDebounced(JSON.stringify({ definition, sample }), 400);
+  const request = useDebounced(JSON.stringify({ definition: definition && withoutBlankControl(definition), sample }), 400);
 
   // The server runs the bridge's own profile engine on the sample, so the preview is what the bridge will do.
   const previewed = useSWR<{ items: PreviewItem[] }, Error>(
@@ -74,7 +80,7 @@ export function ProfileEditor({ profileKey, initial, version }: { profileKey?: s
     setFailure(null);
     try {
       const url = profileKey ? `/api/admin/profiles/${profileKey}/versions` : '/api/admin/profiles';
-      const result = await send<{ profile: { key: string; version: number } }>(url, 'POST', values);
+      const result = await send<{ profile: { key: string; version: number } }>(url, 'POST', { ...values, definition: withoutBlankControl(values.definition) });
       setSaved(`Saved as version ${result.profile.version}. Bridges reading with it pick it up on their next check.`);
       if (!profileKey) router.replace(`/admin/profiles/${result.profile.key}`);
       router.refresh();
@@ -163,6 +169,18 @@ export function ProfileEditor({ profileKey, initial, version }: { profileKey?: s
           </button>
         </fieldset>
 
+        <fieldset className="space-y-2">
+          <legend className="text-sm font-semibold text-ink-900">Control runs</legend>
+          <Field
+            id="p-control"
+            label="Line that marks a control run (optional)"
+            hint="For readers that print no sample ID on a QC slip, e.g. ^QC\s+LEVEL\s+(?<level>\S+). Every result of a slip with this line goes to QC, never to a patient; (?<level>…) picks the control material of that level."
+            error={err('definition.control.pattern') ?? err('definition.control')}
+          >
+            <input id="p-control" className={`${inputClass} font-mono`} spellCheck={false} {...register('definition.control.pattern', { setValueAs: blankToUndefined })} />
+          </Field>
+        </fieldset>
+
         <fieldset className="grid gap-3 sm:grid-cols-2">
           <legend className="mb-2 text-sm font-semibold text-ink-900">Values, units and times</legend>
           <Field id="p-analyte" label="Test (when not printed)" error={err('definition.analyte')}>
@@ -244,6 +262,11 @@ function Preview({ preview }: { preview: { items: PreviewItem[] } | { problem: s
             <p className="font-semibold">
               {item.reading.analyte} <span className="font-mono">{formatValue(item.reading)}</span>
             </p>
+            {item.control && (
+              <p className="mt-1 text-xs font-semibold text-signal-600" data-testid="preview-control">
+                Control run{item.control.level ? `, level ${item.control.level}` : ''}: goes to QC, never to a patient
+              </p>
+            )}
             <dl className="mt-1 grid grid-cols-[auto_1fr] gap-x-3 text-xs">
               {Object.entries(item.fields).map(([name, value]) => (
                 <div key={name} className="contents">

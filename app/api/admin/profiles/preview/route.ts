@@ -28,6 +28,7 @@ export const POST = apiRoute(async (request) => {
             measuredAt: output.measuredAt,
             flags: output.flags,
           },
+          control: output.specimenRole === 'control' ? { level: output.controlLevel ?? null } : null,
         },
   );
   return json({ items });
