@@ -3,14 +3,14 @@ import { and, asc, desc, eq, isNull } from 'drizzle-orm';
 import { db } from '@/db/client';
 import { controlMaterials, instruments, qualityGoals, readings, referenceIntervals } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
-import { evaluateGroups, qcReadings, sigmaFor } from './qc';
+import { evaluateGroups, qcReadingsWithUnits, sigmaFor } from './qc';
 import { clinicClock, kitLotsWithStock } from './store';
 import { zScore } from './westgard';
 
 /** Everything the QC page shows: controls with their Levey-Jennings points and rule results, sigma, goals. */
 export async function qcOverview(actor: Actor) {
   const database = await db();
-  const [materials, instrumentRows, goals, rows, unmatched, intervals, clock, lots] = await Promise.all([
+  const [materials, instrumentRows, goals, qc, unmatched, intervals, clock, lots] = await Promise.all([
     database
       .select({ material: controlMaterials, instrumentName: instruments.name })
       .from(controlMaterials)
@@ -23,7 +23,7 @@ export async function qcOverview(actor: Actor) {
       .where(and(eq(instruments.clinicId, actor.clinicId), eq(instruments.active, true)))
       .orderBy(asc(instruments.name)),
     database.select().from(qualityGoals).where(eq(qualityGoals.clinicId, actor.clinicId)).orderBy(asc(qualityGoals.analyte)),
-    qcReadings(database, actor.clinicId),
+    qcReadingsWithUnits(database, actor.clinicId),
     database
       .select({ id: readings.id, analyte: readings.analyte, value: readings.value, unit: readings.unit, sampleId: readings.sampleId, receivedAt: readings.receivedAt, instrumentCode: readings.instrumentCode })
       .from(readings)
@@ -38,7 +38,9 @@ export async function qcOverview(actor: Actor) {
     clinicClock(database, actor.clinicId),
     kitLotsWithStock(database, actor.clinicId),
   ]);
+  const rows = qc.comparable;
   const groups = evaluateGroups(rows);
+  const sentOf = new Map(rows.map((r) => [r.id, r.sent]));
   const sigma = await sigmaFor(database, actor.clinicId, groups, materials.map((m) => m.material.id));
   const instrumentName = new Map(instrumentRows.map((i) => [i.id, i.name]));
 
@@ -52,6 +54,8 @@ export async function qcOverview(actor: Actor) {
             runId: o.runId,
             at: new Date(o.at).toISOString(),
             value: o.value,
+            /** As the instrument sent it, when that was another unit (value is in the control's unit). */
+            sent: sentOf.get(o.id) ?? null,
             z: zScore(o),
             status: e.status,
             rules: e.violations.filter((v) => v.observationIds.includes(o.id)).map((v) => v.rule),
@@ -83,6 +87,8 @@ export async function qcOverview(actor: Actor) {
     sigma,
     goals,
     unmatched,
+    /** QC readings left out of every rule because their unit does not convert to the control's. */
+    unitProblems: qc.problems.slice(-50).reverse(),
     intervals,
     kitLots: lots,
     settings: clock.settings,

@@ -2,6 +2,7 @@ import 'server-only';
 import { and, asc, eq, inArray, isNull, sql } from 'drizzle-orm';
 import type { Executor } from '@/db/client';
 import { controlMaterials, qualityGoals, readings } from '@/db/schema';
+import { convert } from '@/lib/clinical/units';
 import { biasPercent, sigmaBand, sigmaMetric, summarize } from './statistics';
 import { currentStatus, evaluateHistory, groupIntoRuns, type QcObservation, type RunEvaluation, type RunStatus } from './westgard';
 
@@ -12,16 +13,67 @@ export interface QcReadingRow {
   id: string;
   analyte: string;
   instrumentId: string | null;
+  /** In the control material's unit (converted from the unit the reading arrived in). */
   value: number | null;
   at: Date;
   materialId: string;
   level: string;
   mean: number;
   sd: number;
+  /** The value and unit as the instrument sent them, when they differ from the control's unit. */
+  sent: { value: number; unit: string } | null;
 }
 
-/** QC readings that name a material and have a number, oldest first. */
-export async function qcReadings(tx: Executor, clinicId: string, filter: { analyte?: string; instrumentId?: string | null } = {}) {
+/** A QC reading that cannot be compared with its control's target: its unit does not convert to the control's. */
+export interface QcUnitProblem {
+  id: string;
+  analyte: string;
+  instrumentId: string | null;
+  materialId: string;
+  at: Date;
+  value: number;
+  unit: string | null;
+  controlUnit: string;
+  message: string;
+}
+
+interface StoredQcRow extends Omit<QcReadingRow, 'sent'> {
+  unit: string | null;
+  controlUnit: string;
+}
+
+/**
+ * Puts each QC value in its control's unit before any rule sees it: a target of 1.2 mg/dL and a reading of
+ * 12 mg/L are the same value (UCUM, via lib/clinical/units). A reading whose unit does not convert (mass
+ * against moles, no unit, a unit UCUM cannot read) is never compared as if it did: it is set apart, with why.
+ */
+export function inControlUnits(rows: StoredQcRow[]): { comparable: QcReadingRow[]; problems: QcUnitProblem[] } {
+  const comparable: QcReadingRow[] = [];
+  const problems: QcUnitProblem[] = [];
+  for (const { unit, controlUnit, ...row } of rows) {
+    if (row.value === null) continue;
+    const problem = (message: string) =>
+      problems.push({ id: row.id, analyte: row.analyte, instrumentId: row.instrumentId, materialId: row.materialId, at: row.at, value: row.value as number, unit, controlUnit, message });
+    if (!unit || !unit.trim()) {
+      problem(`The reading came without a unit, so it cannot be compared with the control’s target in ${controlUnit}.`);
+      continue;
+    }
+    if (unit === controlUnit) {
+      comparable.push({ ...row, sent: null });
+      continue;
+    }
+    const converted = convert(row.value, unit, controlUnit);
+    if (!converted.ok) {
+      problem(`${unit} does not convert to the control’s ${controlUnit}: ${converted.message} Not compared with the target.`);
+      continue;
+    }
+    comparable.push({ ...row, value: converted.value, sent: converted.value === row.value ? null : { value: row.value, unit } });
+  }
+  return { comparable, problems };
+}
+
+/** QC readings that name a material and have a number, oldest first, in their controls' units, with those that cannot be. */
+export async function qcReadingsWithUnits(tx: Executor, clinicId: string, filter: { analyte?: string; instrumentId?: string | null } = {}) {
   const conditions = [eq(readings.clinicId, clinicId), eq(readings.status, 'control')];
   if (filter.analyte) conditions.push(eq(readings.analyte, filter.analyte));
   if (filter.instrumentId !== undefined) {
@@ -33,6 +85,8 @@ export async function qcReadings(tx: Executor, clinicId: string, filter: { analy
       analyte: readings.analyte,
       instrumentId: readings.instrumentId,
       value: readings.value,
+      unit: readings.unit,
+      controlUnit: controlMaterials.unit,
       at: sql<Date>`coalesce(${readings.measuredAt}, ${readings.receivedAt})`.mapWith((v) => new Date(v)),
       materialId: controlMaterials.id,
       level: controlMaterials.level,
@@ -43,7 +97,12 @@ export async function qcReadings(tx: Executor, clinicId: string, filter: { analy
     .innerJoin(controlMaterials, eq(controlMaterials.id, readings.controlMaterialId))
     .where(and(...conditions))
     .orderBy(asc(sql`coalesce(${readings.measuredAt}, ${readings.receivedAt})`), asc(readings.storedAt));
-  return rows.filter((r): r is QcReadingRow => r.value !== null);
+  return inControlUnits(rows);
+}
+
+/** QC readings that can be compared with their controls' targets (see qcReadingsWithUnits), oldest first. */
+export async function qcReadings(tx: Executor, clinicId: string, filter: { analyte?: string; instrumentId?: string | null } = {}) {
+  return (await qcReadingsWithUnits(tx, clinicId, filter)).comparable;
 }
 
 export interface QcGroup {

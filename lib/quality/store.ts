@@ -1,5 +1,5 @@
 import 'server-only';
-import { and, asc, count, desc, eq, gte, inArray, isNotNull, isNull, sql } from 'drizzle-orm';
+import { and, asc, count, desc, eq, gte, inArray, isNull, sql } from 'drizzle-orm';
 import { db, type Executor } from '@/db/client';
 import {
   clinics,
@@ -15,6 +15,7 @@ import {
 } from '@/db/schema';
 import { requirePermission, type Actor } from '@/lib/auth/guards';
 import { recordAudit } from '@/lib/audit';
+import { checkUnit } from '@/lib/clinical/units';
 import { ApiError, notFound } from '@/lib/http';
 import { publish } from '@/lib/live/bus';
 import { isUniqueViolation } from '@/lib/staff';
@@ -30,6 +31,7 @@ import {
 } from '@/lib/validation/quality';
 import { kitLotStock, localDay } from './kits';
 import { verifyReferenceInterval } from './reference-verification';
+import { qcReadingsWithUnits } from './qc';
 import { establishTarget } from './statistics';
 
 const mustManage = (actor: Actor) => requirePermission(actor, 'manageQuality');
@@ -223,6 +225,9 @@ export async function createControlMaterial(actor: Actor, input: ControlMaterial
   try {
     return await database.transaction(async (tx) => {
       await checkInstrument(tx, actor.clinicId, input.instrumentId, input.analyte);
+      // QC readings are converted into this unit before they are compared, so it must be one UCUM can read.
+      const unit = checkUnit(input.unit);
+      if (!unit.ok) throw new ApiError(400, 'invalid_request', unit.message, [{ path: 'unit', message: `${unit.message} Give the unit in UCUM, e.g. mg/L or mmol/L.` }]);
       const [material] = await tx
         .insert(controlMaterials)
         .values({ ...input, clinicId: actor.clinicId, targetSource: 'insert', createdBy: actor.userId })
@@ -247,12 +252,13 @@ export async function establishControlTarget(actor: Actor, materialId: string) {
       .where(and(eq(controlMaterials.id, materialId), eq(controlMaterials.clinicId, actor.clinicId)))
       .for('update');
     if (!material) throw notFound('The control material');
-    const runs = await tx
-      .select({ value: readings.value })
-      .from(readings)
-      .where(and(eq(readings.clinicId, actor.clinicId), eq(readings.status, 'control'), eq(readings.controlMaterialId, materialId), isNotNull(readings.value)));
+    // The runs in the control's unit; a run whose unit does not convert is left out, and the answer says so.
+    const { comparable, problems } = await qcReadingsWithUnits(tx, actor.clinicId, { analyte: material.analyte });
+    const runs = comparable.filter((r) => r.materialId === materialId);
+    const leftOut = problems.filter((p) => p.materialId === materialId).length;
     const result = establishTarget(runs.map((r) => r.value as number));
-    if (!result.ok) throw new ApiError(409, 'too_few_runs', result.reason);
+    const unitNote = leftOut ? ` ${leftOut} run${leftOut === 1 ? '' : 's'} left out: unit not convertible to ${material.unit}.` : '';
+    if (!result.ok) throw new ApiError(409, 'too_few_runs', result.reason + unitNote);
     const before = { mean: material.targetMean, sd: material.targetSd, source: material.targetSource };
     const [updated] = await tx
       .update(controlMaterials)

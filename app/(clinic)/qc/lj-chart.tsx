@@ -11,6 +11,8 @@ export interface LjPoint {
   z: number;
   status: 'accepted' | 'warning' | 'rejected';
   rules: string[];
+  /** As the instrument sent it, when that was in another unit (value is converted to the control's). */
+  sent?: { value: number; unit: string } | null;
 }
 
 const W = 640;
@@ -54,7 +56,7 @@ export function LeveyJenningsChart({ mean, sd, unit, points, label }: { mean: nu
         {points.map((p, i) => {
           const cx = x(i);
           const cy = y(Math.max(-maxZ, Math.min(maxZ, p.z)));
-          const title = `${new Date(p.at).toLocaleString()}: ${fmt(p.value)} ${unit} (${p.z >= 0 ? '+' : ''}${p.z.toFixed(1)} SD)${p.rules.length ? ` — ${p.rules.join(', ')}` : ''}`;
+          const title = `${new Date(p.at).toLocaleString()}: ${fmt(p.value)} ${unit} (${p.z >= 0 ? '+' : ''}${p.z.toFixed(1)} SD)${p.sent ? `, sent as ${fmt(p.sent.value)} ${p.sent.unit}` : ''}${p.rules.length ? ` — ${p.rules.join(', ')}` : ''}`;
           const rejected = p.rules.some((r) => r !== '1-2s');
           return (
             <g key={p.id} data-testid="lj-point" data-violation={p.rules.join(' ')} data-status={p.status}>

@@ -57,6 +57,7 @@ export function QcBoard() {
         {canManage && <AddControlForm data={data} />}
       </section>
       {data.unmatched.length > 0 && <UnmatchedControls data={data} canManage={canManage} />}
+      {data.unitProblems.length > 0 && <UnitProblems data={data} />}
       <SigmaSection data={data} canManage={canManage} />
     </div>
   );
@@ -255,6 +256,39 @@ function AddControlForm({ data }: { data: Overview }) {
         </div>
       )}
     </form>
+  );
+}
+
+/** QC readings no rule has seen: their unit does not convert to the control's, so comparing would be wrong. */
+function UnitProblems({ data }: { data: Overview }) {
+  const controlOf = new Map(data.controls.map((c) => [c.id, c]));
+  return (
+    <section aria-labelledby="unit-problems-heading" className="space-y-2">
+      <h2 id="unit-problems-heading" className="text-lg font-semibold text-alarm-700">
+        QC readings not compared: unit
+      </h2>
+      <p className="text-sm text-ink-700">
+        These arrived in a unit that does not convert to their control’s unit, so they are left out of the Westgard rules and the chart.
+        Check the instrument’s unit setting (Admin → Units) or the control’s unit.
+      </p>
+      <ul className="space-y-2" data-testid="qc-unit-problems">
+        {data.unitProblems.map((p) => {
+          const control = controlOf.get(p.materialId);
+          return (
+            <li key={p.id} className="rounded border border-alarm-700/40 bg-alarm-100 p-2 text-sm">
+              <span className="font-medium">{p.analyte}</span>{' '}
+              <span className="font-mono">
+                {p.value} {p.unit ?? '(no unit)'}
+              </span>{' '}
+              <span className="text-ink-700">
+                {control ? `${control.name} level ${control.level}` : 'control'} · {formatDateTime(p.at)}
+              </span>
+              <span className="block text-xs text-alarm-700">{p.message}</span>
+            </li>
+          );
+        })}
+      </ul>
+    </section>
   );
 }
 

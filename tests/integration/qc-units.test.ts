@@ -1,0 +1,95 @@
+// QC readings in another unit than their control's target, through ingest and the QC page's API: the
+// Westgard rules see the value converted by UCUM (1 mg/dL = 10 mg/L: UCUM Table 1, prefix d deci = 1e-1,
+// from memory), and a unit that does not convert is listed with why, never compared as if it did.
+// 1-3s: one control value beyond mean ± 3 SD rejects the run (Westgard, Barry, Hunt, Groth, Clin Chem
+// 1981;27:493–501, from memory).
+import { eq } from 'drizzle-orm';
+import { beforeAll, describe, expect, it } from 'vitest';
+import { POST as addInstrumentRoute } from '@/app/api/admin/instruments/route';
+import { POST as materialRoute } from '@/app/api/quality/materials/route';
+import { GET as qcRoute } from '@/app/api/quality/qc/route';
+import type { Database } from '@/db/client';
+import { readings } from '@/db/schema';
+import { seededDatabase } from '../helpers/db';
+import { request, signIn } from '../helpers/http';
+import { body, ingest, readingRecord } from './support';
+
+const CODE = 'unit-check-reader';
+let database: Database;
+let token: string;
+let tech: string;
+let instrumentId: string;
+let materialId: string;
+
+let n = 0;
+async function send(payload: Record<string, unknown>) {
+  const response = await ingest(token, [readingRecord(`qc-units-${String(++n).padStart(6, '0')}`, { analyte: 'cCRP', sampleId: 'QC-U1', ...payload }, CODE)]);
+  expect(response.status).toBe(200);
+  return (await body(response)).results[0].id as string;
+}
+const overview = async () => body(await qcRoute(request('/api/quality/qc', { cookie: tech }), undefined));
+
+beforeAll(async () => {
+  ({ database, bridgeToken: token } = await seededDatabase());
+  const admin = await signIn('admin@fernhollow.example');
+  tech = await signIn('tech@fernhollow.example');
+  const added = await addInstrumentRoute(
+    request('/api/admin/instruments', { cookie: admin, body: { code: CODE, name: 'Unit check reader', analytes: ['cCRP'], dialect: 'plain-printout' } }),
+    undefined,
+  );
+  expect(added.status).toBe(201);
+  instrumentId = (await body(added)).instrument.id;
+});
+
+describe('control values and QC readings in different units', () => {
+  it('a control must have a unit UCUM can read (400 on the unit field)', async () => {
+    const bad = await materialRoute(
+      request('/api/quality/materials', {
+        cookie: tech,
+        body: { analyte: 'cCRP', instrumentId, name: 'CRP control', lotNumber: 'U-1', level: '1', sampleId: 'QC-U1', unit: 'milligrams a litre', targetMean: 50, targetSd: 5 },
+      }),
+      undefined,
+    );
+    expect(bad.status).toBe(400);
+    expect((await body(bad)).error.issues.map((i: { path: string }) => i.path)).toEqual(['unit']);
+    const created = await materialRoute(
+      request('/api/quality/materials', {
+        cookie: tech,
+        body: { analyte: 'cCRP', instrumentId, name: 'CRP control', lotNumber: 'U-1', level: '1', sampleId: 'QC-U1', unit: 'mg/L', targetMean: 50, targetSd: 5 },
+      }),
+      undefined,
+    );
+    expect(created.status).toBe(201);
+    materialId = (await body(created)).material.id;
+  });
+
+  it('5.1 mg/dL on a target of 50 ± 5 mg/L is 51 mg/L, +0.2 SD: accepted (compared unconverted it would be −9 SD, a 1-3s rejection)', async () => {
+    const id = await send({ value: 5.1, unit: 'mg/dL' });
+    const [row] = await database.db.select().from(readings).where(eq(readings.id, id));
+    expect(row).toMatchObject({ status: 'control', controlMaterialId: materialId, value: 5.1, unit: 'mg/dL' });
+    const qc = await overview();
+    const status = qc.status.find((s: { instrumentId: string }) => s.instrumentId === instrumentId);
+    expect(status.status).toBe('accepted');
+    const point = qc.controls.find((c: { id: string }) => c.id === materialId).points.at(-1);
+    expect(point).toMatchObject({ id, value: 51, sent: { value: 5.1, unit: 'mg/dL' }, status: 'accepted', rules: [] });
+    expect(point.z).toBeCloseTo(0.2, 10);
+  });
+
+  it('a converted value beyond 3 SD is still caught: 7.0 mg/dL = 70 mg/L, +4 SD, 1-3s', async () => {
+    const id = await send({ value: 7, unit: 'mg/dL' });
+    const qc = await overview();
+    expect(qc.status.find((s: { instrumentId: string }) => s.instrumentId === instrumentId).status).toBe('rejected');
+    expect(qc.controls.find((c: { id: string }) => c.id === materialId).points.at(-1)).toMatchObject({ id, value: 70, z: 4, rules: ['1-3s'] });
+  });
+
+  it('a reading in mmol/L (moles, not mass) is listed as not compared, with why, and no rule sees it', async () => {
+    await send({ value: 49, unit: 'mg/L' }); // an accepted rerun, so the state below is the rerun's
+    const before = await overview();
+    const id = await send({ value: 0.5, unit: 'mmol/L' });
+    const qc = await overview();
+    expect(qc.unitProblems[0]).toMatchObject({ id, value: 0.5, unit: 'mmol/L', controlUnit: 'mg/L', materialId, message: expect.stringMatching(/^mmol\/L does not convert to the control’s mg\/L: .*molecular weight/) });
+    const points = qc.controls.find((c: { id: string }) => c.id === materialId).points;
+    expect(points.map((p: { id: string }) => p.id)).not.toContain(id);
+    expect(qc.status.find((s: { instrumentId: string }) => s.instrumentId === instrumentId)).toEqual(before.status.find((s: { instrumentId: string }) => s.instrumentId === instrumentId));
+  });
+});
