@@ -2,21 +2,11 @@
 // 1981;27:493–501, from memory) arrives from the bridge, the page shows the rejection naming the rule, and
 // the next patient result of that test carries a visible "QC failed" mark in Intake and on the chart.
 import { describe, expect, it } from 'vitest';
-import { appForThisFile, signInAs } from './support';
+import { appForThisFile, postCrpReading, signInAs } from './support';
 
 const running = appForThisFile();
 
-async function post(payload: Record<string, unknown>, key: string) {
-  const response = await fetch(`${running.app.baseUrl}/api/bridge/readings`, {
-    method: 'POST',
-    headers: { 'content-type': 'application/json', authorization: `Bearer ${running.app.bridgeToken}` },
-    body: JSON.stringify({
-      records: [{ key, instrument: 'crp-reader', receivedAt: new Date().toISOString(), payload: { kind: 'reading', analyte: 'cCRP', unit: 'mg/L', raw: `RESULT ${payload.value} mg/L\n`, ...payload } }],
-    }),
-  });
-  expect(response.status).toBe(200);
-  return (await response.json()).results[0].id as string;
-}
+const post = (payload: Record<string, unknown>, key: string) => postCrpReading(running.app, payload, key);
 
 describe('QC page', () => {
   it('shows a 1-3s rejection as it arrives and flags the next patient result', async () => {

@@ -193,3 +193,16 @@ export async function postAnonymousCrpReading(app: RunningApp, value: number, at
   const { results } = (await response.json()) as { results: { id: string }[] };
   return results[0].id;
 }
+
+/** Posts one reading as the bridge uploads it (cCRP in mg/L from the demo reader unless the payload says otherwise); returns its id. */
+export async function postCrpReading(app: RunningApp, payload: Record<string, unknown>, key: string): Promise<string> {
+  const response = await fetch(`${app.baseUrl}/api/bridge/readings`, {
+    method: 'POST',
+    headers: { 'content-type': 'application/json', authorization: `Bearer ${app.bridgeToken}` },
+    body: JSON.stringify({
+      records: [{ key, instrument: 'crp-reader', receivedAt: new Date().toISOString(), payload: { kind: 'reading', analyte: 'cCRP', unit: 'mg/L', raw: `RESULT ${payload.value} mg/L\n`, ...payload } }],
+    }),
+  });
+  if (response.status !== 200) throw new Error(`the bridge upload answered ${response.status}: ${await response.text()}`);
+  return ((await response.json()) as { results: { id: string }[] }).results[0].id;
+}
