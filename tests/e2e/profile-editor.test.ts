@@ -41,6 +41,14 @@ describe('onboarding a text printout', () => {
     expect(text).toContain('pO2 <30 mmHg');
     expect(text).toContain('PRINTER COVER OPEN');
 
+    // A control line turns the slip's results into QC in the preview (the bridge's engine again); emptied, it is gone.
+    await admin.fill('#p-control', '^Sample\\s+(?<level>G)-');
+    const controls = admin.locator('[data-testid=preview-control]');
+    await expect.poll(() => controls.count(), { timeout: 30_000 }).toBe(3);
+    expect(await controls.first().textContent()).toBe('Control run, level G: goes to QC, never to a patient');
+    await admin.fill('#p-control', '');
+    await expect.poll(() => controls.count(), { timeout: 30_000 }).toBe(0);
+
     await admin.click('button:has-text("Save profile")');
     await admin.waitForURL(/\/admin\/profiles\/[0-9a-f-]{36}$/, { timeout: 30_000 });
     await admin.waitForSelector('text=v1');
