@@ -323,11 +323,11 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
    * How likely reader `x` was free when unnamed order `o` was started: not inside a placed run on it,
    * nor inside a named open run on it that was not aborted. Soft at the edges by the click spread.
    */
-  const freeAt = (x: MatchInstrument, o: MatchOrder, at: number) => {
+  const freeAt = (x: MatchInstrument, o: MatchOrder, at: number, placedRuns = true) => {
     if (x.channels !== 1) return 1;
     const margin = 4 * sd * 1000;
     let free = 1;
-    for (const spell of spells.get(x.id) ?? []) {
+    for (const spell of placedRuns ? (spells.get(x.id) ?? []) : []) {
       if (spell.to <= at || spell.from > at + margin) continue;
       free *= 1 - normalCdf((at - spell.from) / 1000 / sd);
     }
@@ -359,7 +359,7 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
       for (const x of readers) {
         const last = lastArrivalBefore(x.id, now + 1);
         const quiet = last === null ? 1 : normalCdf((o.startedAt.getTime() - last) / 1000 / sd);
-        noneFree *= 1 - quiet * freeAt(x, o, o.startedAt.getTime());
+        noneFree *= 1 - quiet * freeAt(x, o, o.startedAt.getTime(), false);
       }
       pending *= 1 - noneFree;
     }
