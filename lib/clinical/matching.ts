@@ -308,26 +308,51 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
     spells.set(p.instrumentId, list);
   }
 
-  /** The chance this order shows no reading by now: aborted, or still running (and, on a single channel, started after the reader's last reading). */
-  const unseen = (o: MatchOrder) => {
-    let pending = stillToCome((now - dueOf(o)) / 1000, timing);
-    if (o.instrumentId && singleChannel(o.instrumentId)) {
-      const last = lastArrivalBefore(o.instrumentId, now + 1);
-      if (last !== null) pending *= normalCdf((o.startedAt.getTime() - last) / 1000 / sd);
-    }
-    return MODEL.abortPrior + (1 - MODEL.abortPrior) * pending;
+  /**
+   * The chance that order `o` is still running now, its reading to come: its run began at the click plus
+   * Z (Z ~ the click spread), on a reader that was free then and has sent nothing since. Both conditions
+   * are about the same unknown start, so they are weighed together (not multiplied as if independent):
+   * reader x is possible when Z > after[x] (the start fell after x's last reading) and, with chance
+   * free[x], no other run holds it. The reading is still to come when Z > now − due, or it was taken late.
+   */
+  const stillRunning = (o: MatchOrder, readers: { after: number; free: number }[]) => {
+    const c = o.startedAt.getTime();
+    const a = (now - dueOf(o)) / 1000 - timing.offsetSeconds;
+    // Segments of Z between the readers' thresholds, where the chance some reader is possible is constant.
+    const cuts = readers.map((x) => ({ at: (x.after - c) / 1000, free: x.free })).sort((p, q) => p.at - q.at);
+    let noneFree = 1;
+    let all = 0;
+    let toCome = 0;
+    cuts.forEach((cut, i) => {
+      noneFree *= 1 - cut.free;
+      const from = cut.at;
+      const to = i + 1 < cuts.length ? cuts[i + 1].at : Infinity;
+      if (to <= from) return;
+      const mass = (lo: number) => (to === Infinity ? 1 : normalCdf(to / sd)) - normalCdf(Math.max(lo, from) / sd);
+      all += (1 - noneFree) * mass(-Infinity);
+      if (to > a) toCome += (1 - noneFree) * mass(a);
+    });
+    const lateTail = a > 0 ? 2 * (1 - normalCdf(a / MODEL.lateTailSeconds)) : 1;
+    return (1 - MODEL.lateTailWeight) * toCome + MODEL.lateTailWeight * lateTail * all;
   };
+  /** The chance this order shows no reading by now: aborted, or still running. */
+  const unseenOf = (pending: number) => MODEL.abortPrior + (1 - MODEL.abortPrior) * pending;
+  const lastOn = (x: MatchInstrument | string) => {
+    const id = typeof x === 'string' ? x : x.id;
+    return singleChannel(id) ? (lastArrivalBefore(id, now + 1) ?? -Infinity) : -Infinity;
+  };
+  const unseen = (o: MatchOrder) => unseenOf(stillRunning(o, [{ after: lastOn(o.instrumentId!), free: 1 }]));
   const unseenBy = new Map(open.filter((o) => o.instrumentId).map((o) => [o.id, unseen(o)]));
 
   /**
    * How likely reader `x` was free when unnamed order `o` was started: not inside a placed run on it,
    * nor inside a named open run on it that was not aborted. Soft at the edges by the click spread.
    */
-  const freeAt = (x: MatchInstrument, o: MatchOrder, at: number, placedRuns = true) => {
+  const freeAt = (x: MatchInstrument, o: MatchOrder, at: number) => {
     if (x.channels !== 1) return 1;
     const margin = 4 * sd * 1000;
     let free = 1;
-    for (const spell of placedRuns ? (spells.get(x.id) ?? []) : []) {
+    for (const spell of spells.get(x.id) ?? []) {
       if (spell.to <= at || spell.from > at + margin) continue;
       free *= 1 - normalCdf((at - spell.from) / 1000 / sd);
     }
@@ -349,21 +374,35 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
     const here = readers.find((x) => x.id === id);
     return here ? freeAt(here, o, at) / total : MODEL.wrongReader;
   };
-  // An unnamed run still running needs a reader that was free when it started and has sent nothing since.
-  for (const o of open) {
-    if (o.instrumentId) continue;
-    let pending = stillToCome((now - dueOf(o)) / 1000, timing);
-    const readers = readersFor(o.analyte);
-    if (readers.length > 0 && readers.every((x) => x.channels === 1)) {
-      let noneFree = 1;
-      for (const x of readers) {
-        const last = lastArrivalBefore(x.id, now + 1);
-        const quiet = last === null ? 1 : normalCdf((o.startedAt.getTime() - last) / 1000 / sd);
-        noneFree *= 1 - quiet * freeAt(x, o, o.startedAt.getTime(), false);
-      }
-      pending *= 1 - noneFree;
+  // An unnamed run still running needs a reader that was free when it started, has sent nothing since,
+  // and that no other run still running holds now: a named one on it, or an unnamed one, which holds one
+  // of the readers it could be on (its chance spread over them). Two passes: the unnamed runs' holds are
+  // estimated first without each other, then used.
+  let unnamedHold = new Map<string, Map<string, number>>();
+  const heldBy = (x: MatchInstrument, o: MatchOrder) => {
+    if (x.channels !== 1) return 0;
+    let free = 1;
+    for (const b of open) {
+      if (b.id === o.id) continue;
+      if (b.instrumentId === x.id) free *= Math.min(1, MODEL.abortPrior / (unseenBy.get(b.id) ?? 1));
+      else if (!b.instrumentId) free *= 1 - (unnamedHold.get(b.id)?.get(x.id) ?? 0);
     }
-    unseenBy.set(o.id, MODEL.abortPrior + (1 - MODEL.abortPrior) * pending);
+    return 1 - free;
+  };
+  for (let pass = 0; pass < 2; pass += 1) {
+    const holds = new Map<string, Map<string, number>>();
+    for (const o of open) {
+      if (o.instrumentId) continue;
+      const readers = readersFor(o.analyte);
+      const options = readers.map((x) => ({ after: lastOn(x), free: 1 - heldBy(x, o) }));
+      const u = unseenOf(stillRunning(o, readers.length === 0 ? [{ after: -Infinity, free: 1 }] : options));
+      unseenBy.set(o.id, u);
+      const running = Math.max(0, 1 - MODEL.abortPrior / u);
+      const each = readers.map((x, i) => (x.channels === 1 ? stillRunning(o, [options[i]]) : 0));
+      const sum = each.reduce((a, b) => a + b, 0);
+      holds.set(o.id, new Map(readers.map((x, i) => [x.id, sum > 0 ? (running * each[i]) / sum : 0])));
+    }
+    unnamedHold = holds;
   }
 
   /**
@@ -371,15 +410,22 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
    * `began`: each either ended (aborted) before that run began, or began after the reading; anything else
    * means two runs at once on one channel. Returns each run with that chance.
    */
-  const channelConflicts = (readerId: string, began: number, T: number, except: string | null) => {
+  const channelConflicts = (readerId: string, began: number, T: number, except: string | null, runMs: number) => {
     const out: { b: MatchOrder; f: number }[] = [];
     for (const b of open) {
       if (b.id === except || b.instrumentId !== readerId) continue;
       const s = b.startedAt.getTime();
       if (s >= T) continue;
-      const before = normalCdf((began - s - MODEL.abortSeconds * 1000) / 1000 / sd);
-      const after = normalCdf((s - T) / 1000 / sd);
-      out.push({ b, f: Math.max(MODEL.channelFloor, before + after - before * after) });
+      // Its start is the click plus Z. Ended before: its short run (abortSeconds) fell before `began`, and
+      // not across the reader's previous run (which ended with the reading before `began`). Began after:
+      // Z > T − s. The ranges of the same Z are disjoint, so their chances add.
+      const z = (t: number) => normalCdf((t - s) / 1000 / sd);
+      const abort = MODEL.abortSeconds * 1000;
+      let before = z(began - abort);
+      const previous = lastArrivalBefore(readerId, began);
+      if (previous !== null) before -= Math.max(0, z(Math.min(previous, began - abort)) - z(previous - runMs - abort));
+      const after = 1 - z(T);
+      out.push({ b, f: Math.max(MODEL.channelFloor, Math.max(0, before) + after) });
     }
     return out;
   };
@@ -391,7 +437,7 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
     if (runs.length === 0) return weight;
     const T = r.arrivedAt.getTime();
     const began = T - median(runs) * 1000 - timing.offsetSeconds * 1000;
-    for (const { f } of channelConflicts(r.instrumentId, began, T, null)) weight *= f;
+    for (const { f } of channelConflicts(r.instrumentId, began, T, null, median(runs) * 1000)) weight *= f;
     return weight;
   };
 
@@ -454,7 +500,7 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
         const readerName = instruments.get(onReader)?.name ?? 'this reader';
         // The run behind this reading began about its duration before the arrival, whatever was clicked.
         const began = T - o.runSeconds * 1000 - timing.offsetSeconds * 1000;
-        for (const { b, f } of channelConflicts(onReader, began, T, o.id)) {
+        for (const { b, f } of channelConflicts(onReader, began, T, o.id, o.runSeconds * 1000)) {
           weight *= f;
           const bp = patients.get(b.patientId);
           if (f < 0.5) {
