@@ -9,14 +9,23 @@
 //   w(r, o) = timing(r, o) · reader(r, o) · ids(r, o) · channel(r, o) / unseen(o)
 // timing   the density of the arrival minus (start + the protocol's full duration), from the clinic's
 //          spread of "started" clicks (learnTiming), with a thin wide tail for a reading taken late;
-// reader   a named reader must be the one that sent the reading; an unnamed order could be on any of
-//          the K readers that run the test (1/K);
+// reader   a named reader must be the one that sent the reading; an unnamed order was on one of the
+//          readers for the test that were free when it began (placed runs and named runs hold a reader);
 // ids      an exact sample or record ID is decisive; an ID that names someone else is strong evidence against;
-// channel  one run per channel: a run on a single-channel reader started after that reader's previous
-//          reading, and no other run on it started while this one ran;
-// unseen   the chance that an order shows no reading yet: aborted (ABORT_PRIOR), or still running. Dividing
-//          by it is what makes an overdue run expect its reading, and lets a run long overdue on a busy
-//          reader be read as aborted instead of blocking the reader (abortProbability).
+// channel  one run per channel: no other open run on a single-channel reader ran while this one did. An
+//          open run clicked before this one either was aborted before it began (and after the reader's
+//          previous run: it had to fit on the reader too) or began after the reading;
+// unseen   the chance that an order shows no reading yet: aborted (ABORT_PRIOR), or still running. Still
+//          running means one unknown start (the click plus the spread) that fell after the last reading of
+//          a reader it could be on, on a reader no other run still running holds (a named run on it, or an
+//          unnamed run's share of it), with its reading still to come; these are weighed together over
+//          that one start, not multiplied as if independent. Dividing by unseen is what makes an overdue
+//          run expect its reading, and lets a run long overdue on a busy reader be read as aborted instead
+//          of blocking the reader (abortProbability).
+// What it does not model: how busy the bench is. Every start time is taken as equally likely a priori;
+// on a bench running back to back, runs start just after a reader frees, and two unnamed runs clicked
+// close together are then told apart less well than the probabilities say (tests/bench prints the
+// reliability table); on a quiet bench the other way round.
 // Species is never evidence of identity: it is a warning beside the suggestion.
 import { formatDuration } from './protocols';
 
