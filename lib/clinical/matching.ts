@@ -19,9 +19,10 @@
 //          running means one unknown start (the click plus the spread) that fell after the last reading of
 //          a reader it could be on, on a reader no other run still running holds (a named run on it, or an
 //          unnamed run's share of it), with its reading still to come; these are weighed together over
-//          that one start, not multiplied as if independent. Dividing by unseen is what makes an overdue
-//          run expect its reading, and lets a run long overdue on a busy reader be read as aborted instead
-//          of blocking the reader (abortProbability).
+//          that one start, not multiplied as if independent. An unnamed run read as aborted must have
+//          fitted its short run on a reader between the runs known to have held it. Dividing by unseen is
+//          what makes an overdue run expect its reading, and lets a run long overdue on a busy reader be
+//          read as aborted instead of blocking the reader (abortProbability).
 // What it does not model: how busy the bench is. Every start time is taken as equally likely a priori;
 // on a bench running back to back, runs start just after a reader frees, and two unnamed runs clicked
 // close together are then told apart less well than the probabilities say (tests/bench prints the
@@ -345,7 +346,36 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
     return (1 - MODEL.lateTailWeight) * toCome + MODEL.lateTailWeight * lateTail * all;
   };
   /** The chance this order shows no reading by now: aborted, or still running. */
-  const unseenOf = (pending: number) => MODEL.abortPrior + (1 - MODEL.abortPrior) * pending;
+  const unseenOf = (pending: number, fits = 1) => MODEL.abortPrior * fits + (1 - MODEL.abortPrior) * pending;
+  // Each known reading on a single-channel reader closes a run that held it for about a run's duration.
+  const runs = open.map((o) => o.runSeconds).filter((x) => x > 0);
+  const typicalRun = runs.length > 0 ? median(runs) * 1000 : 0;
+  const busy = new Map<string, { from: number; to: number }[]>();
+  for (const [id, list] of arrivals) {
+    if (!singleChannel(id) || typicalRun <= 0) continue;
+    busy.set(id, list.map((a) => ({ from: a - typicalRun - timing.offsetSeconds * 1000, to: a })));
+  }
+  /**
+   * The chance an aborted run started at the click plus Z fitted on one of these readers: its short run
+   * (abortSeconds) overlaps none of the runs known to have held the reader. Summed over a grid of Z.
+   */
+  const abortFits = (o: MatchOrder, readers: MatchInstrument[]) => {
+    if (readers.length === 0 || readers.some((x) => x.channels !== 1)) return 1;
+    const c = o.startedAt.getTime();
+    const abort = MODEL.abortSeconds * 1000;
+    const reach = 4 * sd * 1000;
+    const near = readers.map((x) => (busy.get(x.id) ?? []).filter((b) => b.to > c - reach && b.from < c + reach + abort));
+    let fits = 0;
+    let total = 0;
+    for (let k = -40; k <= 40; k += 1) {
+      const z = k / 10;
+      const w = Math.exp(-0.5 * z * z);
+      const start = c + z * sd * 1000;
+      total += w;
+      if (near.some((list) => !list.some((b) => b.from < start + abort && b.to > start))) fits += w;
+    }
+    return Math.max(MODEL.channelFloor, fits / total);
+  };
   const lastOn = (x: MatchInstrument | string) => {
     const id = typeof x === 'string' ? x : x.id;
     return singleChannel(id) ? (lastArrivalBefore(id, now + 1) ?? -Infinity) : -Infinity;
@@ -404,9 +434,10 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
       if (o.instrumentId) continue;
       const readers = readersFor(o.analyte);
       const options = readers.map((x) => ({ after: lastOn(x), free: 1 - heldBy(x, o) }));
-      const u = unseenOf(stillRunning(o, readers.length === 0 ? [{ after: -Infinity, free: 1 }] : options));
+      const fits = abortFits(o, readers);
+      const u = unseenOf(stillRunning(o, readers.length === 0 ? [{ after: -Infinity, free: 1 }] : options), fits);
       unseenBy.set(o.id, u);
-      const running = Math.max(0, 1 - MODEL.abortPrior / u);
+      const running = Math.max(0, 1 - (MODEL.abortPrior * fits) / u);
       const each = readers.map((x, i) => (x.channels === 1 ? stillRunning(o, [options[i]]) : 0));
       const sum = each.reduce((a, b) => a + b, 0);
       holds.set(o.id, new Map(readers.map((x, i) => [x.id, sum > 0 ? (running * each[i]) / sum : 0])));
