@@ -168,6 +168,38 @@ describe('the packed bridge', () => {
     expect(bridge.output()).toMatch(/bridge: stopped, 0 record\(s\) waiting in the spool/);
   });
 
+  // Needs root to hand the device to group dialout and run as another user (runuser, util-linux).
+  const asRoot = process.getuid?.() === 0 && !spawnSync('runuser', ['--version']).error && spawnSync('getent', ['group', 'dialout']).status === 0;
+  it.skipIf(!asRoot)('doctor as a user outside the port\'s group: FAIL naming group dialout; with dialout as a supplementary group (the unit\'s SupplementaryGroups=) OK', async () => {
+    const device = path.join(work, 'bridge-end');
+    // Debian gives serial devices root:dialout 0660 (udev rules, common practice, no source).
+    const pts = fs.realpathSync(device);
+    fs.chownSync(pts, 0, Number(spawnSync('getent', ['group', 'dialout'], { encoding: 'utf8' }).stdout.split(':')[2]));
+    fs.chmodSync(pts, 0o660);
+    fs.chmodSync(work, 0o755);
+    const spool = path.join(work, 'nobody-spool');
+    fs.mkdirSync(spool, { mode: 0o700 });
+    fs.chownSync(spool, 65534, 65534);
+    const doctor = (groups: string[]) => {
+      const child = spawn('runuser', ['-u', 'nobody', ...groups, '--', process.execPath, path.join(labPc, 'bridge.cjs'), 'doctor', '--instrument', 'crp-reader', '--source', `serial:${device}`, '--spool', spool, '--server', app.url], {
+        cwd: '/',
+        env: { PATH: process.env.PATH ?? '/usr/bin:/bin', BENCHWIRE_BRIDGE_TOKEN: token, NODE_ENV: 'production' },
+      });
+      children.push(child);
+      let stdout = '';
+      child.stdout.on('data', (chunk: Buffer) => (stdout += chunk.toString()));
+      child.stderr.on('data', (chunk: Buffer) => (stdout += chunk.toString()));
+      return new Promise<Run>((resolve) => child.on('close', (status) => resolve({ status, stdout, stderr: '' })));
+    };
+    const outside = await doctor([]);
+    expect(outside.status, outside.stdout).toBe(1);
+    expect(outside.stdout).toMatch(new RegExp(`^FAIL crp-reader serial:${device}: nobody may not read and write it \\(group dialout, mode 660\\) → add the user to group dialout \\(sudo usermod -aG dialout nobody`, 'm'));
+    expect(outside.stdout).toMatch(/doctor: 1 of 5 checks failed\n$/);
+    const inside = await doctor(['-G', 'dialout']);
+    expect(inside.status, inside.stdout).toBe(0);
+    expect(inside.stdout).toMatch(/doctor: all 5 checks passed\n$/);
+  });
+
   it.skipIf(spawnSync('systemd-analyze', ['--version']).error)('carries a systemd unit that systemd-analyze verify finds nothing wrong with', () => {
     const unit = path.join(labPc, 'service', 'benchwire-bridge.service');
     const verify = spawnSync('systemd-analyze', ['verify', unit], { encoding: 'utf8' });
