@@ -68,7 +68,7 @@ export async function benchUploads(report: Report, sizeMB = 100): Promise<void> 
     const row = (name: string, peak: number, sent: Sent[]) =>
       report.add({
         section: 'memory',
-        name: `server RSS peak: ${name} (answered ${[...new Set(sent.map((s) => s.status))].join('/')}, ${Math.max(...sent.map((s) => s.sentMB)).toFixed(0)} MB written before it)`,
+        name: `server RSS peak: ${name} (+${(peak - idle).toFixed(0)} MB over idle; answered ${[...new Set(sent.map((s) => s.status))].join('/')}, ${Math.max(...sent.map((s) => s.sentMB)).toFixed(0)} MB written before it)`,
         value: peak,
         unit: 'MB',
         baseline: 'idle after start',
