@@ -111,7 +111,8 @@ ${SERIAL_HELP}
 Checks what \`run\` with the same options needs, one line each, OK or FAIL with what to do:
 the server answers (/api/health), it accepts the token (/api/bridge/config), this PC's clock is
 within 5 s of the server's, the spool directory takes a file and no other bridge uses it, and each
-serial port exists, may be read and written by this user and opens. Exits 1 if any check fails.
+serial port exists, may be read and written by this user and opens; a tcp:// adapter accepts a
+connection, a tcp-listen:// port is free. Exits 1 if any check fails.
 Run it as the account the bridge runs as (on a service: sudo -u benchwire-bridge …).
 `,
   version: `Usage: ${PROGRAM} version (or --version)

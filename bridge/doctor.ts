@@ -3,6 +3,7 @@
 import { randomBytes } from 'node:crypto';
 import fs from 'node:fs/promises';
 import os from 'node:os';
+import net from 'node:net';
 import { join } from 'node:path';
 import { SerialPort, type SerialPortOpenOptions } from 'serialport';
 import type { AutoDetectTypes } from '@serialport/bindings-cpp';
@@ -10,7 +11,7 @@ import { StoreLockedError, lockStore } from '../lib/store-lock';
 import { CONFIG_CACHE_FILE, instrumentsOf, serverConfigSchema, type ServerConfig } from './config-sync';
 import { errorMessage } from './log';
 import type { InstrumentConfig } from './pipeline';
-import { parseSourceSpec } from './sources';
+import { describeSource, parseSourceSpec, type SourceSpec } from './sources';
 import { serialSettingsSchema, type SerialSettings } from './sources/serial';
 
 export interface Check {
@@ -66,7 +67,9 @@ export async function runDoctor(options: DoctorOptions): Promise<Check[]> {
   }
   for (const instrument of instruments) {
     const spec = typeof instrument.source === 'string' ? parseSourceSpec(instrument.source) : instrument.source;
-    if (typeof spec !== 'string' && spec.kind === 'serial') checks.push(await checkSerialPort(instrument.code, spec.path, instrument.serial, program));
+    if (typeof spec === 'string') continue;
+    if (spec.kind === 'serial') checks.push(await checkSerialPort(instrument.code, spec.path, instrument.serial, program));
+    if (spec.kind === 'tcp' || spec.kind === 'tcp-listen') checks.push(await checkTcpSource(instrument.code, spec));
   }
   return checks;
 }
@@ -310,6 +313,45 @@ export async function checkSerialPort(instrument: string, path: string, settings
     return { name, ok: false, detail: `in use by another program (${opened})`, fix: 'close that program; a bridge already running (systemctl stop benchwire-bridge) holds its ports' };
   }
   return { name, ok: false, detail: `does not open (${opened})`, fix: process.platform === 'win32' ? `check the COM number in Device Manager → Ports; ${listHint}` : listHint };
+}
+
+/**
+ * tcp://: a serial-to-network adapter (or analyzer) accepts a connection; tcp-listen://: the bridge may
+ * listen where the analyzer will connect. Both are let go at once.
+ */
+export async function checkTcpSource(instrument: string, spec: Extract<SourceSpec, { kind: 'tcp' | 'tcp-listen' }>): Promise<Check> {
+  const name = `${instrument} ${describeSource(spec)}`;
+  if (spec.kind === 'tcp') {
+    const error = await new Promise<Error | undefined>((resolve) => {
+      const socket = net.connect({ host: spec.host, port: spec.port });
+      socket.setTimeout(5_000, () => socket.destroy(new Error('no answer within 5 s')));
+      socket.once('connect', () => {
+        socket.destroy();
+        resolve(undefined);
+      });
+      socket.once('error', resolve);
+    });
+    if (!error) return { name, ok: true, detail: 'accepts a connection' };
+    return {
+      name,
+      ok: false,
+      detail: `does not accept a connection (${errorMessage(error)})`,
+      fix: "check the adapter's address and port and that it is in TCP server (raw) mode; many adapters take one client at a time, so stop any other program connected to it",
+    };
+  }
+  const error = await new Promise<Error | undefined>((resolve) => {
+    const server = net.createServer();
+    server.once('error', resolve);
+    server.listen(spec.port, spec.host, () => server.close(() => resolve(undefined)));
+  });
+  if (!error) return { name, ok: true, detail: 'free to listen on' };
+  const inUse = (error as NodeJS.ErrnoException).code === 'EADDRINUSE';
+  return {
+    name,
+    ok: false,
+    detail: inUse ? 'another program listens there' : `cannot listen there (${errorMessage(error)})`,
+    fix: inUse ? 'stop that program (a bridge already running?) or pick another port, here and in the analyzer' : 'use an address of this PC, and a port above 1023',
+  };
 }
 
 function openOnce(path: string, settings: Partial<SerialSettings> | undefined): Promise<true | string> {
