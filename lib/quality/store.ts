@@ -258,7 +258,7 @@ export async function establishControlTarget(actor: Actor, materialId: string) {
     const leftOut = problems.filter((p) => p.materialId === materialId).length;
     const result = establishTarget(runs.map((r) => r.value as number));
     const unitNote = leftOut ? ` ${leftOut} run${leftOut === 1 ? '' : 's'} left out: unit not convertible to ${material.unit}.` : '';
-    if (!result.ok) throw new ApiError(409, 'too_few_runs', result.reason + unitNote);
+    if (!result.ok) throw new ApiError(409, 'too_few_runs', unitNote ? `${result.reason}.${unitNote}` : result.reason);
     const before = { mean: material.targetMean, sd: material.targetSd, source: material.targetSource };
     const [updated] = await tx
       .update(controlMaterials)
@@ -270,7 +270,6 @@ export async function establishControlTarget(actor: Actor, materialId: string) {
   });
 }
 
-/** The material a QC reading measured: by its sample ID, else the only active material for the test there. */
 /**
  * The control material a QC reading was run on: the one with its sample ID, else the one of the level the
  * slip printed (a printout profile's control line), else the only one without a sample ID. Never a guess

@@ -7,11 +7,12 @@ import { eq } from 'drizzle-orm';
 import { beforeAll, describe, expect, it } from 'vitest';
 import { POST as addInstrumentRoute } from '@/app/api/admin/instruments/route';
 import { POST as materialRoute } from '@/app/api/quality/materials/route';
+import { POST as establishRoute } from '@/app/api/quality/materials/[materialId]/establish/route';
 import { GET as qcRoute } from '@/app/api/quality/qc/route';
 import type { Database } from '@/db/client';
 import { readings } from '@/db/schema';
 import { seededDatabase } from '../helpers/db';
-import { request, signIn } from '../helpers/http';
+import { params, request, signIn } from '../helpers/http';
 import { body, ingest, readingRecord } from './support';
 
 const CODE = 'unit-check-reader';
@@ -91,5 +92,31 @@ describe('control values and QC readings in different units', () => {
     const points = qc.controls.find((c: { id: string }) => c.id === materialId).points;
     expect(points.map((p: { id: string }) => p.id)).not.toContain(id);
     expect(qc.status.find((s: { instrumentId: string }) => s.instrumentId === instrumentId)).toEqual(before.status.find((s: { instrumentId: string }) => s.instrumentId === instrumentId));
+  });
+
+  it('a target established from 20 runs is in the control’s unit; a run in a unit that does not convert is left out, and the answer says so', async () => {
+    const created = await materialRoute(
+      request('/api/quality/materials', {
+        cookie: tech,
+        body: { analyte: 'cCRP', instrumentId, name: 'CRP control', lotNumber: 'U-1', level: '2', sampleId: 'QC-U2', unit: 'mg/L', targetMean: 1, targetSd: 1 },
+      }),
+      undefined,
+    );
+    const level2 = (await body(created)).material.id;
+    // 10 × 9.8 and 9 × 10.2 mg/dL (98 and 102 mg/L), and one run in mmol/L that cannot be compared.
+    for (let i = 0; i < 19; i++) await send({ sampleId: 'QC-U2', value: i < 10 ? 9.8 : 10.2, unit: 'mg/dL' });
+    await send({ sampleId: 'QC-U2', value: 0.9, unit: 'mmol/L' });
+    const establish = () => establishRoute(request(`/api/quality/materials/${level2}/establish`, { cookie: tech, body: {} }), params({ materialId: level2 }));
+    const refused = await establish();
+    expect(refused.status).toBe(409);
+    expect((await body(refused)).error.message).toBe('19 runs so far; at least 20 are needed to establish a target. 1 run left out: unit not convertible to mg/L.');
+    await send({ sampleId: 'QC-U2', value: 102, unit: 'mg/L' });
+    const done = await establish();
+    expect(done.status).toBe(200);
+    // Mean 100 mg/L; sample SD (n − 1, common practice, no source): every run is 2 mg/L from the mean, √(20 × 4 / 19).
+    const { material } = await body(done);
+    expect(material.targetMean).toBeCloseTo(100, 9);
+    expect(material.targetSd).toBeCloseTo(Math.sqrt(80 / 19), 9);
+    expect(material.targetSource).toBe('established');
   });
 });
