@@ -890,6 +890,8 @@ export const staffTokens = pgTable(
     tokenHash: text().notNull(),
     expiresAt: timestamp({ withTimezone: true }).notNull(),
     usedAt: timestamp({ withTimezone: true }),
+    /** An administrator withdrew the link (revoked, or replaced by a resent invitation): it no longer works. */
+    revokedAt: timestamp({ withTimezone: true }),
     createdBy: uuid().references(() => staffUsers.id, { onDelete: 'set null' }),
     createdAt: createdAt(),
   },
