@@ -148,8 +148,15 @@ describe('capture-file import', () => {
     const sent = await ingest(bridgeToken, parsed.map((payload) => ({ key: randomUUID(), instrument: chemistry.code, receivedAt: new Date().toISOString(), payload })));
     expect(sent.status).toBe(200);
     const third = session(message('S-7003', 'PT-90', [['GLU', '12.9', 'mmol/L']], '20261201100000'));
+    // The capture log records what came down the line, so it also holds a frame the bridge refused: E1381
+    // has the receiver NAK a frame with a wrong checksum and the sender send the same frame (same FN)
+    // again (from memory). Read from the file, the message is the same as the one accepted live.
+    const records = message('S-7002', 'PT-89', [['CREA', '97', 'umol/L']], '20261201093000');
+    const frames = records.map((r, i) => testFrame((i + 1) % 8, `${r}\r`));
+    const corrupted = testFrame(4, `${records[3]}\r`, { checksum: '00' });
+    const secondAsRecorded = Buffer.concat([Buffer.from([C.ENQ]), ...frames.slice(0, 3), corrupted, ...frames.slice(3), Buffer.from([C.EOT])]);
     // The capture log holds both sessions, and the first import's too.
-    const file = Buffer.concat([FIRST, SECOND, third]);
+    const file = Buffer.concat([FIRST, secondAsRecorded, third]);
     const preview = await body(await upload({ step: 'preview', instrumentId: chemistry.id }, file));
     expect(preview.summary).toEqual({ readingsNew: 1, readingsAlreadyStored: 3, capturesNew: 0, capturesAlreadyStored: 0 });
     expect(preview.items.filter((i: { alreadyStored: boolean }) => !i.alreadyStored)).toEqual([expect.objectContaining({ sampleId: 'S-7003', analyte: 'GLU', value: 12.9 })]);
