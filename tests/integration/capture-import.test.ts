@@ -4,13 +4,15 @@ import { beforeAll, describe, expect, it } from 'vitest';
 import { body, ingest, staffByEmail } from './support';
 import * as importRoute from '@/app/api/admin/capture-imports/route';
 import * as waiting from '@/app/api/readings/waiting/route';
+import { POST as transcribe } from '@/app/api/captures/[captureId]/transcribe/route';
+import { GET as listCaptures } from '@/app/api/captures/route';
 import { getDialect } from '@/bridge/dialects';
 import { C, testFrame } from '@/bridge/testing/astm';
 import type { Database } from '@/db/client';
 import { auditEvents, captureImports, instruments, readings, unparsedCaptures } from '@/db/schema';
 import { CAPTURE_IMPORT_LIMITS, readCaptureBytes } from '@/lib/import/captures';
 import { seededDatabase } from '../helpers/db';
-import { request, signIn } from '../helpers/http';
+import { params, request, signIn } from '../helpers/http';
 
 // Capture-file import: raw bytes as recorded from an analyzer's line, read for one instrument by the
 // bridge's own stages, previewed, then stored in one audited transaction, without duplicating what the
@@ -184,6 +186,17 @@ describe('capture-file import', () => {
     expect(done.summary.capturesNew).toBeGreaterThanOrEqual(1);
     const captures = await database.db.select().from(unparsedCaptures).where(eq(unparsedCaptures.captureImportId, done.id));
     expect(captures.map((c) => c.raw).join('')).toContain('garbled frame');
+    // Listed with the open captures, and a person can type the result in from it like from any other.
+    const tech = await signIn('tech@fernhollow.example');
+    const open = (await body(await listCaptures(request('/api/captures?status=open', { cookie: tech }), undefined))).captures;
+    expect(open.map((c: { id: string }) => c.id)).toEqual(expect.arrayContaining(captures.map((c) => c.id)));
+    const typed = await transcribe(
+      request('/api/captures/x/transcribe', { cookie: tech, body: { analyte: 'cCRP', value: '12.5', unit: 'mg/L', measuredAt: '2026-12-01T10:15:00+00:00' } }),
+      params({ captureId: captures[0].id }),
+    );
+    expect(typed.status).toBe(201);
+    const [reading] = await database.db.select().from(readings).where(eq(readings.id, (await body(typed)).readingId));
+    expect(reading).toMatchObject({ bridgeId: null, captureImportId: done.id, status: 'unassigned', flags: ['transcribed'] });
   });
 
   it('refuses with a clear 4xx: too large (413), empty, no instrument, unknown instrument, not an administrator, not multipart', async () => {
