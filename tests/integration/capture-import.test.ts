@@ -205,6 +205,12 @@ describe('capture-file import', () => {
     expect(tooBig.status).toBe(413);
     expect((await body(tooBig)).error).toMatchObject({ code: 'file_too_large', issues: [{ path: 'file' }] });
 
+    // Under 2 MB but more slips than one import takes.
+    const slips = Array.from({ length: CAPTURE_IMPORT_LIMITS.maxRecords + 1 }, (_, i) => `---- RESULT ----\r\nTEST      cCRP\r\nRESULT    ${(i % 90) + 5}.1 mg/L\r\nSAMPLE    B-${i}\r\n---- END ----\r\n`).join('');
+    const many = await upload({ step: 'preview', instrumentId: crpReader.id }, Buffer.from(slips, 'latin1'));
+    expect(many.status).toBe(413);
+    expect((await body(many)).error.code).toBe('too_many_records');
+
     const empty = await upload({ step: 'preview', instrumentId: chemistry.id }, new Uint8Array(0));
     expect(empty.status).toBe(400);
     expect((await body(empty)).error.code).toBe('empty_file');
