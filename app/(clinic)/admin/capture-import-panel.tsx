@@ -91,7 +91,7 @@ export function CaptureImportPanel() {
     <Panel
       id="capture-import"
       title="Import a capture file"
-      intro="Bytes recorded from an analyzer’s line (the bridge’s capture log, or another recorder), at most 2 MB. They are read as the bridge reads that instrument; readings and unparsed parts go to Intake for a person to place. Nothing is written until you confirm."
+      intro="Bytes recorded from an analyzer’s line (the bridge’s capture log, or another recorder), at most 2 MB and 2000 readings. They are read as the bridge reads that instrument; readings and unparsed parts go to Intake for a person to place. Nothing is written until you confirm."
     >
       {message && (
         <div className="mb-3 whitespace-pre-line">
