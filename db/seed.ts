@@ -25,6 +25,7 @@ import { installClinicalDefaults } from '@/lib/clinical/install';
 import { DEMO_QUALITY_TESTS, seedLabQuality } from './seed-quality';
 import { DEFAULT_PROTOCOLS } from '@/lib/clinical/defaults';
 import { dueAt } from '@/lib/clinical/protocols';
+import { formatResult } from '@/lib/format';
 import { hashPassword } from '@/lib/auth/password';
 import { newBridgeToken } from '@/lib/auth/tokens';
 
@@ -319,7 +320,8 @@ export async function seedDemoClinic(db: Db): Promise<{ clinicId: string; bridge
     ];
     for (const [i, c] of CRITICAL.entries()) {
       const at = new Date(Date.now() - c.hoursAgo * 3_600_000);
-      const printed = `${c.comparator ?? ''}${c.value.toFixed(1)} mg/L`;
+      // Printed as the reader prints it (a measuring limit without decimals) and shown by the one formatter.
+      const printed = formatResult({ value: c.value, comparator: c.comparator ?? null, unit: 'mg/L' }, 1);
       const [specimen] = await tx
         .insert(specimens)
         .values({ clinicId: clinic.id, instrumentId: crpReader.id, instrumentCode: DEMO_CRP_INSTRUMENT, receivedAt: at })
@@ -338,6 +340,7 @@ export async function seedDemoClinic(db: Db): Promise<{ clinicId: string; bridge
           value: c.value,
           comparator: c.comparator,
           unit: 'mg/L',
+          valueDecimals: 1,
           measuredAt: at,
           receivedAt: at,
           raw: `(demo history) RESULT    ${printed}\n`,

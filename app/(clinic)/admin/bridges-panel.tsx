@@ -60,7 +60,8 @@ export function BridgesPanel() {
           <button type="button" className={`${buttonClass.quiet} mt-2`} onClick={() => setIssued(null)}>I have stored it</button>
         </div>
       )}
-      <table className="mb-5 min-w-full divide-y divide-ink-100 text-sm">
+      <div className="mb-5 overflow-x-auto">
+      <table className="min-w-full divide-y divide-ink-100 text-sm">
         <thead>
           <tr>
             <th scope="col" className={th}>Name</th>
@@ -86,6 +87,7 @@ export function BridgesPanel() {
           ))}
         </tbody>
       </table>
+      </div>
       <form onSubmit={create} noValidate className="flex flex-wrap items-end gap-3">
         <div className="w-72">
           <Field id="bridge-name" label="New bridge name" error={formState.errors.name?.message}>

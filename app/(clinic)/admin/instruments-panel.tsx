@@ -152,7 +152,8 @@ export function InstrumentsPanel() {
   return (
     <Panel id="instruments" title="Instruments" intro="Each analyzer on the bench: how the bridge reaches it, how to read what it sends, and which tests it runs.">
       {message && <div className="mb-3"><Notice tone={message.tone}>{message.text}</Notice></div>}
-      <table className="mb-5 min-w-full divide-y divide-ink-100 text-sm">
+      <div className="mb-5 overflow-x-auto">
+      <table className="min-w-full divide-y divide-ink-100 text-sm">
         <thead>
           <tr>
             <th scope="col" className={th}>Name</th>
@@ -185,6 +186,7 @@ export function InstrumentsPanel() {
           ))}
         </tbody>
       </table>
+      </div>
       {service && <ServiceDialog instrument={service} onClose={(changed) => { setService(null); if (changed) void mutate(); }} />}
       <form onSubmit={add} noValidate className="space-y-3" aria-label={editing ? `Edit ${editing.name}` : 'Add an instrument'}>
         {editing && <p className="text-sm font-semibold">Editing {editing.name} <span className="font-mono font-normal">({editing.code})</span></p>}

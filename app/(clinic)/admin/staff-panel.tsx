@@ -53,7 +53,8 @@ export function StaffPanel({ selfId }: { selfId: string }) {
   return (
     <Panel id="staff" title="Staff" intro="Everyone who signs in. Roles decide what each person may do; deactivated staff cannot sign in.">
       {message && <div className="mb-3"><Notice tone={message.tone}>{message.text}</Notice></div>}
-      <table className="mb-5 min-w-full divide-y divide-ink-100 text-sm">
+      <div className="mb-5 overflow-x-auto">
+      <table className="min-w-full divide-y divide-ink-100 text-sm">
         <thead>
           <tr>
             <th scope="col" className={th}>Name</th>
@@ -104,6 +105,7 @@ export function StaffPanel({ selfId }: { selfId: string }) {
           ))}
         </tbody>
       </table>
+      </div>
       {pending?.kind === 'deactivate' && (
         <ConfirmDialog
           title={`Deactivate ${pending.person.displayName}?`}

@@ -161,8 +161,8 @@ export function ReviewBoard({ role }: { role: StaffRole }) {
           </form>
         )}
         {unreviewed.data && unreviewed.data.results.length > 0 && (
-          <div className="overflow-x-auto rounded-lg border border-ink-100 bg-white shadow-sm">
-            <table className="min-w-full divide-y divide-ink-100 text-sm" data-testid="unreviewed-results">
+          <div className="relative overflow-x-auto rounded-lg border border-ink-100 bg-white shadow-sm">
+            <table className="cards-on-phone min-w-full divide-y divide-ink-100 text-sm" data-testid="unreviewed-results">
               <thead className="bg-paper-deep/60 text-left text-xs uppercase tracking-wide text-ink-700">
                 <tr>
                   {canSign && (
@@ -201,14 +201,14 @@ export function ReviewBoard({ role }: { role: StaffRole }) {
                         />
                       </td>
                     )}
-                    <td className="px-4 py-2">
+                    <td data-label="Patient" className="px-4 py-2">
                       <Link href={`/patients/${r.patientId}`} className="font-medium underline-offset-2 hover:underline">
                         {r.patientName}
                       </Link>{' '}
                       <span className="font-mono text-xs">{r.patientRecordNumber}</span>
                     </td>
-                    <td className="px-4 py-2">{r.analyte}</td>
-                    <td className="px-4 py-2 font-mono font-semibold">
+                    <td data-label="Test" className="px-4 py-2">{r.analyte}</td>
+                    <td data-label="Result" className="px-4 py-2 font-mono font-semibold">
                       {r.qualitative ? r.qualitative.label : formatMeasured(r.display, r.decimals)}
                       {r.band && (
                         <span className="block font-sans text-xs font-normal text-ink-700">
@@ -217,12 +217,12 @@ export function ReviewBoard({ role }: { role: StaffRole }) {
                         </span>
                       )}
                     </td>
-                    <td className="px-4 py-2 text-xs" title={[r.flag?.text, r.analyzerFlag?.text, r.qualitative?.basis].filter(Boolean).join(' · ')} data-testid="review-flag">
+                    <td data-label="Flag" className="px-4 py-2 text-xs" title={[r.flag?.text, r.analyzerFlag?.text, r.qualitative?.basis].filter(Boolean).join(' · ')} data-testid="review-flag">
                       {r.flag ? `${FLAG_CODE[r.flag.flag]}${r.flag.certain ? '' : '?'}` : r.qualitative ? (r.qualitative.abnormal === null ? 'not interpreted' : r.qualitative.abnormal ? 'Abnormal' : 'Normal') : r.analyzerFlag ? '' : '—'}
                       {r.analyzerFlag && <span className="ml-1 text-alarm-700">analyzer: {r.analyzerFlag.codes.join(', ')}</span>}
                     </td>
-                    <td className="whitespace-nowrap px-4 py-2">{formatDateTime(r.measuredAt ?? r.receivedAt)}</td>
-                    <td className="px-4 py-2">{r.attendingVetName ?? '—'}</td>
+                    <td data-label="Measured" className="whitespace-nowrap px-4 py-2">{formatDateTime(r.measuredAt ?? r.receivedAt)}</td>
+                    <td data-label="Attending" className="px-4 py-2">{r.attendingVetName ?? '—'}</td>
                     {canSign && (
                       <td className="px-4 py-2 text-right">
                         <button

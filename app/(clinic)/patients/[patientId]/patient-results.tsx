@@ -1,7 +1,7 @@
 'use client';
 import dynamic from 'next/dynamic';
 import { Fragment, useState } from 'react';
-import useSWR from 'swr';
+import useSWR, { useSWRConfig } from 'swr';
 import { Notice } from '@/app/components/ui';
 import { fetcher } from '@/lib/client/fetcher';
 import type { patientChart } from '@/lib/clinical/chart';
@@ -88,7 +88,8 @@ export function FlagBadge({ result }: { result: ChartResult }) {
 
 export function PatientResults({ patientId, patientName }: { patientId: string; patientName?: string }) {
   // The live feed revalidates this key whenever a result on this patient changes.
-  const { data, error } = useSWR<{ results: ChartResult[]; analytes: Record<string, ChartAnalyte> }>(`/api/patients/${patientId}/results`, fetcher);
+  const { data, error, mutate } = useSWR<{ results: ChartResult[]; analytes: Record<string, ChartAnalyte> }>(`/api/patients/${patientId}/results`, fetcher);
+  const { mutate: revalidate } = useSWRConfig();
   const [open, setOpen] = useState<string | null>(null);
   const analytes = Object.values(data?.analytes ?? {});
   return (
@@ -194,7 +195,12 @@ export function PatientResults({ patientId, patientName }: { patientId: string; 
                               patientId={patientId}
                               patientName={patientName ?? ''}
                               panel={r.specimenId ? data.results.filter((x) => x.specimenId === r.specimenId) : [r]}
-                              onMoved={() => setOpen(null)}
+                              onMoved={() => {
+                                // Refetch now rather than on the live event, so the moved result never lingers here.
+                                setOpen(null);
+                                void mutate();
+                                void revalidate(`/api/patients/${patientId}/history`);
+                              }}
                             />
                           </td>
                         </tr>
