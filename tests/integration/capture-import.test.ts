@@ -1,8 +1,10 @@
 import { createHash, randomUUID } from 'node:crypto';
 import { and, eq, isNotNull } from 'drizzle-orm';
 import { beforeAll, describe, expect, it } from 'vitest';
-import { body, ingest, staffByEmail } from './support';
+import { body, ingest, patientByRecord, staffByEmail } from './support';
 import * as importRoute from '@/app/api/admin/capture-imports/route';
+import * as adminClinical from '@/app/api/admin/clinical/route';
+import * as orders from '@/app/api/orders/route';
 import * as waiting from '@/app/api/readings/waiting/route';
 import { POST as transcribe } from '@/app/api/captures/[captureId]/transcribe/route';
 import { GET as listCaptures } from '@/app/api/captures/route';
@@ -231,5 +233,27 @@ describe('capture-file import', () => {
     const list = await body(await importRoute.GET(request('/api/admin/capture-imports', { cookie: admin }), undefined));
     expect(list.imports.length).toBeGreaterThanOrEqual(4);
     expect(list.imports.find((i: { fileName: string }) => i.fileName === 'chem-2026-12-01.log')).toMatchObject({ instrumentCode: chemistry.code, readingsAdded: 2, capturesAdded: 1 });
+  });
+
+  it('never places an imported reading on a patient, even with the exact-ID rule on and a test waiting for that tube', async () => {
+    expect((await adminClinical.PATCH(request('/api/admin/clinical', { method: 'PATCH', cookie: admin, body: { autoAssignExactId: true } }), undefined)).status).toBe(200);
+    const tech = await signIn('tech@fernhollow.example');
+    const juniper = await patientByRecord(database.db, clinicId, 'FH-1002');
+    const vet = await staffByEmail(database.db, 'vet@fernhollow.example');
+    const slip = (sample: string) => `---- RESULT ----\r\nTEST      cCRP\r\nRESULT    18.2 mg/L\r\nSAMPLE    ${sample}\r\n---- END ----\r\n`;
+    const started = await orders.POST(
+      request('/api/orders', { cookie: tech, body: { analyte: 'cCRP', sampleType: 'whole_blood', orderedBy: vet.id, patientId: juniper.id, instrumentId: crpReader.id, sampleId: 'T-9301', startedAt: new Date(Date.now() - 725_000).toISOString() } }),
+      undefined,
+    );
+    expect(started.status).toBe(201);
+    const done = await body(await upload({ step: 'confirm', instrumentId: crpReader.id }, Buffer.from(slip('T-9301'), 'latin1')));
+    expect(done.summary.readingsNew).toBe(1);
+    const [imported] = await database.db.select().from(readings).where(eq(readings.captureImportId, done.id));
+    expect(imported).toMatchObject({ sampleId: 'T-9301', status: 'unassigned', patientId: null });
+    // The same slip from the bridge is placed by the rule: it is on, and the test is still open.
+    const [fromBridge] = await readCaptureBytes(getDialect('plain-printout'), Buffer.from(slip('T-9301'), 'latin1'), 'point');
+    const sent = await body(await ingest(bridgeToken, [{ key: randomUUID(), instrument: crpReader.code, receivedAt: new Date().toISOString(), payload: fromBridge }]));
+    const [placed] = await database.db.select().from(readings).where(eq(readings.id, sent.results[0].id));
+    expect(placed).toMatchObject({ status: 'assigned', patientId: juniper.id });
   });
 });
