@@ -4,7 +4,7 @@ import { db } from '@/db/client';
 import { clinics } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { patientChart } from '@/lib/clinical/chart';
-import { formatMeasured } from '@/lib/clinical/evaluate';
+import { formatMeasured, qualitativeFlag } from '@/lib/clinical/evaluate';
 import { FLAG_CODE } from '@/lib/clinical/flags';
 import { formatValue } from '@/lib/format';
 import { ApiError } from '@/lib/http';
@@ -91,7 +91,7 @@ export async function reportData(actor: Actor, patientId: string, visitDate?: st
         value: shown(r),
         unit: q ? null : r.clinical.display.unit,
         interval: q ? (r.instrumentRange ? `${r.instrumentRange} (analyzer)` : 'n/a') : interval,
-        flag: q ? (q.abnormal === null ? null : q.abnormal ? 'A' : 'N') : r.clinical.flag ? `${FLAG_CODE[r.clinical.flag.flag]}${r.clinical.flag.certain ? '' : '?'}` : null,
+        flag: q ? qualitativeFlag(q) : r.clinical.flag ? `${FLAG_CODE[r.clinical.flag.flag]}${r.clinical.flag.certain ? '' : '?'}` : null,
         flagText: q ? q.basis : (r.clinical.flag?.text ?? null),
         notes: r.notes ?? [],
         measuredAt: at,

@@ -5,7 +5,7 @@ import { clinics, instruments, patients, readings, resultAssignments, resultRevi
 import { recordAudit } from '@/lib/audit';
 import type { Actor } from '@/lib/auth/guards';
 import { analyteContexts, intervalContexts } from '@/lib/clinical/config';
-import { evaluateResult } from '@/lib/clinical/evaluate';
+import { evaluateResult, qualitativeFlag } from '@/lib/clinical/evaluate';
 import { FLAG_CODE } from '@/lib/clinical/flags';
 import { toCsv } from '@/lib/csv';
 import { ApiError, notFound } from '@/lib/http';
@@ -126,7 +126,7 @@ export async function exportResultsCsv(actor: Actor, query: ExportQuery) {
       e.display.comparator,
       e.display.unit,
       // A coded or text result: A (abnormal) or N (normal) when the analyzer's flag or the clinic's rule says.
-      e.flag ? `${FLAG_CODE[e.flag.flag]}${e.flag.certain ? '' : '?'}` : e.qualitative?.abnormal == null ? null : e.qualitative.abnormal ? 'A' : 'N',
+      e.flag ? `${FLAG_CODE[e.flag.flag]}${e.flag.certain ? '' : '?'}` : qualitativeFlag(e.qualitative),
       interval.low,
       interval.high,
       new Date(r.measuredAt ?? r.receivedAt).toISOString(),
