@@ -5,6 +5,9 @@ import { body, ingest, patientByRecord, staffByEmail } from './support';
 import * as importRoute from '@/app/api/admin/capture-imports/route';
 import * as adminClinical from '@/app/api/admin/clinical/route';
 import * as orders from '@/app/api/orders/route';
+import { POST as addInstrument } from '@/app/api/admin/instruments/route';
+import { POST as createProfile } from '@/app/api/admin/profiles/route';
+import { POST as reviseProfile } from '@/app/api/admin/profiles/[profileKey]/versions/route';
 import * as waiting from '@/app/api/readings/waiting/route';
 import { POST as transcribe } from '@/app/api/captures/[captureId]/transcribe/route';
 import { GET as listCaptures } from '@/app/api/captures/route';
@@ -255,5 +258,39 @@ describe('capture-file import', () => {
     const sent = await body(await ingest(bridgeToken, [{ key: randomUUID(), instrument: crpReader.code, receivedAt: new Date().toISOString(), payload: fromBridge }]));
     const [placed] = await database.db.select().from(readings).where(eq(readings.id, sent.results[0].id));
     expect(placed).toMatchObject({ status: 'assigned', patientId: juniper.id });
+  });
+
+  it('reads a profile-read instrument with its printout profile’s latest version, as the bridge does', async () => {
+    // An invented electrolyte printer (as in tests/integration/profiles.test.ts): decimal commas, one line per test.
+    const slip = ['*** ELECTROLYTES ***', 'ID: S-204', 'Na   145,2 mmol/L', 'K    4,1 mmol/L', 'Cl   <80 mmol/L', '01/12/2026 14:05', '*** END ***', 'PAPER LOW', ''].join('\r\n');
+    const definition = (tests: string) => ({
+      analyzer: 'Electrolyte printer (bench 3)',
+      record: { start: '^\\*\\*\\* ELECTROLYTES', end: '^\\*\\*\\* END' },
+      fields: [
+        { label: 'Sample', pattern: '^ID:\\s*(?<sampleId>\\S+)' },
+        { label: 'Result', pattern: `^(?<analyte>${tests})\\s+(?<comparator>[<>])?(?<value>[0-9.,]+)\\s+(?<unit>\\S+)`, repeats: true, required: true },
+        { label: 'Printed at', pattern: '^(?<date>\\d\\d/\\d\\d/\\d{4}) (?<time>\\d\\d:\\d\\d)' },
+      ],
+      decimalComma: true,
+      dateFormat: 'DD/MM/YYYY',
+      timeFormat: 'HH:mm',
+    });
+    const created = await createProfile(request('/api/admin/profiles', { cookie: admin, body: { name: 'Electrolytes', definition: definition('Na|K') } }), undefined);
+    expect(created.status).toBe(201);
+    const { profile } = await body(created);
+    const revised = await reviseProfile(request('/api/admin/profiles/x/versions', { cookie: admin, body: { name: 'Electrolytes', definition: definition('Na|K|Cl') } }), params({ profileKey: profile.key }));
+    expect((await body(revised)).profile.version).toBe(2);
+    const added = await addInstrument(request('/api/admin/instruments', { cookie: admin, body: { code: 'lyte-printer', name: 'Electrolyte printer', analytes: ['Na', 'K', 'Cl'], dialect: 'profile', profileId: profile.key } }), undefined);
+    expect(added.status).toBe(201);
+    const { instrument } = await body(added);
+    const preview = await body(await upload({ step: 'preview', instrumentId: instrument.id }, Buffer.from(slip, 'latin1')));
+    expect(preview.readWith).toEqual({ dialect: 'profile', profileKey: profile.key, profileVersion: 2 });
+    expect(preview.items.filter((i: { kind: string }) => i.kind === 'reading')).toEqual([
+      expect.objectContaining({ analyte: 'Na', value: 145.2, sampleId: 'S-204' }),
+      expect.objectContaining({ analyte: 'K', value: 4.1 }),
+      expect.objectContaining({ analyte: 'Cl', value: 80, comparator: '<' }),
+    ]);
+    // The printer's other text is kept for a person to read.
+    expect(preview.items.filter((i: { kind: string }) => i.kind === 'unparsed').map((i: { raw: string }) => i.raw).join('')).toContain('PAPER LOW');
   });
 });
