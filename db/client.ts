@@ -1,4 +1,5 @@
 import 'server-only';
+import { execFileSync } from 'node:child_process';
 import fs from 'node:fs';
 import path from 'node:path';
 import { PGlite } from '@electric-sql/pglite';
@@ -52,9 +53,12 @@ const MIGRATIONS = path.join(/*turbopackIgnore: true*/ process.cwd(), 'db', 'mig
  * the committed migrations. PGlite allows one process per data directory (openDataDir locks it).
  */
 export async function openDatabase(dir?: string): Promise<Database> {
-  if (dir) fs.mkdirSync(dir, { recursive: true, mode: 0o700 });
+  if (dir) {
+    fs.mkdirSync(dir, { recursive: true, mode: 0o700 });
+    initDataDirApart(dir);
+  }
   // pg_trgm: substring search (patient names, record numbers, owners) through trigram indexes.
-  const pg = await PGlite.create(dir, { extensions: { pg_trgm } });
+  const pg = await PGlite.create(dir, { extensions: { pg_trgm }, startParams: [...PGlite.defaultStartParams, '-c', `shared_buffers=${sharedBuffers()}`] });
   const db = drizzle({ client: pg, schema, casing: 'snake_case' });
   await migrate(db, { migrationsFolder: MIGRATIONS });
   const sync = dir ? durableSyncer(dir) : null;
@@ -67,6 +71,28 @@ export async function openDatabase(dir?: string): Promise<Database> {
     durable: () => (sync ? sync() : Promise.resolve()),
     close: () => pg.close(),
   };
+}
+
+/**
+ * PostgreSQL's buffer cache inside PGlite's WebAssembly memory, which is never given back to the OS.
+ * Its default (128MB, from initdb) is most of an idle server's memory; the OS page cache keeps the
+ * data files warm anyway. PGLITE_SHARED_BUFFERS (e.g. 128MB) trades memory for fewer page reads.
+ */
+function sharedBuffers(): string {
+  const value = process.env.PGLITE_SHARED_BUFFERS?.trim() || '32MB';
+  if (!/^\d+(kB|MB|GB)$/.test(value)) throw new Error(`PGLITE_SHARED_BUFFERS must be a size such as 32MB (got "${value}")`);
+  return value;
+}
+
+/**
+ * A new data directory is made (initdb) in a short-lived child process: initdb needs about 850 MB of
+ * WebAssembly memory, which a process keeps until it exits, so doing it here would leave the server
+ * that large for good. An existing directory (PG_VERSION present) is opened as it is.
+ */
+function initDataDirApart(dir: string) {
+  if (fs.existsSync(path.join(dir, 'PG_VERSION'))) return;
+  const script = "import { PGlite } from '@electric-sql/pglite'; const pg = await PGlite.create(process.argv[1]); await pg.close();";
+  execFileSync(process.execPath, ['--input-type=module', '-e', script, dir], { cwd: process.cwd(), stdio: ['ignore', 'ignore', 'inherit'] });
 }
 
 /** Migrations on a server: one instance at a time (others starting together wait), under an advisory lock. */

@@ -30,6 +30,8 @@ export async function applyQualityOnIngest(
   tx: Tx,
   row: Reading,
   payload: { specimenRole?: 'patient' | 'control'; controlLevel?: string },
+  /** The administrator who imported it from a capture file (no bridge sent it). */
+  importedBy?: string,
 ): Promise<Reading> {
   const { timeZone, settings } = await clinicClock(tx, row.clinicId);
   const control = payload.specimenRole === 'control' || isQcSampleId(row.sampleId, settings.qcSampleIdPattern);
@@ -53,7 +55,7 @@ export async function applyQualityOnIngest(
   if (control) {
     await recordAudit(tx, {
       clinicId: row.clinicId,
-      actorBridgeId: row.bridgeId,
+      ...(importedBy ? { actorUserId: importedBy } : { actorBridgeId: row.bridgeId }),
       action: 'reading.marked-control',
       entityType: 'reading',
       entityId: row.id,
