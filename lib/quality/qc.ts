@@ -21,9 +21,10 @@ export interface QcReadingRow {
 }
 
 /** QC readings that name a material and have a number, oldest first. */
-export async function qcReadings(tx: Executor, clinicId: string, filter: { analyte?: string; instrumentId?: string | null } = {}) {
+export async function qcReadings(tx: Executor, clinicId: string, filter: { analyte?: string; analytes?: readonly string[]; instrumentId?: string | null } = {}) {
   const conditions = [eq(readings.clinicId, clinicId), eq(readings.status, 'control')];
   if (filter.analyte) conditions.push(eq(readings.analyte, filter.analyte));
+  if (filter.analytes) conditions.push(inArray(readings.analyte, [...filter.analytes]));
   if (filter.instrumentId !== undefined) {
     conditions.push(filter.instrumentId === null ? isNull(readings.instrumentId) : eq(readings.instrumentId, filter.instrumentId));
   }
@@ -60,7 +61,9 @@ export function evaluateGroups(rows: QcReadingRow[]): QcGroup[] {
   const groups = new Map<string, QcReadingRow[]>();
   for (const row of rows) {
     const key = `${row.analyte}|${row.instrumentId ?? ''}`;
-    groups.set(key, [...(groups.get(key) ?? []), row]);
+    const list = groups.get(key);
+    if (list) list.push(row);
+    else groups.set(key, [row]);
   }
   return [...groups.entries()].map(([key, list]) => {
     // A material is one level; two lots of "level 1" are two materials, so the material id is the level key.

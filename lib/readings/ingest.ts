@@ -1,18 +1,26 @@
 import 'server-only';
+import { randomUUID } from 'node:crypto';
 import { and, eq, inArray, sql } from 'drizzle-orm';
 import { getDatabase, type Tx } from '@/db/client';
-import { bridges, instruments, readings, unparsedCaptures, type Bridge } from '@/db/schema';
+import { bridges, instruments, readings, unparsedCaptures, type Bridge, type Reading } from '@/db/schema';
+import { insertJsonRows } from '@/lib/bulk-insert';
 import { recordAudits, type AuditEntry } from '@/lib/audit';
 import { publishBatch } from '@/lib/live/bus';
 import type { BridgeBatch, BridgeBatchResult, BridgeRecord } from '@/lib/validation/readings';
 import { autoAssignBatchOnIngest } from './suggestions';
-import { applyQualityOnIngest } from '@/lib/quality/ingest-step';
-import { specimenFor } from './specimens';
+import { decideQuality, NO_QUALITY, qualityColumnsOnArrival, recordQuality, type QualityDecision } from '@/lib/quality/ingest-step';
+import { specimensFor } from './specimens';
 import { unitsOnArrival } from './instrument-units';
 
-/** PostgreSQL text cannot hold U+0000, which line noise often sends; keep it visible as ␀ (U+2400) instead. */
+// Half of a UTF-16 pair without its other half: no character, and a JSON document holding one is refused.
+const LONE_SURROGATE = /[\uD800-\uDBFF](?![\uDC00-\uDFFF])|(?<![\uD800-\uDBFF])[\uDC00-\uDFFF]/g;
+
+/**
+ * PostgreSQL text cannot hold U+0000, which line noise often sends; keep it visible as ␀ (U+2400) instead.
+ * A lone UTF-16 surrogate becomes U+FFFD, as writing it out as UTF-8 would make it anyway.
+ */
 export function storable<T>(value: T): T {
-  if (typeof value === 'string') return value.replaceAll('\u0000', '\u2400') as T;
+  if (typeof value === 'string') return value.replaceAll('\u0000', '\u2400').replace(LONE_SURROGATE, '\uFFFD') as T;
   if (Array.isArray(value)) return value.map(storable) as T;
   if (value && typeof value === 'object') {
     return Object.fromEntries(Object.entries(value).map(([k, v]) => [k, storable(v)])) as T;
@@ -65,75 +73,85 @@ export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promis
     const readingRecords = batch.records.filter((r): r is ReadingRecord => r.payload.kind === 'reading');
     const captureRecords = batch.records.filter((r): r is CaptureRecord => r.payload.kind === 'unparsed');
 
-    // The readings of one sample (same instrument and sample ID, or one message) share a specimen. Records
-    // this bridge already sent keep theirs; within the batch, one message's readings share one lookup.
+    // Records this bridge already sent are not stored again, nor is a key sent twice in this batch.
     const alreadyStored = await storedIds(tx, readings, bridge.id, readingRecords.map((r) => r.key));
-    const specimenByRecord = new Map<string, string>();
-    const specimenInBatch = new Map<string, string>();
-    for (const record of readingRecords) {
-      if (alreadyStored.has(record.key)) continue;
-      const p = record.payload;
-      const measuredAt = p.measuredAt ? new Date(p.measuredAt) : null;
-      const sameSample = `${record.instrument}|${p.sampleId?.trim().toLowerCase() ?? ''}|${p.patientRef?.trim() ?? ''}|${p.sampleId?.trim() ? '' : (measuredAt?.toISOString() ?? record.key)}`;
-      let specimenId = specimenInBatch.get(sameSample);
-      if (!specimenId) {
-        specimenId = await specimenFor(tx, { ...common(record), sampleId: p.sampleId, patientRef: p.patientRef, measuredAt });
-        specimenInBatch.set(sameSample, specimenId);
-      }
-      specimenByRecord.set(record.key, specimenId);
-    }
+    const seen = new Set(alreadyStored.keys());
+    const fresh = readingRecords.filter((r) => !seen.has(r.key) && seen.add(r.key));
+    // Ids made here, so every step below knows each reading's id before the one INSERT stores them all.
+    const ids = fresh.map(() => randomUUID());
+    const measuredAt = fresh.map((r) => (r.payload.measuredAt ? new Date(r.payload.measuredAt) : null));
+
+    // The readings of one sample (same instrument and sample ID, or one message) share a specimen.
+    const specimenIds = await specimensFor(
+      tx,
+      fresh.map((record, i) => ({ ...common(record), sampleId: record.payload.sampleId, patientRef: record.payload.patientRef, measuredAt: measuredAt[i] })),
+    );
 
     // Units UCUM cannot read are listed per instrument; one an administrator has mapped is read as mapped.
     const units = await unitsOnArrival(
       tx,
       bridge.clinicId,
-      readingRecords.filter((r) => !alreadyStored.has(r.key)).map((r) => ({ key: r.key, instrumentId: instrumentByCode.get(r.instrument) ?? null, unit: r.payload.unit })),
+      fresh.map((r) => ({ key: r.key, instrumentId: instrumentByCode.get(r.instrument) ?? null, unit: r.payload.unit })),
+    );
+
+    // Lab quality (QC recognition, kit lot, QC-failed and expiry marks), decided before anything may place a
+    // reading, and stored by the same INSERT.
+    const decisions = await decideQuality(
+      tx,
+      bridge.clinicId,
+      fresh.map((record, i) => {
+        const p = record.payload;
+        return { id: ids[i], instrumentId: instrumentByCode.get(record.instrument) ?? null, analyte: p.analyte, value: p.value, sampleId: p.sampleId, measuredAt: measuredAt[i], receivedAt: new Date(record.receivedAt), specimenRole: p.specimenRole };
+      }),
     );
 
     // Arrival numbers in the order the bridge sent the records (the analyzer's own order), drawn from the
     // column's sequence and handed out sorted, so a panel lists its tests as the analyzer printed them.
-    const arrivals = readingRecords.length
+    const arrivals = fresh.length
       ? (
           await tx.execute<{ n: string }>(
-            sql`select nextval(pg_get_serial_sequence('readings', 'arrival')) as n from generate_series(1, ${readingRecords.length})`,
+            sql`select nextval(pg_get_serial_sequence('readings', 'arrival')) as n from generate_series(1, ${fresh.length})`,
           )
         ).rows
           .map((r) => Number(r.n))
           .sort((a, b) => a - b)
       : [];
-    const createdReadings = readingRecords.length
-      ? await tx
-          .insert(readings)
-          .values(
-            readingRecords.map((record, index) => {
-              const p = record.payload;
-              return {
-                ...common(record),
-                arrival: arrivals[index],
-                valueDecimals: p.value === null ? null : (p.decimals ?? null),
-                specimenId: specimenByRecord.get(record.key) ?? null,
-                instrumentSerial: p.instrumentSerial,
-                instrumentRange: p.referenceRange,
-                resultStatus: p.resultStatus,
-                analyte: p.analyte,
-                value: p.value,
-                // A result is a number, a code or text (lib/validation/readings.ts), with the notes sent beside it.
-                valueCode: p.code,
-                valueText: p.text,
-                notes: p.notes,
-                comparator: p.comparator,
-                unit: units.get(record.key)?.unit ?? p.unit,
-                printedUnit: units.get(record.key)?.printedUnit ?? null,
-                flags: p.flags,
-                sampleId: p.sampleId,
-                patientRef: p.patientRef,
-                measuredAt: p.measuredAt ? new Date(p.measuredAt) : null,
-              };
-            }),
-          )
-          .onConflictDoNothing({ target: [readings.bridgeId, readings.idempotencyKey] })
-          .returning()
-      : [];
+    // Every column set on every row (the JSON insert leaves none to a default).
+    const readingRows = fresh.map((record, index) => {
+      const p = record.payload;
+      const unit = units.get(record.key);
+      return {
+        ...common(record),
+        id: ids[index],
+        arrival: arrivals[index],
+        valueDecimals: p.value === null ? null : (p.decimals ?? null),
+        specimenId: specimenIds[index],
+        ...qualityColumnsOnArrival(decisions[index]),
+        instrumentSerial: p.instrumentSerial ?? null,
+        instrumentRange: p.referenceRange ?? null,
+        resultStatus: p.resultStatus ?? null,
+        analyte: p.analyte,
+        value: p.value,
+        // A result is a number, a code or text (lib/validation/readings.ts), with the notes sent beside it.
+        valueCode: p.code ?? null,
+        valueText: p.text ?? null,
+        notes: p.notes ?? [],
+        comparator: p.comparator ?? null,
+        unit: unit?.unit ?? p.unit ?? null,
+        printedUnit: unit?.printedUnit ?? null,
+        flags: p.flags ?? [],
+        sampleId: p.sampleId ?? null,
+        patientRef: p.patientRef ?? null,
+        measuredAt: measuredAt[index],
+      };
+    });
+    // As one JSON document rather than 5,000 parameters (lib/bulk-insert.ts).
+    const createdReadings = await insertJsonRows<typeof readings, Pick<Reading, 'id' | 'idempotencyKey'>>(
+      tx,
+      readings,
+      readingRows,
+      sql`on conflict (bridge_id, idempotency_key) do nothing returning id, idempotency_key as "idempotencyKey"`,
+    );
     const createdCaptures = captureRecords.length
       ? await tx
           .insert(unparsedCaptures)
@@ -144,7 +162,11 @@ export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promis
 
     const newReading = new Map(createdReadings.map((r) => [r.idempotencyKey, r.id]));
     const newCapture = new Map(createdCaptures.map((r) => [r.key, r.id]));
-    const earlierReadings = await storedIds(tx, readings, bridge.id, readingRecords.filter((r) => !newReading.has(r.key)).map((r) => r.key));
+    // Stored before (found above), or by another upload of the same records while this one ran.
+    const earlierReadings = new Map([
+      ...alreadyStored,
+      ...(await storedIds(tx, readings, bridge.id, readingRecords.filter((r) => !newReading.has(r.key) && !alreadyStored.has(r.key)).map((r) => r.key))),
+    ]);
     const earlierCaptures = await storedIds(tx, unparsedCaptures, bridge.id, captureRecords.filter((r) => !newCapture.has(r.key)).map((r) => r.key));
 
     // In the batch's order; a key sent twice in one batch is created once and a duplicate after that.
@@ -178,12 +200,14 @@ export async function ingestBatch(bridge: Bridge, received: BridgeBatch): Promis
     await recordAudits(tx, audits);
     await publishBatch(tx, { type: 'reading.created', clinicId: bridge.clinicId }, createdReadings.map((r) => r.id));
     await publishBatch(tx, { type: 'capture.created', clinicId: bridge.clinicId }, createdCaptures.map((r) => r.id));
-    // Lab quality (QC recognition, kit lot, QC-failed mark): a separate step, before anything may place a reading.
-    const payloadByKey = new Map(readingRecords.map((r) => [r.key, r.payload]));
-    const checked = [];
-    for (const row of createdReadings) checked.push(await applyQualityOnIngest(tx, row, payloadByKey.get(row.idempotencyKey) ?? {}));
+    const decisionById = new Map<string, QualityDecision>(ids.map((id, i) => [id, decisions[i]]));
+    await recordQuality(tx, { clinicId: bridge.clinicId, bridgeId: bridge.id }, createdReadings.map((reading) => ({ reading, decision: decisionById.get(reading.id) ?? NO_QUALITY })));
     // Only the clinic's opt-in exact-ID rule may place a reading without a person; off by default.
-    await autoAssignBatchOnIngest(tx, bridge, checked.filter((r) => r.status === 'unassigned'));
+    // A control run never goes to a patient; every other new reading waits in Intake.
+    const waiting = fresh.flatMap((record, i) =>
+      newReading.get(record.key) === ids[i] && !decisions[i].control ? [{ id: ids[i], sampleId: record.payload.sampleId, patientRef: record.payload.patientRef }] : [],
+    );
+    await autoAssignBatchOnIngest(tx, bridge, waiting);
 
     await tx.update(bridges).set({ lastSeenAt: new Date() }).where(eq(bridges.id, bridge.id));
     return { results };
