@@ -48,13 +48,27 @@ export interface Database {
 const MIGRATIONS = path.join(/*turbopackIgnore: true*/ process.cwd(), 'db', 'migrations');
 
 /**
+ * PGlite's shared buffers sit inside its WebAssembly heap and are touched at start: PostgreSQL's 128 MB
+ * default was about 130 MB of an idle server's memory. 64 MB gives back about 75 MB with the read paths'
+ * hot pages (recent readings, their indexes) still in it (measured with npm run bench; 32 MB made the
+ * Review list and patient search slower); the rest comes through the OS page cache.
+ * PGLITE_SHARED_BUFFERS (e.g. 128MB) sets it.
+ */
+export function pgliteOptions() {
+  return {
+    // pg_trgm: substring search (patient names, record numbers, owners) through trigram indexes.
+    extensions: { pg_trgm },
+    postgresqlconf: [`shared_buffers = ${process.env.PGLITE_SHARED_BUFFERS?.trim() || '64MB'}`],
+  };
+}
+
+/**
  * Opens embedded PostgreSQL (PGlite) at dir, or in memory when dir is undefined, and applies
  * the committed migrations. PGlite allows one process per data directory (openDataDir locks it).
  */
 export async function openDatabase(dir?: string): Promise<Database> {
   if (dir) fs.mkdirSync(dir, { recursive: true, mode: 0o700 });
-  // pg_trgm: substring search (patient names, record numbers, owners) through trigram indexes.
-  const pg = await PGlite.create(dir, { extensions: { pg_trgm } });
+  const pg = await PGlite.create(dir, pgliteOptions());
   const db = drizzle({ client: pg, schema, casing: 'snake_case' });
   await migrate(db, { migrationsFolder: MIGRATIONS });
   const sync = dir ? durableSyncer(dir) : null;

@@ -3,10 +3,9 @@
 // against a raw multi-row INSERT of the same rows into the same database.
 import { randomUUID } from 'node:crypto';
 import { PGlite } from '@electric-sql/pglite';
-import { pg_trgm } from '@electric-sql/pglite/contrib/pg_trgm';
 import { sql } from 'drizzle-orm';
 import { drizzle } from 'drizzle-orm/pglite';
-import { installDatabase, schema, type Db } from '@/db/client';
+import { installDatabase, pgliteOptions, schema, type Db } from '@/db/client';
 import type { Bridge } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import type { BridgeBatch } from '@/lib/validation/readings';
@@ -116,7 +115,8 @@ export async function rawInsertSameRows(pg: PGlite, ids: { clinicId: string; bri
 }
 
 export async function benchInProcess(report: Report, dataDir: string, batches: number) {
-  const pg = await PGlite.create(`${dataDir}/pgdata`, { extensions: { pg_trgm } });
+  // The server's own PGlite settings (shared buffers), so memory and read times are the server's.
+  const pg = await PGlite.create(`${dataDir}/pgdata`, pgliteOptions());
   const log: Logged[] = [];
   let capturing = false;
   const db = drizzle({ client: pg, schema, casing: 'snake_case', logger: { logQuery: (q, p) => capturing && log.push({ sql: q, params: p }) } });
