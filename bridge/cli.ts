@@ -15,24 +15,29 @@ import { loadProfile, profileDialect } from './dialects/profile';
 import { LINE_ENCODINGS, type LineEncoding } from './framing/lines';
 import { streamLog } from './log';
 import { createParsingStages } from './parse-stage';
-import type { BridgeOptions, InstrumentConfig } from './pipeline';
+import { BRIDGE_VERSION, type BridgeOptions, type InstrumentConfig } from './pipeline';
 import { PARITIES, serialSettingsSchema, type SerialSettings } from './sources/serial';
 import { parseTcpAddress } from './sources/tcp';
 
 export { startBridge } from './pipeline';
 export type { BridgeOptions, RunningBridge } from './pipeline';
 
+// Packed (scripts/bridge-pack.ts) the bridge is started as `node bridge.cjs`, in a checkout through npm.
+const PROGRAM = /\.cjs$/.test(process.argv[1] ?? '') ? 'node bridge.cjs' : 'npm run bridge --';
+
 const USAGE = `Benchwire bridge: analyzer results from a serial line or the network into Benchwire.
 
-Usage: npm run bridge -- <command> [options]
+Usage: ${PROGRAM} <command> [options]
 
 Commands:
   run        read instruments, spool every record, send them to the server
   parse      show what a dialect or printout profile makes of a capture file (nothing is sent)
   simulate   invented analyzers: a CRP slip printer, an ASTM chemistry analyzer, an HL7 hematology analyzer
   ports      list serial ports
+  doctor     check the serial ports, the server, the token, the clock and the spool before a run
+  version    the bridge's version (also --version)
 
-"npm run bridge -- <command> --help" tells more about each.
+"${PROGRAM} <command> --help" tells more about each.
 `;
 
 const SERIAL_HELP = `  --baud N               baud rate (default 9600)
@@ -43,7 +48,7 @@ const SERIAL_HELP = `  --baud N               baud rate (default 9600)
   --xon --xoff           software flow control`;
 
 const HELP: Record<string, string> = {
-  run: `Usage: npm run bridge -- run [options]
+  run: `Usage: ${PROGRAM} run [options]
 
 Instruments from the server (Admin → Instruments), followed without a restart:
   --server URL           Benchwire server (default: $BENCHWIRE_SERVER)
@@ -72,7 +77,7 @@ Every record is on disk before it is sent and stays there until the server confi
 byte received is also kept as sent in SPOOL/capture/CODE/capture.log (rotated, 5 × 10 MB).
 Stop with Ctrl+C (SIGINT) or SIGTERM.
 `,
-  parse: `Usage: npm run bridge -- parse [--dialect NAME | --profile FILE] [--encoding E] [--decimal-mark M] [FILE|-]
+  parse: `Usage: ${PROGRAM} parse [--dialect NAME | --profile FILE] [--encoding E] [--decimal-mark M] [FILE|-]
 
 Reads FILE (or stdin) and prints one JSON object per line: readings, and
 {"kind":"unparsed",...} for text that is not one. Nothing is sent, spooled or answered.
@@ -81,7 +86,7 @@ Reads FILE (or stdin) and prints one JSON object per line: readings, and
   --encoding E           ${LINE_ENCODINGS.join('|')} (default utf8; latin1 for ASTM)
   --decimal-mark M       point|comma: the instrument's number format (default point)
 `,
-  simulate: `Usage: npm run bridge -- simulate [--kind KIND] [options]
+  simulate: `Usage: ${PROGRAM} simulate [--kind KIND] [options]
 
 Invented analyzers (demo and test data only):
   --kind crp-printer     a single-test CRP reader printing text slips (default)
@@ -101,7 +106,18 @@ Where to (crp-printer: default stdout):
   --serial PATH          crp-printer: write to a serial port (e.g. one end of a socat pty pair)
 ${SERIAL_HELP}
 `,
-  ports: `Usage: npm run bridge -- ports [--json]
+  doctor: `Usage: ${PROGRAM} doctor [the options of run]
+
+Checks what \`run\` with the same options needs, one line each, OK or FAIL with what to do:
+the server answers (/api/health), it accepts the token (/api/bridge/config), this PC's clock is
+within 5 s of the server's, the spool directory takes a file and no other bridge uses it, and each
+serial port exists, may be read and written by this user and opens; a tcp:// adapter accepts a
+connection, a tcp-listen:// port is free. Exits 1 if any check fails.
+Run it as the account the bridge runs as (on a service: sudo -u benchwire-bridge …).
+`,
+  version: `Usage: ${PROGRAM} version (or --version)
+`,
+  ports: `Usage: ${PROGRAM} ports [--json]
 
 Lists serial ports. Without udevadm (Linux) the details are unavailable and likely
 device nodes in /dev are listed instead.
@@ -128,6 +144,7 @@ export async function main(argv: string[]): Promise<number> {
       process.stdout.write(USAGE);
       return command ? 0 : 2;
     }
+    if (command === '--version' || command === '-v') return versionCommand();
     if (!(command in HELP)) throw new UsageError(`unknown command "${command}"`);
     if (rest.includes('--help') || rest.includes('-h')) {
       process.stdout.write(HELP[command]);
@@ -142,11 +159,15 @@ export async function main(argv: string[]): Promise<number> {
         return await simulateCommand(rest);
       case 'ports':
         return await portsCommand(rest);
+      case 'doctor':
+        return await doctorCommand(rest);
+      case 'version':
+        return versionCommand();
     }
     return 2;
   } catch (error) {
     if (error instanceof UsageError) {
-      process.stderr.write(`bridge ${command ?? ''}: ${error.message}\n(see npm run bridge -- ${command && command in HELP ? `${command} ` : ''}--help)\n`);
+      process.stderr.write(`bridge ${command ?? ''}: ${error.message}\n(see ${PROGRAM} ${command && command in HELP ? `${command} ` : ''}--help)\n`);
       return 2;
     }
     process.stderr.write(`bridge ${command}: ${error instanceof Error ? error.message : String(error)}\n`);
@@ -203,20 +224,22 @@ function serialSettingsOf(values: Values): Partial<SerialSettings> {
   return Object.fromEntries(Object.keys(given).map((key) => [key, (parsed.data as Record<string, unknown>)[key]]));
 }
 
+const RUN_OPTIONS = {
+  config: { type: 'string' },
+  'config-from-server': { type: 'boolean' },
+  server: { type: 'string' },
+  token: { type: 'string' },
+  instrument: { type: 'string' },
+  source: { type: 'string' },
+  dialect: { type: 'string' },
+  profile: { type: 'string' },
+  encoding: { type: 'string' },
+  spool: { type: 'string' },
+  ...SERIAL_OPTIONS,
+} as const satisfies ParseArgsConfig['options'];
+
 async function runCommand(args: string[]): Promise<number> {
-  const { values } = parseFlags(args, {
-    config: { type: 'string' },
-    'config-from-server': { type: 'boolean' },
-    server: { type: 'string' },
-    token: { type: 'string' },
-    instrument: { type: 'string' },
-    source: { type: 'string' },
-    dialect: { type: 'string' },
-    profile: { type: 'string' },
-    encoding: { type: 'string' },
-    spool: { type: 'string' },
-    ...SERIAL_OPTIONS,
-  });
+  const { values } = parseFlags(args, RUN_OPTIONS);
   const options = await runOptions(values, process.env);
   checkBridgeOptions(options);
   // Spool, capture log and saved config hold patient data: owner-only (0700 directories, 0600 files).
@@ -398,6 +421,20 @@ async function simulateCommand(args: string[]): Promise<number> {
   }
   process.off('SIGINT', stop);
   process.off('SIGTERM', stop);
+  return 0;
+}
+
+async function doctorCommand(args: string[]): Promise<number> {
+  const { values } = parseFlags(args, RUN_OPTIONS);
+  const options = await runOptions(values, process.env);
+  const { formatChecks, runDoctor } = await import('./doctor');
+  const checks = await runDoctor({ ...options, program: PROGRAM });
+  process.stdout.write(formatChecks(checks));
+  return checks.every((check) => check.ok) ? 0 : 1;
+}
+
+function versionCommand(): number {
+  process.stdout.write(`Benchwire bridge ${BRIDGE_VERSION} (Node ${process.versions.node}, ${process.platform}-${process.arch})\n`);
   return 0;
 }
 

@@ -22,6 +22,8 @@ import { Spool } from './spool';
 import { Uploader, type UploaderOptions } from './uploader';
 
 export const BRIDGE_VERSION: string = (() => {
+  // Fixed at pack time (scripts/bridge-pack.ts), where no package.json travels with the bundle.
+  if (process.env.BENCHWIRE_BRIDGE_VERSION) return process.env.BENCHWIRE_BRIDGE_VERSION.slice(0, 32);
   try {
     return String(JSON.parse(readFileSync(new URL('../package.json', import.meta.url), 'utf8')).version ?? 'unknown').slice(0, 32);
   } catch {

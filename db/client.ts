@@ -1,4 +1,5 @@
 import 'server-only';
+import { execFileSync } from 'node:child_process';
 import fs from 'node:fs';
 import path from 'node:path';
 import { PGlite } from '@electric-sql/pglite';
@@ -47,18 +48,12 @@ export interface Database {
 
 const MIGRATIONS = path.join(/*turbopackIgnore: true*/ process.cwd(), 'db', 'migrations');
 
-/**
- * PGlite's shared buffers sit inside its WebAssembly heap and are touched at start: PostgreSQL's 128 MB
- * default was about 130 MB of an idle server's memory. 64 MB gives back about 75 MB with the read paths'
- * hot pages (recent readings, their indexes) still in it (measured with npm run bench; 32 MB made the
- * Review list and patient search slower); the rest comes through the OS page cache.
- * PGLITE_SHARED_BUFFERS (e.g. 128MB) sets it.
- */
+/** PGlite's options here (and in the bench, which opens the data set as the server would). */
 export function pgliteOptions() {
   return {
     // pg_trgm: substring search (patient names, record numbers, owners) through trigram indexes.
     extensions: { pg_trgm },
-    postgresqlconf: [`shared_buffers = ${process.env.PGLITE_SHARED_BUFFERS?.trim() || '64MB'}`],
+    startParams: [...PGlite.defaultStartParams, '-c', `shared_buffers=${sharedBuffers()}`],
   };
 }
 
@@ -67,7 +62,10 @@ export function pgliteOptions() {
  * the committed migrations. PGlite allows one process per data directory (openDataDir locks it).
  */
 export async function openDatabase(dir?: string): Promise<Database> {
-  if (dir) fs.mkdirSync(dir, { recursive: true, mode: 0o700 });
+  if (dir) {
+    fs.mkdirSync(dir, { recursive: true, mode: 0o700 });
+    initDataDirApart(dir);
+  }
   const pg = await PGlite.create(dir, pgliteOptions());
   const db = drizzle({ client: pg, schema, casing: 'snake_case' });
   await migrate(db, { migrationsFolder: MIGRATIONS });
@@ -81,6 +79,28 @@ export async function openDatabase(dir?: string): Promise<Database> {
     durable: () => (sync ? sync() : Promise.resolve()),
     close: () => pg.close(),
   };
+}
+
+/**
+ * PostgreSQL's buffer cache inside PGlite's WebAssembly memory, which is never given back to the OS.
+ * Its default (128MB, from initdb) is most of an idle server's memory; the OS page cache keeps the
+ * data files warm anyway. PGLITE_SHARED_BUFFERS (e.g. 128MB) trades memory for fewer page reads.
+ */
+function sharedBuffers(): string {
+  const value = process.env.PGLITE_SHARED_BUFFERS?.trim() || '32MB';
+  if (!/^\d+(kB|MB|GB)$/.test(value)) throw new Error(`PGLITE_SHARED_BUFFERS must be a size such as 32MB (got "${value}")`);
+  return value;
+}
+
+/**
+ * A new data directory is made (initdb) in a short-lived child process: initdb needs about 850 MB of
+ * WebAssembly memory, which a process keeps until it exits, so doing it here would leave the server
+ * that large for good. An existing directory (PG_VERSION present) is opened as it is.
+ */
+function initDataDirApart(dir: string) {
+  if (fs.existsSync(path.join(dir, 'PG_VERSION'))) return;
+  const script = "import { PGlite } from '@electric-sql/pglite'; const pg = await PGlite.create(process.argv[1]); await pg.close();";
+  execFileSync(process.execPath, ['--input-type=module', '-e', script, dir], { cwd: process.cwd(), stdio: ['ignore', 'ignore', 'inherit'] });
 }
 
 /** Migrations on a server: one instance at a time (others starting together wait), under an advisory lock. */

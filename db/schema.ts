@@ -243,6 +243,40 @@ export const printoutProfiles = pgTable(
 );
 
 /**
+ * A raw capture file an administrator imported for one instrument (bytes recorded from its line by the
+ * bridge's capture log or another recorder): what was read, by whom, and what it added. Its readings and
+ * unparsed captures point here instead of at a bridge.
+ */
+export const captureImports = pgTable(
+  'capture_imports',
+  {
+    id: id(),
+    clinicId: clinicRef(),
+    instrumentId: uuid()
+      .notNull()
+      .references(() => instruments.id, { onDelete: 'restrict' }),
+    instrumentCode: text().notNull(),
+    /** How the file was read: the instrument's dialect, and for a printout profile its key and version. */
+    dialect: text().notNull(),
+    profileKey: uuid(),
+    profileVersion: bigint({ mode: 'number' }),
+    fileName: text().notNull(),
+    fileBytes: integer().notNull(),
+    /** SHA-256 of the file's bytes, hex: tells an administrator the same file was imported before. */
+    sha256: text().notNull(),
+    importedBy: uuid()
+      .notNull()
+      .references(() => staffUsers.id, { onDelete: 'restrict' }),
+    readingsAdded: integer().notNull(),
+    readingsAlreadyStored: integer().notNull(),
+    capturesAdded: integer().notNull(),
+    capturesAlreadyStored: integer().notNull(),
+    createdAt: createdAt(),
+  },
+  (t) => [index('capture_imports_clinic_idx').on(t.clinicId, t.createdAt), index('capture_imports_sha_idx').on(t.clinicId, t.sha256)],
+);
+
+/**
  * One sample on one instrument: the readings of one tube (same instrument and sample ID), of one ASTM or
  * HL7 message, or of one printed slip. Intake lists specimens, and a panel is assigned, moved or voided
  * as one; each reading keeps its own assignment history.
@@ -270,9 +304,9 @@ export const readings = pgTable(
   {
     id: id(),
     clinicId: clinicRef(),
-    bridgeId: uuid()
-      .notNull()
-      .references(() => bridges.id, { onDelete: 'restrict' }),
+    /** The bridge that sent it; null for a reading read from an imported capture file (captureImportId). */
+    bridgeId: uuid().references(() => bridges.id, { onDelete: 'restrict' }),
+    captureImportId: uuid().references(() => captureImports.id, { onDelete: 'restrict' }),
     /** Set by the bridge when it first spooled the record; a resend carries the same key. */
     idempotencyKey: text().notNull(),
     instrumentId: uuid().references(() => instruments.id, { onDelete: 'set null' }),
@@ -322,6 +356,9 @@ export const readings = pgTable(
   },
   (t) => [
     uniqueIndex('readings_bridge_key').on(t.bridgeId, t.idempotencyKey),
+    // A capture import looks for what is already stored by content (the bridge's keys are random).
+    index('readings_content_idx').on(t.clinicId, t.instrumentCode, sql`md5(${t.raw})`),
+    check('readings_one_source', sql`(${t.bridgeId} is null) <> (${t.captureImportId} is null)`),
     index('readings_clinic_status_idx').on(t.clinicId, t.status, t.receivedAt),
     index('readings_patient_idx').on(t.patientId, t.measuredAt),
     index('readings_specimen_idx').on(t.specimenId, t.status),
@@ -343,9 +380,9 @@ export const unparsedCaptures = pgTable(
   {
     id: id(),
     clinicId: clinicRef(),
-    bridgeId: uuid()
-      .notNull()
-      .references(() => bridges.id, { onDelete: 'restrict' }),
+    /** The bridge that sent it; null when it came from an imported capture file (captureImportId). */
+    bridgeId: uuid().references(() => bridges.id, { onDelete: 'restrict' }),
+    captureImportId: uuid().references(() => captureImports.id, { onDelete: 'restrict' }),
     idempotencyKey: text().notNull(),
     instrumentId: uuid().references(() => instruments.id, { onDelete: 'set null' }),
     instrumentCode: text().notNull(),
@@ -363,6 +400,8 @@ export const unparsedCaptures = pgTable(
   (t) => [
     uniqueIndex('unparsed_captures_bridge_key').on(t.bridgeId, t.idempotencyKey),
     index('unparsed_captures_clinic_status_idx').on(t.clinicId, t.status, t.receivedAt),
+    index('unparsed_captures_content_idx').on(t.clinicId, t.instrumentCode, sql`md5(${t.raw})`),
+    check('unparsed_captures_one_source', sql`(${t.bridgeId} is null) <> (${t.captureImportId} is null)`),
   ],
 );
 
@@ -890,6 +929,8 @@ export const staffTokens = pgTable(
     tokenHash: text().notNull(),
     expiresAt: timestamp({ withTimezone: true }).notNull(),
     usedAt: timestamp({ withTimezone: true }),
+    /** An administrator withdrew the link (revoked, or replaced by a resent invitation): it no longer works. */
+    revokedAt: timestamp({ withTimezone: true }),
     createdBy: uuid().references(() => staffUsers.id, { onDelete: 'set null' }),
     createdAt: createdAt(),
   },
@@ -963,3 +1004,4 @@ export const rateLimits = pgTable('rate_limits', {
   points: integer().notNull().default(0),
   expire: timestamp({ withTimezone: true }),
 });
+export type CaptureImport = typeof captureImports.$inferSelect;

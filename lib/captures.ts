@@ -93,6 +93,7 @@ export async function transcribeCapture(actor: Actor, captureId: string, input: 
         specimenId,
         clinicId: actor.clinicId,
         bridgeId: capture.bridgeId,
+        captureImportId: capture.captureImportId,
         idempotencyKey: `transcribed:${capture.id}`,
         instrumentId: capture.instrumentId,
         instrumentCode: capture.instrumentCode,

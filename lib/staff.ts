@@ -1,11 +1,12 @@
 import 'server-only';
-import { and, asc, eq, isNull, sql } from 'drizzle-orm';
+import { and, asc, eq, isNull, not, sql } from 'drizzle-orm';
 import { db } from '@/db/client';
 import { clinics, staffSessions, staffUsers, type StaffUser } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { decoyHash, hashPassword, verifyPassword } from '@/lib/auth/password';
 import { withHashSlot } from '@/lib/auth/throttle';
 import { recordAudit } from '@/lib/audit';
+import { invitationPending } from '@/lib/auth/staff-links';
 import { ApiError, notFound } from '@/lib/http';
 import { publishSessionEnded } from '@/lib/live/bus';
 import type { NewStaffInput, SetupInput } from '@/lib/validation/api';
@@ -105,7 +106,8 @@ export async function listStaff(actor: Actor) {
   return database
     .select(staffColumns)
     .from(staffUsers)
-    .where(eq(staffUsers.clinicId, actor.clinicId))
+    // Someone invited who has not accepted yet is listed with the invitations, not as (deactivated) staff.
+    .where(and(eq(staffUsers.clinicId, actor.clinicId), not(invitationPending)))
     .orderBy(asc(staffUsers.displayName));
 }
 

@@ -16,6 +16,7 @@ import { buildDataset, datasetReady } from '../tests/bench/suite/dataset';
 import { benchParsers } from '../tests/bench/suite/parsers';
 import { Report } from '../tests/bench/suite/report';
 import { benchServer } from '../tests/bench/suite/server';
+import { benchUploads } from '../tests/bench/suite/uploads';
 
 const root = process.cwd();
 const quick = process.env.BENCH_QUICK === '1';
@@ -58,6 +59,12 @@ try {
   if (wanted('durable')) {
     step('durability: a batch answered after its fsync against answered at COMMIT');
     await benchDurability(report, quick ? 5 : 25);
+  }
+
+  if (wanted('uploads')) {
+    step('hostile uploads: server RSS while 100 MB bodies stream in');
+    buildIfNeeded(process.env, '[bench]');
+    await benchUploads(report, quick ? 20 : 100);
   }
 
   if (wanted('parser')) {

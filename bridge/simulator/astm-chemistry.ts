@@ -6,7 +6,7 @@ import { silentLog } from '../log';
 import { compactStamp } from '../local-time';
 import { CHEMISTRY, simulateResult, type Species } from './analytes';
 import { seededRandom } from './random';
-import { aborted, pause, type SimulatorBase } from './simulate';
+import { orAbort, pause, type SimulatorBase } from './simulate';
 import { worklistRuns, type SimulatedRun, type WorklistSource } from './worklist';
 
 // An invented multi-analyte chemistry analyzer that sends each run as an ASTM E1394 message over
@@ -158,7 +158,7 @@ export async function runAstmChemistry(options: ChemistryOptions): Promise<void>
   try {
     for (let sent = 0; options.count === undefined || sent < options.count; ) {
       if (options.signal?.aborted) break;
-      if (!client) await Promise.race([connection, aborted(options.signal)]);
+      if (!client) await orAbort(connection, options.signal);
       if (!client || options.signal?.aborted) continue;
       // With a worklist, wait until one of its tests is due (kept if the bridge disconnects meanwhile).
       pending ??= runs ? await runs.next(options.signal) : undefined;

@@ -106,7 +106,7 @@ async function openPrinter(options: SimulatorOptions, log: Log): Promise<Printer
       options.onReady?.({ port: address.port });
       return {
         send: async (text) => {
-          if (target.waitForClient) await Promise.race([connected, aborted(options.signal)]);
+          if (target.waitForClient) await orAbort(connected, options.signal);
           await Promise.all([...clients].map((socket) => new Promise<void>((resolve) => socket.write(text, () => resolve()))));
           return `to ${clients.size} client(s)`;
         },
@@ -133,6 +133,29 @@ export function pause(ms: number, signal?: AbortSignal): Promise<boolean> {
       resolve(false);
     };
     signal?.addEventListener('abort', onAbort, { once: true });
+  });
+}
+
+/**
+ * Settles with the promise, or with undefined as soon as the signal aborts, and leaves no listener on
+ * the signal either way (a simulator waits like this before every slip it prints, for days on end).
+ */
+export function orAbort<T>(promise: Promise<T>, signal?: AbortSignal): Promise<T | undefined> {
+  if (!signal) return promise;
+  if (signal.aborted) return Promise.resolve(undefined);
+  return new Promise((resolve, reject) => {
+    const onAbort = () => resolve(undefined);
+    signal.addEventListener('abort', onAbort, { once: true });
+    promise.then(
+      (value) => {
+        signal.removeEventListener('abort', onAbort);
+        resolve(value);
+      },
+      (error: unknown) => {
+        signal.removeEventListener('abort', onAbort);
+        reject(error instanceof Error ? error : new Error(String(error)));
+      },
+    );
   });
 }
 

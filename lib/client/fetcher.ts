@@ -35,3 +35,17 @@ export function send<T>(url: string, method: 'POST' | 'PUT' | 'PATCH' | 'DELETE'
     body: body === undefined ? '{}' : JSON.stringify(body),
   }).then((r) => parse<T>(r));
 }
+
+/** A file and its form fields as multipart/form-data; errors read like send()'s, with the first issues listed. */
+export async function upload<T>(url: string, fields: Record<string, string>, file: File): Promise<T> {
+  const form = new FormData();
+  form.set('file', file);
+  for (const [k, v] of Object.entries(fields)) form.set(k, v);
+  const response = await fetch(url, { method: 'POST', body: form, headers: { accept: 'application/json' } });
+  const data = await response.json().catch(() => null);
+  if (!response.ok) {
+    const issues = (data?.error?.issues ?? []) as { path: string; message: string }[];
+    throw new Error([data?.error?.message ?? `Upload failed (${response.status}).`, ...issues.slice(0, 5).map((i) => `${i.path}: ${i.message}`)].join('\n'));
+  }
+  return data as T;
+}

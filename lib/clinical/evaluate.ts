@@ -157,6 +157,11 @@ export interface EvaluatedReading {
   valueDecimals?: number | null;
 }
 
+/** A coded or text result's flag code where one is needed (reports, exports): A abnormal, N normal, null unknown. */
+export function qualitativeFlag(q: Qualitative | null | undefined): 'A' | 'N' | null {
+  return q?.abnormal == null ? null : q.abnormal ? 'A' : 'N';
+}
+
 function qualitativeOf(reading: EvaluatedReading, analyte: AnalyteContext | undefined, analyzerFlag: AnalyzerFlag | null): Qualitative | null {
   const code = reading.valueCode ?? null;
   const text = reading.valueText ?? null;

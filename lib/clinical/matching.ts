@@ -9,14 +9,24 @@
 //   w(r, o) = timing(r, o) · reader(r, o) · ids(r, o) · channel(r, o) / unseen(o)
 // timing   the density of the arrival minus (start + the protocol's full duration), from the clinic's
 //          spread of "started" clicks (learnTiming), with a thin wide tail for a reading taken late;
-// reader   a named reader must be the one that sent the reading; an unnamed order could be on any of
-//          the K readers that run the test (1/K);
+// reader   a named reader must be the one that sent the reading; an unnamed order was on one of the
+//          readers for the test that were free when it began (placed runs and named runs hold a reader);
 // ids      an exact sample or record ID is decisive; an ID that names someone else is strong evidence against;
-// channel  one run per channel: a run on a single-channel reader started after that reader's previous
-//          reading, and no other run on it started while this one ran;
-// unseen   the chance that an order shows no reading yet: aborted (ABORT_PRIOR), or still running. Dividing
-//          by it is what makes an overdue run expect its reading, and lets a run long overdue on a busy
-//          reader be read as aborted instead of blocking the reader (abortProbability).
+// channel  one run per channel: no other open run on a single-channel reader ran while this one did. An
+//          open run clicked before this one either was aborted before it began (and after the reader's
+//          previous run: it had to fit on the reader too) or began after the reading;
+// unseen   the chance that an order shows no reading yet: aborted (ABORT_PRIOR), or still running. Still
+//          running means one unknown start (the click plus the spread) that fell after the last reading of
+//          a reader it could be on, on a reader no other run still running holds (a named run on it, or an
+//          unnamed run's share of it), with its reading still to come; these are weighed together over
+//          that one start, not multiplied as if independent. An unnamed run read as aborted must have
+//          fitted its short run on a reader between the runs known to have held it. Dividing by unseen is
+//          what makes an overdue run expect its reading, and lets a run long overdue on a busy reader be
+//          read as aborted instead of blocking the reader (abortProbability).
+// What it does not model: how busy the bench is. Every start time is taken as equally likely a priori;
+// on a bench running back to back, runs start just after a reader frees, and two unnamed runs clicked
+// close together are then told apart less well than the probabilities say (tests/bench prints the
+// reliability table); on a quiet bench the other way round.
 // Species is never evidence of identity: it is a warning beside the suggestion.
 import { formatDuration } from './protocols';
 
@@ -308,15 +318,69 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
     spells.set(p.instrumentId, list);
   }
 
-  /** The chance this order shows no reading by now: aborted, or still running (and, on a single channel, started after the reader's last reading). */
-  const unseen = (o: MatchOrder) => {
-    let pending = stillToCome((now - dueOf(o)) / 1000, timing);
-    if (o.instrumentId && singleChannel(o.instrumentId)) {
-      const last = lastArrivalBefore(o.instrumentId, now + 1);
-      if (last !== null) pending *= normalCdf((o.startedAt.getTime() - last) / 1000 / sd);
-    }
-    return MODEL.abortPrior + (1 - MODEL.abortPrior) * pending;
+  /**
+   * The chance that order `o` is still running now, its reading to come: its run began at the click plus
+   * Z (Z ~ the click spread), on a reader that was free then and has sent nothing since. Both conditions
+   * are about the same unknown start, so they are weighed together (not multiplied as if independent):
+   * reader x is possible when Z > after[x] (the start fell after x's last reading) and, with chance
+   * free[x], no other run holds it. The reading is still to come when Z > now − due, or it was taken late.
+   */
+  const stillRunning = (o: MatchOrder, readers: { after: number; free: number }[]) => {
+    const c = o.startedAt.getTime();
+    const a = (now - dueOf(o)) / 1000 - timing.offsetSeconds;
+    // Segments of Z between the readers' thresholds, where the chance some reader is possible is constant.
+    const cuts = readers.map((x) => ({ at: (x.after - c) / 1000, free: x.free })).sort((p, q) => p.at - q.at);
+    let noneFree = 1;
+    let all = 0;
+    let toCome = 0;
+    cuts.forEach((cut, i) => {
+      noneFree *= 1 - cut.free;
+      const from = cut.at;
+      const to = i + 1 < cuts.length ? cuts[i + 1].at : Infinity;
+      if (to <= from) return;
+      const mass = (lo: number) => (to === Infinity ? 1 : normalCdf(to / sd)) - normalCdf(Math.max(lo, from) / sd);
+      all += (1 - noneFree) * mass(-Infinity);
+      if (to > a) toCome += (1 - noneFree) * mass(a);
+    });
+    const lateTail = a > 0 ? 2 * (1 - normalCdf(a / MODEL.lateTailSeconds)) : 1;
+    return (1 - MODEL.lateTailWeight) * toCome + MODEL.lateTailWeight * lateTail * all;
   };
+  /** The chance this order shows no reading by now: aborted, or still running. */
+  const unseenOf = (pending: number, fits = 1) => MODEL.abortPrior * fits + (1 - MODEL.abortPrior) * pending;
+  // Each known reading on a single-channel reader closes a run that held it for about a run's duration.
+  const runs = open.map((o) => o.runSeconds).filter((x) => x > 0);
+  const typicalRun = runs.length > 0 ? median(runs) * 1000 : 0;
+  const busy = new Map<string, { from: number; to: number }[]>();
+  for (const [id, list] of arrivals) {
+    if (!singleChannel(id) || typicalRun <= 0) continue;
+    busy.set(id, list.map((a) => ({ from: a - typicalRun - timing.offsetSeconds * 1000, to: a })));
+  }
+  /**
+   * The chance an aborted run started at the click plus Z fitted on one of these readers: its short run
+   * (abortSeconds) overlaps none of the runs known to have held the reader. Summed over a grid of Z.
+   */
+  const abortFits = (o: MatchOrder, readers: MatchInstrument[]) => {
+    if (readers.length === 0 || readers.some((x) => x.channels !== 1)) return 1;
+    const c = o.startedAt.getTime();
+    const abort = MODEL.abortSeconds * 1000;
+    const reach = 4 * sd * 1000;
+    const near = readers.map((x) => (busy.get(x.id) ?? []).filter((b) => b.to > c - reach && b.from < c + reach + abort));
+    let fits = 0;
+    let total = 0;
+    for (let k = -40; k <= 40; k += 1) {
+      const z = k / 10;
+      const w = Math.exp(-0.5 * z * z);
+      const start = c + z * sd * 1000;
+      total += w;
+      if (near.some((list) => !list.some((b) => b.from < start + abort && b.to > start))) fits += w;
+    }
+    return Math.max(MODEL.channelFloor, fits / total);
+  };
+  const lastOn = (x: MatchInstrument | string) => {
+    const id = typeof x === 'string' ? x : x.id;
+    return singleChannel(id) ? (lastArrivalBefore(id, now + 1) ?? -Infinity) : -Infinity;
+  };
+  const unseen = (o: MatchOrder) => unseenOf(stillRunning(o, [{ after: lastOn(o.instrumentId!), free: 1 }]));
   const unseenBy = new Map(open.filter((o) => o.instrumentId).map((o) => [o.id, unseen(o)]));
 
   /**
@@ -349,21 +413,36 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
     const here = readers.find((x) => x.id === id);
     return here ? freeAt(here, o, at) / total : MODEL.wrongReader;
   };
-  // An unnamed run still running needs a reader that was free when it started and has sent nothing since.
-  for (const o of open) {
-    if (o.instrumentId) continue;
-    let pending = stillToCome((now - dueOf(o)) / 1000, timing);
-    const readers = readersFor(o.analyte);
-    if (readers.length > 0 && readers.every((x) => x.channels === 1)) {
-      let noneFree = 1;
-      for (const x of readers) {
-        const last = lastArrivalBefore(x.id, now + 1);
-        const quiet = last === null ? 1 : normalCdf((o.startedAt.getTime() - last) / 1000 / sd);
-        noneFree *= 1 - quiet * freeAt(x, o, o.startedAt.getTime());
-      }
-      pending *= 1 - noneFree;
+  // An unnamed run still running needs a reader that was free when it started, has sent nothing since,
+  // and that no other run still running holds now: a named one on it, or an unnamed one, which holds one
+  // of the readers it could be on (its chance spread over them). Two passes: the unnamed runs' holds are
+  // estimated first without each other, then used.
+  let unnamedHold = new Map<string, Map<string, number>>();
+  const heldBy = (x: MatchInstrument, o: MatchOrder) => {
+    if (x.channels !== 1) return 0;
+    let free = 1;
+    for (const b of open) {
+      if (b.id === o.id) continue;
+      if (b.instrumentId === x.id) free *= Math.min(1, MODEL.abortPrior / (unseenBy.get(b.id) ?? 1));
+      else if (!b.instrumentId) free *= 1 - (unnamedHold.get(b.id)?.get(x.id) ?? 0);
     }
-    unseenBy.set(o.id, MODEL.abortPrior + (1 - MODEL.abortPrior) * pending);
+    return 1 - free;
+  };
+  for (let pass = 0; pass < 2; pass += 1) {
+    const holds = new Map<string, Map<string, number>>();
+    for (const o of open) {
+      if (o.instrumentId) continue;
+      const readers = readersFor(o.analyte);
+      const options = readers.map((x) => ({ after: lastOn(x), free: 1 - heldBy(x, o) }));
+      const fits = abortFits(o, readers);
+      const u = unseenOf(stillRunning(o, readers.length === 0 ? [{ after: -Infinity, free: 1 }] : options), fits);
+      unseenBy.set(o.id, u);
+      const running = Math.max(0, 1 - (MODEL.abortPrior * fits) / u);
+      const each = readers.map((x, i) => (x.channels === 1 ? stillRunning(o, [options[i]]) : 0));
+      const sum = each.reduce((a, b) => a + b, 0);
+      holds.set(o.id, new Map(readers.map((x, i) => [x.id, sum > 0 ? (running * each[i]) / sum : 0])));
+    }
+    unnamedHold = holds;
   }
 
   /**
@@ -371,15 +450,22 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
    * `began`: each either ended (aborted) before that run began, or began after the reading; anything else
    * means two runs at once on one channel. Returns each run with that chance.
    */
-  const channelConflicts = (readerId: string, began: number, T: number, except: string | null) => {
+  const channelConflicts = (readerId: string, began: number, T: number, except: string | null, runMs: number) => {
     const out: { b: MatchOrder; f: number }[] = [];
     for (const b of open) {
       if (b.id === except || b.instrumentId !== readerId) continue;
       const s = b.startedAt.getTime();
       if (s >= T) continue;
-      const before = normalCdf((began - s - MODEL.abortSeconds * 1000) / 1000 / sd);
-      const after = normalCdf((s - T) / 1000 / sd);
-      out.push({ b, f: Math.max(MODEL.channelFloor, before + after - before * after) });
+      // Its start is the click plus Z. Ended before: its short run (abortSeconds) fell before `began`, and
+      // not across the reader's previous run (which ended with the reading before `began`). Began after:
+      // Z > T − s. The ranges of the same Z are disjoint, so their chances add.
+      const z = (t: number) => normalCdf((t - s) / 1000 / sd);
+      const abort = MODEL.abortSeconds * 1000;
+      let before = z(began - abort);
+      const previous = lastArrivalBefore(readerId, began);
+      if (previous !== null) before -= Math.max(0, z(Math.min(previous, began - abort)) - z(previous - runMs - abort));
+      const after = 1 - z(T);
+      out.push({ b, f: Math.max(MODEL.channelFloor, Math.max(0, before) + after) });
     }
     return out;
   };
@@ -391,7 +477,7 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
     if (runs.length === 0) return weight;
     const T = r.arrivedAt.getTime();
     const began = T - median(runs) * 1000 - timing.offsetSeconds * 1000;
-    for (const { f } of channelConflicts(r.instrumentId, began, T, null)) weight *= f;
+    for (const { f } of channelConflicts(r.instrumentId, began, T, null, median(runs) * 1000)) weight *= f;
     return weight;
   };
 
@@ -454,7 +540,7 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
         const readerName = instruments.get(onReader)?.name ?? 'this reader';
         // The run behind this reading began about its duration before the arrival, whatever was clicked.
         const began = T - o.runSeconds * 1000 - timing.offsetSeconds * 1000;
-        for (const { b, f } of channelConflicts(onReader, began, T, o.id)) {
+        for (const { b, f } of channelConflicts(onReader, began, T, o.id, o.runSeconds * 1000)) {
           weight *= f;
           const bp = patients.get(b.patientId);
           if (f < 0.5) {

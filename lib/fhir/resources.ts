@@ -60,10 +60,16 @@ export interface FhirObservationRow {
   patientId: string;
   analyte: string;
   analyteName: string | null;
-  /** Numeric results; coded or text results add their own branch in observationValue. */
+  /** A result is one of: a number (value, comparator, unit), a code, or text. */
   value: number | null;
   comparator: '<' | '>' | null;
   unit: string | null;
+  valueCode: { system: string | null; code: string; display: string | null } | null;
+  valueText: string | null;
+  /** Comments the instrument sent with the result (HL7 NTE, ASTM C). */
+  notes: string[];
+  /** A coded or text result's interpretation: true abnormal, false normal, null nothing says. */
+  qualitativeAbnormal: boolean | null;
   resultStatus: 'final' | 'preliminary' | 'corrected' | null;
   measuredAt: Date | null;
   receivedAt: Date;
@@ -77,17 +83,42 @@ function quantity(value: number, unit: string | null, comparator?: '<' | '>' | n
   return { value, ...(comparator ? { comparator } : {}), ...(unit ? { unit, system: UCUM, code: unit } : {}) };
 }
 
-/** Observation.value[x]: valueQuantity for a number; no value[x] (with dataAbsentReason) when there is none. */
-export function observationValue(r: Pick<FhirObservationRow, 'value' | 'comparator' | 'unit'>): Json {
+// HL7 v2 table 0396 names for the code systems an analyzer may name in CE/CWE component 3, as FHIR system
+// URIs (from memory: the FHIR R4 terminology page lists http://loinc.org and http://snomed.info/sct).
+const V2_CODING_SYSTEMS: Record<string, string> = { LN: 'http://loinc.org', SCT: 'http://snomed.info/sct', UCUM: UCUM };
+
+/**
+ * Coding.system is a URI. A name the analyzer gave that is neither a URI nor a known table 0396 name is kept,
+ * under our own URN, rather than dropped: the receiver can still tell two systems' codes apart.
+ */
+function codingSystem(name: string | null): string | null {
+  if (!name) return null;
+  if (/^(https?:\/\/|urn:)\S+$/i.test(name)) return name;
+  return V2_CODING_SYSTEMS[name.toUpperCase()] ?? `urn:benchwire:coding-system:${encodeURIComponent(name)}`;
+}
+
+/**
+ * Observation.value[x] (R4 observation.html): valueQuantity for a number, valueCodeableConcept for a coded
+ * result (Coding system/code/display, with the text as sent), valueString for a text result; with none of
+ * them, no value[x] but dataAbsentReason (invariant obs-6: dataAbsentReason only when value[x] is absent).
+ */
+export function observationValue(r: Pick<FhirObservationRow, 'value' | 'comparator' | 'unit' | 'valueCode' | 'valueText'>): Json {
   if (r.value !== null) return { valueQuantity: quantity(r.value, r.unit, r.comparator) };
+  if (r.valueCode) {
+    const system = codingSystem(r.valueCode.system);
+    const coding = { ...(system ? { system } : {}), code: r.valueCode.code, ...(r.valueCode.display ? { display: r.valueCode.display } : {}) };
+    return { valueCodeableConcept: { coding: [coding], text: r.valueCode.display || r.valueCode.code } };
+  }
+  if (r.valueText !== null) return { valueString: r.valueText };
   return { dataAbsentReason: { coding: [{ system: 'http://terminology.hl7.org/CodeSystem/data-absent-reason', code: 'unknown' }] } };
 }
 
 /** Benchwire flag codes are the v3 ObservationInterpretation codes L, H, LL, HH, N. */
-const INTERPRETATION_DISPLAY: Record<string, string> = { L: 'Low', H: 'High', LL: 'Critical low', HH: 'Critical high', N: 'Normal' };
+const INTERPRETATION_DISPLAY: Record<string, string> = { L: 'Low', H: 'High', LL: 'Critical low', HH: 'Critical high', N: 'Normal', A: 'Abnormal' };
 
 export function observationResource(r: FhirObservationRow): Json {
-  const flag = r.flag?.replace('?', '') ?? null;
+  // A coded or text result has no interval: its interpretation is abnormal (A) or normal (N), when known.
+  const flag = r.flag?.replace('?', '') ?? (r.qualitativeAbnormal === null ? null : r.qualitativeAbnormal ? 'A' : 'N');
   const range: Json = {};
   if (r.interval?.low !== null && r.interval?.low !== undefined) range.low = quantity(r.interval.low, r.interval.unit);
   if (r.interval?.high !== null && r.interval?.high !== undefined) range.high = quantity(r.interval.high, r.interval.unit);
@@ -104,6 +135,8 @@ export function observationResource(r: FhirObservationRow): Json {
     ...observationValue(r),
     ...(flag && INTERPRETATION_DISPLAY[flag] ? { interpretation: [{ coding: [{ system: INTERPRETATION, code: flag, display: INTERPRETATION_DISPLAY[flag] }] }] } : {}),
     ...(Object.keys(range).length ? { referenceRange: [range] } : {}),
+    // Observation.note is Annotation, whose text (markdown) is required.
+    ...(r.notes.length ? { note: r.notes.map((text) => ({ text })) } : {}),
   };
 }
 

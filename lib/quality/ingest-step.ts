@@ -129,7 +129,8 @@ export function qualityColumnsOnArrival(decision: QualityDecision) {
 /** Once stored: each control run's audit event, and one announcement for the readings the step marked. */
 export async function recordQuality(
   tx: Tx,
-  by: { clinicId: string; bridgeId: string },
+  /** The bridge that sent them, or the administrator who imported them from a capture file. */
+  by: { clinicId: string; actorBridgeId?: string | null; actorUserId?: string | null },
   stored: readonly { reading: Pick<Reading, 'id'>; decision: QualityDecision }[],
 ): Promise<void> {
   await recordAudits(
@@ -139,7 +140,8 @@ export async function recordQuality(
         ? [
             {
               clinicId: by.clinicId,
-              actorBridgeId: by.bridgeId,
+              actorBridgeId: by.actorBridgeId ?? null,
+              actorUserId: by.actorUserId ?? null,
               action: 'reading.marked-control',
               entityType: 'reading',
               entityId: reading.id,
@@ -154,10 +156,16 @@ export async function recordQuality(
 }
 
 /** The step for one reading already stored (a transcribed result): decided, set on the row, recorded. */
-export async function applyQualityOnIngest(tx: Tx, row: Reading, payload: SpecimenRole): Promise<Reading> {
+export async function applyQualityOnIngest(
+  tx: Tx,
+  row: Reading,
+  payload: SpecimenRole,
+  /** The administrator who imported it from a capture file (no bridge sent it). */
+  importedBy?: string,
+): Promise<Reading> {
   const [decision] = await decideQuality(tx, row.clinicId, [{ ...row, ...payload }]);
   if (!decision.control && !decision.kitLotId && decision.qualityMarks.length === 0) return row;
   const [updated] = await tx.update(readings).set(qualityColumns(decision)).where(eq(readings.id, row.id)).returning();
-  await recordQuality(tx, { clinicId: row.clinicId, bridgeId: row.bridgeId }, [{ reading: updated, decision }]);
+  await recordQuality(tx, { clinicId: row.clinicId, ...(importedBy ? { actorUserId: importedBy } : { actorBridgeId: row.bridgeId }) }, [{ reading: updated, decision }]);
   return updated;
 }

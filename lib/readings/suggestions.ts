@@ -5,7 +5,7 @@ import { analyteSettings, clinics, instruments, labOrders, patients, readings, r
 import type { Actor } from '@/lib/auth/guards';
 import { clinicalSettings } from '@/lib/clinical/config';
 import { DEFAULT_PROTOCOLS } from '@/lib/clinical/defaults';
-import { autoAssignTarget, learnTiming, suggestMatches, type MatchContext, type MatchReading, type Suggestion } from '@/lib/clinical/matching';
+import { autoAssignTarget, learnTiming, suggestMatches, type MatchContext, type MatchReading, type Suggestion, type TimingModel } from '@/lib/clinical/matching';
 import { protocolSeconds, type ProtocolStage } from '@/lib/clinical/protocols';
 import { RECENT } from '@/lib/clinical/replay';
 import { ApiError, notFound } from '@/lib/http';
@@ -25,12 +25,29 @@ const runSecondsOf = (analyte: string, ...candidates: (ProtocolStage[] | null | 
 const HOUR = 3600_000;
 
 /**
+ * The clinic's timing (how early or late readings arrive against the due time), learned from its latest
+ * confirmed matches. The one estimate: the matcher weighs readings with it and the Bench judges an
+ * overdue run "probably aborted" with it.
+ */
+export async function clinicTiming(tx: Executor, clinicId: string): Promise<TimingModel> {
+  const history = await tx
+    .select({ analyte: labOrders.analyte, startedAt: labOrders.startedAt, arrivedAt: readings.receivedAt, copied: labOrders.stages, stages: runProtocols.stages })
+    .from(labOrders)
+    .innerJoin(readings, eq(readings.id, labOrders.fulfilledReadingId))
+    .leftJoin(runProtocols, eq(runProtocols.id, labOrders.protocolId))
+    .where(and(eq(labOrders.clinicId, clinicId), eq(labOrders.status, 'fulfilled'), gte(labOrders.fulfilledAt, new Date(Date.now() - 30 * 24 * HOUR))))
+    .orderBy(desc(labOrders.fulfilledAt))
+    .limit(RECENT);
+  return learnTiming(history.map((h) => (h.arrivedAt.getTime() - h.startedAt.getTime()) / 1000 - runSecondsOf(h.analyte, h.copied, h.stages)));
+}
+
+/**
  * Loads what the matcher needs for readings of these analytes: open orders (with their protocol's
  * duration), their patients, instruments, analytes, the readings placed in the last 12 h (a reader was
- * busy until each) and the clinic's timing learned from its latest confirmed matches.
+ * busy until each) and the clinic's timing (clinicTiming).
  */
 async function matchContext(tx: Executor, clinicId: string, analytes: string[], namedIds: string[]): Promise<MatchContext> {
-  const [orders, instrumentRows, analyteRows, clinic, placedRows, history] = await Promise.all([
+  const [orders, instrumentRows, analyteRows, clinic, placedRows, timing] = await Promise.all([
     tx
       .select({ order: labOrders, stages: runProtocols.stages })
       .from(labOrders)
@@ -57,14 +74,7 @@ async function matchContext(tx: Executor, clinicId: string, analytes: string[], 
           gte(readings.receivedAt, new Date(Date.now() - 12 * HOUR)),
         ),
       ),
-    tx
-      .select({ analyte: labOrders.analyte, startedAt: labOrders.startedAt, arrivedAt: readings.receivedAt, copied: labOrders.stages, stages: runProtocols.stages })
-      .from(labOrders)
-      .innerJoin(readings, eq(readings.id, labOrders.fulfilledReadingId))
-      .leftJoin(runProtocols, eq(runProtocols.id, labOrders.protocolId))
-      .where(and(eq(labOrders.clinicId, clinicId), eq(labOrders.status, 'fulfilled'), gte(labOrders.fulfilledAt, new Date(Date.now() - 30 * 24 * HOUR))))
-      .orderBy(desc(labOrders.fulfilledAt))
-      .limit(RECENT),
+    clinicTiming(tx, clinicId),
   ]);
   const patientIds = [...new Set(orders.map((o) => o.order.patientId))];
   const lowerIds = [...new Set(namedIds.map((id) => id.trim().toLowerCase()).filter(Boolean))];
@@ -96,7 +106,7 @@ async function matchContext(tx: Executor, clinicId: string, analytes: string[], 
     instruments: instrumentRows,
     analytes: analyteRows,
     placed: placedRows.flatMap((p) => (p.instrumentId ? [{ instrumentId: p.instrumentId, arrivedAt: p.arrivedAt, startedAt: p.startedAt }] : [])),
-    timing: learnTiming(history.map((h) => (h.arrivedAt.getTime() - h.startedAt.getTime()) / 1000 - runSecondsOf(h.analyte, h.copied, h.stages))),
+    timing,
     now: new Date(),
     timeZone: clinic[0]?.timeZone ?? 'UTC',
   };

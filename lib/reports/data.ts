@@ -4,8 +4,9 @@ import { db } from '@/db/client';
 import { clinics } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { patientChart } from '@/lib/clinical/chart';
-import { formatMeasured } from '@/lib/clinical/evaluate';
+import { formatMeasured, qualitativeFlag } from '@/lib/clinical/evaluate';
 import { FLAG_CODE } from '@/lib/clinical/flags';
+import { formatValue } from '@/lib/format';
 import { ApiError } from '@/lib/http';
 import { getPatient } from '@/lib/patients';
 
@@ -35,6 +36,8 @@ export interface ReportResult {
   reviewedAt: Date | null;
   comments: { by: string; at: Date; comment: string }[];
   speciesWarning: string | null;
+  /** Comments the analyzer sent with the result (HL7 NTE, ASTM C). */
+  notes: string[];
   /** Earlier and this visit's results of the same test, oldest first (at most 8). */
   trend: { at: Date; value: number | null; text: string }[];
 }
@@ -68,6 +71,8 @@ export async function reportData(actor: Actor, patientId: string, visitDate?: st
     .map((r) => {
       const a = chart.analytes[r.analyte];
       const decimals = a?.decimals ?? 1;
+      const shown = (x: (typeof onVisit)[number]) =>
+        x.clinical.qualitative ? formatValue({ value: null, comparator: null, unit: null, valueCode: x.valueCode, valueText: x.valueText }) : formatMeasured({ ...x.clinical.display, unit: null }, decimals);
       const low = fmtLimit(a?.interval?.low ?? null, decimals);
       const high = fmtLimit(a?.interval?.high ?? null, decimals);
       const interval = low !== null && high !== null ? `${low}–${high}` : low !== null ? `from ${low}` : high !== null ? `up to ${high}` : 'none set';
@@ -76,16 +81,19 @@ export async function reportData(actor: Actor, patientId: string, visitDate?: st
         .filter((x) => x.analyte === r.analyte && new Date(x.measuredAt ?? x.receivedAt) <= at && x.clinical.display.unit === r.clinical.display.unit)
         .slice(0, 8)
         .reverse()
-        .map((x) => ({ at: new Date(x.measuredAt ?? x.receivedAt), value: x.clinical.display.value, text: formatMeasured({ ...x.clinical.display, unit: null }, decimals) }));
+        .map((x) => ({ at: new Date(x.measuredAt ?? x.receivedAt), value: x.clinical.display.value, text: shown(x) }));
+      // A coded or text result is printed as sent, with A/N when the analyzer's flag or the clinic's rule says.
+      const q = r.clinical.qualitative;
       return {
         id: r.id,
         analyte: r.analyte,
         name: a?.name ?? r.analyte,
-        value: formatMeasured({ ...r.clinical.display, unit: null }, decimals),
-        unit: r.clinical.display.unit,
-        interval,
-        flag: r.clinical.flag ? `${FLAG_CODE[r.clinical.flag.flag]}${r.clinical.flag.certain ? '' : '?'}` : null,
-        flagText: r.clinical.flag?.text ?? null,
+        value: shown(r),
+        unit: q ? null : r.clinical.display.unit,
+        interval: q ? (r.instrumentRange ? `${r.instrumentRange} (analyzer)` : 'n/a') : interval,
+        flag: q ? qualitativeFlag(q) : r.clinical.flag ? `${FLAG_CODE[r.clinical.flag.flag]}${r.clinical.flag.certain ? '' : '?'}` : null,
+        flagText: q ? q.basis : (r.clinical.flag?.text ?? null),
+        notes: r.notes ?? [],
         measuredAt: at,
         instrument: r.instrumentName ?? r.instrumentCode ?? null,
         status: r.resultStatus ?? null,

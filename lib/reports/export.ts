@@ -5,7 +5,7 @@ import { clinics, instruments, patients, readings, resultAssignments, resultRevi
 import { recordAudit } from '@/lib/audit';
 import type { Actor } from '@/lib/auth/guards';
 import { analyteContexts, intervalContexts } from '@/lib/clinical/config';
-import { evaluateResult } from '@/lib/clinical/evaluate';
+import { evaluateResult, qualitativeFlag } from '@/lib/clinical/evaluate';
 import { FLAG_CODE } from '@/lib/clinical/flags';
 import { toCsv } from '@/lib/csv';
 import { ApiError, notFound } from '@/lib/http';
@@ -29,6 +29,12 @@ export const EXPORT_HEADER = [
   'result_status',
   'reviewed_by',
   'reviewed_at',
+  // A coded or text result (added after the first columns, so existing readers of the file keep working).
+  'result_code',
+  'result_display',
+  'result_code_system',
+  'result_text',
+  'notes',
 ];
 
 /** The UTC instant a calendar day starts in a time zone (the offset found by formatting, no library). */
@@ -68,6 +74,13 @@ export async function exportResultsCsv(actor: Actor, query: ExportQuery) {
       value: readings.value,
       comparator: readings.comparator,
       unit: readings.unit,
+      printedUnit: readings.printedUnit,
+      valueCode: readings.valueCode,
+      valueText: readings.valueText,
+      notes: readings.notes,
+      // The analyzer's flags and range: a coded result's interpretation and the analyzer's interval.
+      flags: readings.flags,
+      instrumentRange: readings.instrumentRange,
       measuredAt: readings.measuredAt,
       receivedAt: readings.receivedAt,
       instrumentId: readings.instrumentId,
@@ -112,7 +125,8 @@ export async function exportResultsCsv(actor: Actor, query: ExportQuery) {
       e.display.value,
       e.display.comparator,
       e.display.unit,
-      e.flag ? `${FLAG_CODE[e.flag.flag]}${e.flag.certain ? '' : '?'}` : null,
+      // A coded or text result: A (abnormal) or N (normal) when the analyzer's flag or the clinic's rule says.
+      e.flag ? `${FLAG_CODE[e.flag.flag]}${e.flag.certain ? '' : '?'}` : qualitativeFlag(e.qualitative),
       interval.low,
       interval.high,
       new Date(r.measuredAt ?? r.receivedAt).toISOString(),
@@ -120,6 +134,11 @@ export async function exportResultsCsv(actor: Actor, query: ExportQuery) {
       r.resultStatus,
       r.reviewerName,
       r.reviewedAt ? new Date(r.reviewedAt).toISOString() : null,
+      r.valueCode?.code ?? null,
+      r.valueCode?.display ?? null,
+      r.valueCode?.system ?? null,
+      r.valueText,
+      r.notes.length ? r.notes.join(' | ') : null,
     ];
   });
   await database.transaction(async (tx) => {

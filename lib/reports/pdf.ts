@@ -117,7 +117,7 @@ export function renderReportPdf(data: ReportData): Promise<Buffer> {
   doc.font('text').fontSize(8.5).fillColor(MUTED).text(CLINICAL_CAUTION_TEXT, left, doc.y, { width });
   doc.moveDown(0.3);
   doc.text(
-    'Intervals are the clinic’s reference intervals for the species at the time of printing. Flags: L/H below/above the interval, LL/HH beyond the critical limit, ? where the reported value allows more than one flag.',
+    'Intervals are the clinic’s reference intervals for the species at the time of printing. Flags: L/H below/above the interval, LL/HH beyond the critical limit, ? where the reported value allows more than one flag; for a coded or text result, A abnormal and N normal, by the analyzer’s flag or the clinic’s rule.',
     left,
     doc.y,
     { width },
@@ -177,6 +177,7 @@ function resultBlock(
   if (r.flagText && abnormal) note(r.flagText, ALARM);
   if (r.status && r.status !== 'final') note(`Instrument status: ${r.status} (not a final result).`, ALARM);
   if (r.speciesWarning) note(r.speciesWarning, ALARM);
+  for (const n of r.notes) note(`Analyzer note: ${n}`, INK);
   if (r.instrument) note(`Instrument: ${r.instrument}`);
   if (r.trend.length > 1) trend(doc, r, indent, lineWidth, tz);
   for (const c of r.comments) note(`Comment by ${c.by}, ${formatInZone(c.at, tz)}: ${c.comment}`, INK);

@@ -30,6 +30,12 @@ export const exportQuery = z
   .refine((v) => !v.from || !v.to || v.from <= v.to, { message: 'The range ends before it starts.', path: ['to'] });
 export type ExportQuery = z.infer<typeof exportQuery>;
 
+/** The fields beside the file in a capture-file upload (multipart/form-data). */
+export const captureImportForm = z.object({
+  step: z.enum(['preview', 'confirm'], 'Say whether to preview or to import.'),
+  instrumentId: z.uuid('Choose the instrument the capture was recorded from.'),
+});
+
 /** The form fields that come with a patient CSV upload (multipart/form-data). */
 export const patientImportForm = z.object({
   step: z.enum(['preview', 'confirm'], 'Say whether to preview or to import.'),

@@ -11,7 +11,8 @@ import { protocolSeconds } from '@/lib/clinical/protocols';
 import { reliabilityTable, replayDay, type ReplayResult } from '@/lib/clinical/replay';
 import { naiveTop1, SCENARIOS, simulateDay } from './clinic-day';
 
-const DAYS = 10;
+/** Seeded days per scenario; MATCH_BENCH_DAYS=n for a quicker (or larger) run while working on the model. */
+const DAYS = Number(process.env.MATCH_BENCH_DAYS) || 10;
 const runSeconds = (analyte: string) => protocolSeconds(DEFAULT_PROTOCOLS.find((p) => p.analyte === analyte)!.stages);
 const pct = (n: number, d: number) => `${((100 * n) / d).toFixed(1)} %`;
 

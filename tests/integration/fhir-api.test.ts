@@ -1,6 +1,7 @@
 import { Fhir } from 'fhir';
 import { beforeAll, describe, expect, it } from 'vitest';
-import { body, patientByRecord } from './support';
+import { body, ingestOne, patientByRecord } from './support';
+import * as assign from '@/app/api/readings/[readingId]/assign/route';
 import * as integrations from '@/app/api/admin/integrations/route';
 import * as revoke from '@/app/api/admin/integrations/[integrationId]/revoke/route';
 import * as diagnosticReports from '@/app/fhir/DiagnosticReport/route';
@@ -26,6 +27,7 @@ let vet: string;
 let token: string;
 let integrationId: string;
 let biscuit: string;
+let bridgeToken: string;
 const fhir = new Fhir();
 
 /** FHIR.js validation: no error-level messages against the R4 definitions. */
@@ -37,7 +39,7 @@ function expectValidR4(resource: Record<string, unknown>) {
 }
 
 beforeAll(async () => {
-  ({ database, clinicId } = await seededDatabase());
+  ({ database, clinicId, bridgeToken } = await seededDatabase());
   void database;
   admin = await signIn('admin@fernhollow.example');
   vet = await signIn('vet@fernhollow.example');
@@ -150,6 +152,48 @@ describe('FHIR R4 read API', () => {
     const report = r.json.entry[0].resource;
     expectValidR4(report);
     expect(report).toMatchObject({ resourceType: 'DiagnosticReport', status: 'final', subject: { reference: `Patient/${biscuit}` }, effectiveDateTime: visitDate, result: [{ reference: `Observation/${latest.id}` }] });
+  });
+
+  it('Observation for coded and text results: valueCodeableConcept and valueString, the interpretation, the notes', async () => {
+    // FHIR R4 Observation (observation.html): value[x] is one of valueQuantity | valueCodeableConcept |
+    // valueString | …; a CodeableConcept holds coding[] (Coding.system, .code, .display) and text;
+    // Observation.note is Annotation (text required); interpretation codes from v3 ObservationInterpretation
+    // (A = Abnormal, N = Normal). HL7 v2 CWE component 3 "LN" names LOINC (table 0396, from memory).
+    const tech = await signIn('tech@fernhollow.example');
+    const juniper = (await patientByRecord(database.db, clinicId, 'FH-1002')).id;
+    const onJuniper = async (key: string, payload: Record<string, unknown>) => {
+      const readingId = await ingestOne(bridgeToken, key, payload);
+      expect((await assign.POST(request('/api/readings/x/assign', { cookie: tech, body: { patientId: juniper } }), params({ readingId }))).status).toBe(200);
+      return readingId;
+    };
+    const coded = await onJuniper('fhir-coded-1', { analyte: 'FELV', value: null, unit: null, code: { system: 'L', code: '1', display: 'Positive' }, flags: ['A'], notes: ['Confirm with a second test'], raw: 'OBX|1|CE|FELV||1^Positive^L||||A\r' });
+    const loinc = await onJuniper('fhir-coded-2', { analyte: 'HWAG', value: null, unit: null, code: { system: 'LN', code: 'LA6577-6', display: 'Negative' }, flags: ['N'], raw: 'OBX|1|CE|HWAG||LA6577-6^Negative^LN||||N\r' });
+    const word = await onJuniper('fhir-coded-3', { analyte: 'HWAG', value: null, unit: null, code: { system: null, code: 'POS', display: null }, raw: 'R|1|^^^HWAG|POS\r' });
+    const text = await onJuniper('fhir-text-1', { analyte: 'UMIC', value: null, unit: null, text: 'Struvite crystals, moderate', raw: 'OBX|1|ST|UMIC||Struvite crystals, moderate\r' });
+    const all = await fhirGet(observations, `/fhir/Observation?patient=${juniper}`);
+    expectValidR4(all.json);
+    const byId = new Map<string, Record<string, unknown>>(all.json.entry.map((e: { resource: { id: string } }) => [e.resource.id, e.resource]));
+    for (const id of [coded, loinc, word, text]) expectValidR4(byId.get(id)!);
+
+    const felv = byId.get(coded)!;
+    // An analyzer-local system name is kept under our URN, the code and display as sent.
+    expect(felv.valueCodeableConcept).toEqual({ coding: [{ system: 'urn:benchwire:coding-system:L', code: '1', display: 'Positive' }], text: 'Positive' });
+    expect(felv).not.toHaveProperty('valueQuantity');
+    expect(felv).not.toHaveProperty('dataAbsentReason');
+    expect(felv.interpretation).toEqual([{ coding: [{ system: 'http://terminology.hl7.org/CodeSystem/v3-ObservationInterpretation', code: 'A', display: 'Abnormal' }] }]);
+    expect(felv.note).toEqual([{ text: 'Confirm with a second test' }]);
+
+    expect(byId.get(loinc)!.valueCodeableConcept).toEqual({ coding: [{ system: 'http://loinc.org', code: 'LA6577-6', display: 'Negative' }], text: 'Negative' });
+    expect(byId.get(loinc)!.interpretation).toEqual([{ coding: [{ system: 'http://terminology.hl7.org/CodeSystem/v3-ObservationInterpretation', code: 'N', display: 'Normal' }] }]);
+    // An ASTM word has no system: the Coding carries the code alone; with no flag and no clinic rule there is no interpretation.
+    expect(byId.get(word)!.valueCodeableConcept).toEqual({ coding: [{ code: 'POS' }], text: 'POS' });
+    expect(byId.get(word)).not.toHaveProperty('interpretation');
+
+    const micro = byId.get(text)!;
+    expect(micro.valueString).toBe('Struvite crystals, moderate');
+    expect(micro).not.toHaveProperty('valueCodeableConcept');
+    expect(micro).not.toHaveProperty('referenceRange');
+    expect(micro).not.toHaveProperty('note');
   });
 
   it('a revoked token is refused', async () => {

@@ -1,7 +1,8 @@
 import fs from 'node:fs';
 import { eq } from 'drizzle-orm';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { body, patientByRecord } from './support';
+import { body, ingestOne, patientByRecord } from './support';
+import * as assign from '@/app/api/readings/[readingId]/assign/route';
 import * as pdfRoute from '@/app/api/patients/[patientId]/report/route';
 import * as reportsRoute from '@/app/api/patients/[patientId]/reports/route';
 import * as results from '@/app/api/patients/[patientId]/results/route';
@@ -25,9 +26,10 @@ let c: { vet: string; tech: string };
 let biscuit: string;
 let sink: Sink;
 let timeZone: string;
+let bridgeToken: string;
 
 beforeAll(async () => {
-  ({ database, clinicId } = await seededDatabase());
+  ({ database, clinicId, bridgeToken } = await seededDatabase());
   c = { vet: await signIn('vet@fernhollow.example'), tech: await signIn('tech@fernhollow.example') };
   biscuit = (await patientByRecord(database.db, clinicId, 'FH-1001')).id;
   [{ timeZone }] = await database.db.select({ timeZone: clinics.timeZone }).from(clinics).where(eq(clinics.id, clinicId));
@@ -99,6 +101,29 @@ describe('the PDF of a visit', () => {
     expect(none.status).toBe(404);
     const bad = await pdfRoute.GET(request('/api/patients/x/report?visit=yesterday', { cookie: c.vet }), params({ patientId: biscuit }));
     expect(bad.status).toBe(400);
+  });
+});
+
+describe('a coded or text result on the report', () => {
+  it('is printed as sent (never "—"), with A when the analyzer flags it abnormal and the analyzer’s note', async () => {
+    // HL7 v2 OBX-5 CE (code^text^system) with OBX-8 A (abnormal) and an NTE comment; OBX-5 ST free text (from memory).
+    const juniper = (await patientByRecord(database.db, clinicId, 'FH-1002')).id;
+    const measuredAt = new Date().toISOString();
+    for (const [key, payload] of [
+      ['report-coded-1', { analyte: 'FELV', value: null, unit: null, code: { system: 'L', code: '1', display: 'Positive' }, flags: ['A'], notes: ['Confirm with a second test'], measuredAt, raw: 'OBX|1|CE|FELV||1^Positive^L||||A\r' }],
+      ['report-text-1', { analyte: 'UMIC', value: null, unit: null, text: 'Struvite crystals, moderate', measuredAt, raw: 'OBX|1|ST|UMIC||Struvite crystals, moderate\r' }],
+    ] as const) {
+      const readingId = await ingestOne(bridgeToken, key, payload);
+      expect((await assign.POST(request('/api/readings/x/assign', { cookie: c.tech, body: { patientId: juniper } }), params({ readingId }))).status).toBe(200);
+    }
+    const visit = visitDay(new Date(measuredAt), timeZone);
+    const response = await pdfRoute.GET(request(`/api/patients/x/report?visit=${visit}`, { cookie: c.tech }), params({ patientId: juniper }));
+    expect(response.status).toBe(200);
+    const text = (await readPdf(new Uint8Array(await response.arrayBuffer()))).flat;
+    expect(text).toContain('Positive (1)');
+    expect(text).toContain('Analyzer flag: A (abnormal)');
+    expect(text).toContain('Analyzer note: Confirm with a second test');
+    expect(text).toContain('Struvite crystals, moderate');
   });
 });
 

@@ -1,13 +1,14 @@
 import { eq } from 'drizzle-orm';
 import Papa from 'papaparse';
 import { beforeAll, describe, expect, it } from 'vitest';
-import { body, patientByRecord } from './support';
+import { body, ingestOne, patientByRecord } from './support';
+import * as assign from '@/app/api/readings/[readingId]/assign/route';
 import * as exportRoute from '@/app/api/results/export/route';
 import type { Database } from '@/db/client';
 import { auditEvents, patients } from '@/db/schema';
 import { startOfDayIn } from '@/lib/reports/export';
 import { seededDatabase } from '../helpers/db';
-import { request, signIn } from '../helpers/http';
+import { params, request, signIn } from '../helpers/http';
 
 // Results export as CSV, read back with papaparse. Demo data: Biscuit's invented CRP series (seed).
 // Formula neutralisation per the OWASP "CSV Injection" guidance (leading = + - @ tab CR get a ').
@@ -16,9 +17,10 @@ let database: Database;
 let clinicId: string;
 let tech: string;
 let biscuit: string;
+let bridgeToken: string;
 
 beforeAll(async () => {
-  ({ database, clinicId } = await seededDatabase());
+  ({ database, clinicId, bridgeToken } = await seededDatabase());
   tech = await signIn('tech@fernhollow.example');
   biscuit = (await patientByRecord(database.db, clinicId, 'FH-1001')).id;
 });
@@ -48,6 +50,22 @@ describe('results export', () => {
     expect(rows[4].reviewed_by).toBe('');
     const audit = await database.db.select().from(auditEvents).where(eq(auditEvents.action, 'results.exported'));
     expect(audit.at(-1)?.details).toMatchObject({ rows: 5, format: 'csv' });
+  });
+
+  it('coded and text results go out as sent (code, display, system; text; notes), never as an empty value', async () => {
+    // HL7 v2 OBX-5 as CE (code^text^coding system) and as ST, with an NTE comment and OBX-8 flag A (from memory).
+    const juniper = (await patientByRecord(database.db, clinicId, 'FH-1002')).id;
+    for (const [key, payload] of [
+      ['export-coded-1', { analyte: 'FELV', value: null, unit: null, code: { system: 'L', code: '1', display: 'Positive' }, flags: ['A'], notes: ['Confirm with a second test'], raw: 'OBX|1|CE|FELV||1^Positive^L||||A\r' }],
+      ['export-text-1', { analyte: 'UMIC', value: null, unit: null, text: '=Struvite crystals', raw: 'OBX|1|ST|UMIC||=Struvite crystals\r' }],
+    ] as const) {
+      const readingId = await ingestOne(bridgeToken, key, payload);
+      expect((await assign.POST(request('/api/readings/x/assign', { cookie: tech, body: { patientId: juniper } }), params({ readingId }))).status).toBe(200);
+    }
+    const rows = await parse(await get(`patientId=${juniper}`));
+    expect(rows.find((r) => r.test === 'FELV')).toMatchObject({ value: '', result_code: '1', result_display: 'Positive', result_code_system: 'L', result_text: '', flag: 'A', notes: 'Confirm with a second test' });
+    // A text result is a text cell like any other: a leading = is neutralised (OWASP CSV injection guidance).
+    expect(rows.find((r) => r.test === 'UMIC')).toMatchObject({ value: '', result_code: '', result_text: "'=Struvite crystals", flag: '' });
   });
 
   it('a date range counts clinic days inclusively', async () => {

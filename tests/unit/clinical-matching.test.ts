@@ -175,6 +175,61 @@ describe('probabilities for an anonymous reading (worked cases)', () => {
     expect(probabilities(s.get('r2')!)['o-1'] ?? 0).toBeLessThan(0.001);
   });
 
+  it('an aborted run must have fitted on the reader between its previous reading and the next run', () => {
+    // Two single-channel readers (one run at a time; an aborted run holds a reader until re-insertion,
+    // about 40 s: common practice, no source); B has sent nothing today. A's previous reading came at
+    // 10:20:52, 23 s before the run behind a reading on A at 10:33:20 began (10:21:15). Biscuit's run,
+    // named on A, was clicked at 10:21:36; Juniper's, no reader named, at 10:22:22 (it may be running on B).
+    // For Juniper's to be the one, Biscuit's would have to have been aborted on A inside those 23 s,
+    // shorter than an aborted run lasts: Biscuit's, confidently.
+    const T = 2000;
+    const orders = [order('o-b', 'p-biscuit', T - 704), order('o-j', 'p-juniper', T - 658, { instrumentId: null })];
+    const placed = [{ instrumentId: READER_A, arrivedAt: at(T - 748), startedAt: at(T - 748 - RUN) }];
+    const s = suggestMatch(reading(T), context(orders, { instruments: instruments.slice(0, 2), placed }));
+    expect(s.candidates[0].orderId).toBe('o-b');
+    expect(s.confident).toBe(true);
+  });
+
+  it('a click a few seconds before a reader\'s last reading still lets that run be running there', () => {
+    // Two readers. Reader A's previous reading came at 10:20:00, reader B's at 10:20:50; a reading on A at
+    // 10:33:20. Biscuit's run (no reader named) was clicked at 10:21:46, Juniper's (none named) at 10:20:48,
+    // 2 s before B's reading: with clicks a minute early or late, Juniper's run may well have started on B
+    // after it and still be running, so the reading on A may be either's. The start is one unknown: "after
+    // B's last reading" and "reading still to come" are weighed together, not as two independent chances.
+    const T = 2000;
+    const orders = [order('o-b', 'p-biscuit', T - 694, { instrumentId: null }), order('o-j', 'p-juniper', T - 752, { instrumentId: null })];
+    const placed = [
+      { instrumentId: READER_A, arrivedAt: at(T - 800), startedAt: at(T - 800 - RUN) },
+      { instrumentId: READER_B, arrivedAt: at(T - 750), startedAt: at(T - 750 - RUN) },
+    ];
+    const s = suggestMatch(reading(T), context(orders, { instruments: instruments.slice(0, 2), placed }));
+    const p = probabilities(s);
+    expect(s.confident).toBe(false);
+    expect(p['o-b']).toBeGreaterThan(0.2);
+    expect(p['o-j']).toBeGreaterThan(0.2);
+  });
+
+  it('an unnamed run read as aborted must have fitted on a reader too', () => {
+    // Three readers; a reading on A at 10:33:20, so the run behind it began at 10:21:15. B and C were busy
+    // all that time (their runs 10:18:35–10:30:40 and 10:19:51–10:31:56); A was free from its previous
+    // reading at 10:19:30. Biscuit's run, named on A, was clicked at 10:20:41; Juniper's, no reader named,
+    // at 10:21:12. Whichever is not the reading's was aborted (it has no reading), and its short aborted
+    // run (about 40 s, until re-insertion: common practice, no source) had to fit on A before 10:21:15:
+    // Biscuit's would need a click 6 s late, Juniper's one at least 37 s late. So Juniper's is the likelier,
+    // though Biscuit's click is nearer the due time; and neither is confident.
+    const T = 2000;
+    const orders = [order('o-b', 'p-biscuit', T - 759), order('o-j', 'p-juniper', T - 728, { instrumentId: null })];
+    const placed = [
+      { instrumentId: READER_B, arrivedAt: at(T - 160), startedAt: at(T - 160 - RUN) },
+      { instrumentId: READER_C, arrivedAt: at(T - 84), startedAt: at(T - 84 - RUN) },
+      { instrumentId: READER_A, arrivedAt: at(T - 830), startedAt: at(T - 830 - RUN) },
+    ];
+    const s = suggestMatch(reading(T), context(orders, { placed }));
+    const p = probabilities(s);
+    expect(s.confident).toBe(false);
+    expect(p['o-j']).toBeGreaterThan(p['o-b']);
+  });
+
   it('leaves out closed orders, other tests and runs started after the reading arrived', () => {
     const orders = [order('o-closed', 'p-biscuit', 0, { status: 'fulfilled' }), order('o-glu', 'p-juniper', 0, { analyte: 'GLU' }), order('o-later', 'p-moss', RUN + 1)];
     const s = suggestMatch(reading(RUN), context(orders));

@@ -4,6 +4,7 @@ import Link from 'next/link';
 import { PageHeader, buttonClass } from '@/app/components/ui';
 import { AlertsMailPanel } from './alerts-mail-panel';
 import { BridgesPanel } from './bridges-panel';
+import { CaptureImportPanel } from './capture-import-panel';
 import { ClinicalPanel } from './clinical-panel';
 import { InstrumentHealthPanel } from './instrument-health';
 import { InstrumentsPanel } from './instruments-panel';
@@ -41,6 +42,7 @@ export default async function AdminPage() {
         <MatchingReportPanel />
         <AlertsMailPanel />
         <PatientImportPanel />
+        <CaptureImportPanel />
         <IntegrationsPanel />
       </div>
     </>

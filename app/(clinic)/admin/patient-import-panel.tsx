@@ -3,6 +3,7 @@
 // (nothing is written), then import in one step. Record numbers already in Benchwire are updated or skipped.
 import { useState } from 'react';
 import { Notice, buttonClass, inputClass } from '@/app/components/ui';
+import { upload } from '@/lib/client/fetcher';
 import { Panel, td, th } from './panel';
 
 interface Preview {
@@ -15,18 +16,7 @@ interface Preview {
 
 const ACTION_LABEL = { create: 'New patient', update: 'Update', skip: 'Skip (already on file)', error: 'Error' } as const;
 
-async function post(fields: Record<string, string>, file: File) {
-  const form = new FormData();
-  form.set('file', file);
-  for (const [k, v] of Object.entries(fields)) form.set(k, v);
-  const response = await fetch('/api/admin/patients/import', { method: 'POST', body: form, headers: { accept: 'application/json' } });
-  const data = await response.json().catch(() => null);
-  if (!response.ok) {
-    const issues = (data?.error?.issues ?? []) as { path: string; message: string }[];
-    throw new Error([data?.error?.message ?? `Upload failed (${response.status}).`, ...issues.slice(0, 5).map((i) => `${i.path}: ${i.message}`)].join('\n'));
-  }
-  return data;
-}
+const post = <T,>(fields: Record<string, string>, file: File) => upload<T>('/api/admin/patients/import', fields, file);
 
 export function PatientImportPanel() {
   const [file, setFile] = useState<File | null>(null);
@@ -50,7 +40,7 @@ export function PatientImportPanel() {
     setBusy(true);
     setMessage(null);
     try {
-      const result = (await post(fields('preview', m), file)) as Preview;
+      const result = await post<Preview>(fields('preview', m), file);
       setPreview(result);
       setMapping(result.mapping);
     } catch (e) {
@@ -65,7 +55,7 @@ export function PatientImportPanel() {
     setBusy(true);
     setMessage(null);
     try {
-      const result = await post(fields('confirm'), file);
+      const result = await post<{ created: number; updated: number; skip: number; error: number }>(fields('confirm'), file);
       setMessage({ tone: 'ok', text: `Imported: ${result.created} new, ${result.updated} updated, ${result.skip} skipped${result.error ? `, ${result.error} rows with errors left out` : ''}.` });
       setPreview(null);
       setMapping(null);

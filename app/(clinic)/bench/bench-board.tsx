@@ -4,7 +4,7 @@ import useSWR from 'swr';
 import { Modal } from '@/app/components/modal';
 import { Field, Notice, buttonClass, inputClass } from '@/app/components/ui';
 import { fetcher, send } from '@/lib/client/fetcher';
-import { abortProbability } from '@/lib/clinical/matching';
+import { abortProbability, type TimingModel } from '@/lib/clinical/matching';
 import { formatCountdown, formatDuration, runState } from '@/lib/clinical/protocols';
 import { formatDateTime } from '@/lib/format';
 import type { OrderView } from '@/lib/orders';
@@ -21,7 +21,7 @@ const STALE_AT = 0.9;
 export function BenchBoard({ canRun }: { canRun: boolean }) {
   // Countdowns run on the server's clock: the offset is measured each time the list arrives.
   const [offset, setOffset] = useState(0);
-  const { data, error, mutate } = useSWR<{ orders: BenchOrder[]; now: string }>('/api/orders?status=open', fetcher, {
+  const { data, error, mutate } = useSWR<{ orders: BenchOrder[]; timing: TimingModel; now: string }>('/api/orders?status=open', fetcher, {
     refreshInterval: 60_000,
     onSuccess: (d) => setOffset(new Date(d.now).getTime() - Date.now()),
   });
@@ -65,8 +65,9 @@ export function BenchBoard({ canRun }: { canRun: boolean }) {
       <ul className="grid gap-3 sm:grid-cols-2">
         {orders.map((o) => {
           const state = runState(new Date(o.startedAt), o.stages, now, o.lateSeconds ?? 180);
-          // How likely the run was aborted, given no reading so far: grows with how overdue it is.
-          const staleness = state.phase === 'overdue' ? abortProbability(-state.secondsToDue) : 0;
+          // How likely the run was aborted, given no reading so far: grows with how overdue it is, judged
+          // with the clinic's learned timing (the matcher's estimate, sent with the list).
+          const staleness = state.phase === 'overdue' ? abortProbability(-state.secondsToDue, data?.timing) : 0;
           const probablyAborted = staleness >= STALE_AT;
           const tone =
             state.phase === 'overdue'

@@ -2,9 +2,11 @@
 // of its main query and the query count, which shows an N+1), and ingest through lib/readings/ingest
 // against a raw multi-row INSERT of the same rows into the same database.
 import { randomUUID } from 'node:crypto';
+import { join } from 'node:path';
 import { PGlite } from '@electric-sql/pglite';
 import { sql } from 'drizzle-orm';
 import { drizzle } from 'drizzle-orm/pglite';
+import { migrate } from 'drizzle-orm/pglite/migrator';
 import { installDatabase, pgliteOptions, schema, type Db } from '@/db/client';
 import type { Bridge } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
@@ -120,6 +122,8 @@ export async function benchInProcess(report: Report, dataDir: string, batches: n
   const log: Logged[] = [];
   let capturing = false;
   const db = drizzle({ client: pg, schema, casing: 'snake_case', logger: { logQuery: (q, p) => capturing && log.push({ sql: q, params: p }) } });
+  // A data set built before the latest migrations is brought up to date, as the server would on start.
+  await migrate(db, { migrationsFolder: join(process.cwd(), 'db', 'migrations') });
   installDatabase({ db: db as unknown as Db, kind: 'pglite', listen: (c, f) => pg.listen(c, f), durable: async () => {}, close: () => pg.close() });
   const first = async <T>(q: string, p: unknown[] = []) => (await pg.query<T>(q, p)).rows[0];
   const clinic = await first<{ id: string }>(`select id from clinics order by created_at limit 1`);

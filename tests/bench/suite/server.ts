@@ -30,11 +30,11 @@ export interface Server {
 }
 
 /** server.ts under node with tsx's loader directly, so the child's pid is the server's own (for RSS). */
-export async function startServer(dataDir: string): Promise<Server> {
+export async function startServer(dataDir: string, args: string[] = []): Promise<Server> {
   const port = await freePort();
   const env = { ...process.env, PORT: String(port), DATA_DIR: dataDir, HOST: '127.0.0.1', NODE_ENV: 'production' as const, NEXT_TELEMETRY_DISABLED: '1', TSX_TSCONFIG_PATH: 'tsconfig.server.json' };
   const t = now();
-  const child = spawn(process.execPath, ['--import', 'tsx', 'server.ts'], { cwd: root, env, stdio: ['ignore', 'pipe', 'pipe'] });
+  const child = spawn(process.execPath, ['--import', 'tsx', 'server.ts', ...args], { cwd: root, env, stdio: ['ignore', 'pipe', 'pipe'] });
   let output = '';
   child.stdout?.on('data', (d) => (output += d));
   child.stderr?.on('data', (d) => (output += d));

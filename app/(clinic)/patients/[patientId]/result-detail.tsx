@@ -22,6 +22,7 @@ interface HistoryEntry {
 
 const ACTION_LABEL: Record<string, string> = {
   'reading.received': 'Received from the bench',
+  'reading.imported': 'Imported from a capture file',
   'reading.assigned': 'Assigned',
   'reading.reassigned': 'Moved to this patient',
   'reading.voided': 'Voided',

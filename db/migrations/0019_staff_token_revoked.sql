@@ -1,0 +1,1 @@
+ALTER TABLE "staff_tokens" ADD COLUMN "revoked_at" timestamp with time zone;
