@@ -12,15 +12,9 @@ import { decideQuality, NO_QUALITY, qualityColumnsOnArrival, recordQuality, type
 import { specimensFor } from './specimens';
 import { unitsOnArrival } from './instrument-units';
 
-// Half of a UTF-16 pair without its other half: no character, and a JSON document holding one is refused.
-const LONE_SURROGATE = /[\uD800-\uDBFF](?![\uDC00-\uDFFF])|(?<![\uD800-\uDBFF])[\uDC00-\uDFFF]/g;
-
-/**
- * PostgreSQL text cannot hold U+0000, which line noise often sends; keep it visible as ␀ (U+2400) instead.
- * A lone UTF-16 surrogate becomes U+FFFD, as writing it out as UTF-8 would make it anyway.
- */
+/** PostgreSQL text cannot hold U+0000, which line noise often sends; keep it visible as ␀ (U+2400) instead. */
 export function storable<T>(value: T): T {
-  if (typeof value === 'string') return value.replaceAll('\u0000', '\u2400').replace(LONE_SURROGATE, '\uFFFD') as T;
+  if (typeof value === 'string') return value.replaceAll('\u0000', '\u2400') as T;
   if (Array.isArray(value)) return value.map(storable) as T;
   if (value && typeof value === 'object') {
     return Object.fromEntries(Object.entries(value).map(([k, v]) => [k, storable(v)])) as T;
