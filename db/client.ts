@@ -48,6 +48,15 @@ export interface Database {
 
 const MIGRATIONS = path.join(/*turbopackIgnore: true*/ process.cwd(), 'db', 'migrations');
 
+/** PGlite's options here (and in the bench, which opens the data set as the server would). */
+export function pgliteOptions() {
+  return {
+    // pg_trgm: substring search (patient names, record numbers, owners) through trigram indexes.
+    extensions: { pg_trgm },
+    startParams: [...PGlite.defaultStartParams, '-c', `shared_buffers=${sharedBuffers()}`],
+  };
+}
+
 /**
  * Opens embedded PostgreSQL (PGlite) at dir, or in memory when dir is undefined, and applies
  * the committed migrations. PGlite allows one process per data directory (openDataDir locks it).
@@ -57,8 +66,7 @@ export async function openDatabase(dir?: string): Promise<Database> {
     fs.mkdirSync(dir, { recursive: true, mode: 0o700 });
     initDataDirApart(dir);
   }
-  // pg_trgm: substring search (patient names, record numbers, owners) through trigram indexes.
-  const pg = await PGlite.create(dir, { extensions: { pg_trgm }, startParams: [...PGlite.defaultStartParams, '-c', `shared_buffers=${sharedBuffers()}`] });
+  const pg = await PGlite.create(dir, pgliteOptions());
   const db = drizzle({ client: pg, schema, casing: 'snake_case' });
   await migrate(db, { migrationsFolder: MIGRATIONS });
   const sync = dir ? durableSyncer(dir) : null;

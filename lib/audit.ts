@@ -2,6 +2,7 @@ import 'server-only';
 import { and, asc, desc, eq, like, lt, or, sql } from 'drizzle-orm';
 import { db, type Executor } from '@/db/client';
 import { auditEvents, bridges, clinics, patients, staffUsers } from '@/db/schema';
+import { insertJsonRows } from '@/lib/bulk-insert';
 
 export interface AuditEntry {
   clinicId: string;
@@ -103,5 +104,10 @@ export async function auditActions(clinicId: string) {
 /** Appends many entries in one multi-row INSERT (a bridge's batch); same rules as recordAudit. */
 export async function recordAudits(tx: Executor, entries: AuditEntry[]): Promise<void> {
   if (!entries.length) return;
-  await tx.insert(auditEvents).values(entries.map((entry) => ({ ...entry, details: entry.details ?? {} })));
+  // As one JSON parameter: a bridge's batch brings hundreds (lib/bulk-insert.ts).
+  await insertJsonRows(
+    tx,
+    auditEvents,
+    entries.map((e) => ({ clinicId: e.clinicId, actorUserId: e.actorUserId ?? null, actorBridgeId: e.actorBridgeId ?? null, action: e.action, entityType: e.entityType, entityId: e.entityId, details: e.details ?? {} })),
+  );
 }

@@ -40,15 +40,16 @@ try {
     fs.cpSync(datasetDir, work, { recursive: true });
     try {
       let rawRate = NaN;
+      let sameRowsRate = NaN;
       if (wanted('db')) {
         step('in-process: read-path SQL with EXPLAIN, ingest against raw INSERT');
-        ({ rawRate } = await benchInProcess(report, work, quick ? 3 : 10));
+        ({ rawRate, sameRowsRate } = await benchInProcess(report, work, quick ? 3 : 10));
       }
       if (wanted('server')) {
         step('production build (only when sources changed)');
         buildIfNeeded(process.env, '[bench]');
         step('the real server on the loaded data set');
-        await benchServer(report, work, { rawRate, batches: quick ? 4 : 20, fanOutBatches: quick ? 2 : 10, slips: quick ? 20 : 60 });
+        await benchServer(report, work, { rawRate, sameRowsRate, batches: quick ? 4 : 20, fanOutBatches: quick ? 2 : 10, slips: quick ? 20 : 60 });
       }
     } finally {
       fs.rmSync(work, { recursive: true, force: true });

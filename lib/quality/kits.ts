@@ -65,6 +65,14 @@ export function temperatureMark(
 }
 
 /** The calendar day (YYYY-MM-DD) an instant falls on in a time zone. */
+// One formatter per time zone: making one costs far more than formatting with it (ingest asks per reading).
+const dayFormats = new Map<string, Intl.DateTimeFormat>();
+
 export function localDay(at: Date, timeZone: string): string {
-  return new Intl.DateTimeFormat('en-CA', { timeZone, year: 'numeric', month: '2-digit', day: '2-digit' }).format(at);
+  let format = dayFormats.get(timeZone);
+  if (!format) {
+    format = new Intl.DateTimeFormat('en-CA', { timeZone, year: 'numeric', month: '2-digit', day: '2-digit' });
+    dayFormats.set(timeZone, format);
+  }
+  return format.format(at);
 }

@@ -24,6 +24,13 @@ export interface QcReadingRow {
   sent: { value: number; unit: string } | null;
 }
 
+/** Which QC readings: one test or several, one instrument (null: readings without one) or all. */
+export interface QcFilter {
+  analyte?: string;
+  analytes?: readonly string[];
+  instrumentId?: string | null;
+}
+
 /** A QC reading that cannot be compared with its control's target: its unit does not convert to the control's. */
 export interface QcUnitProblem {
   id: string;
@@ -73,9 +80,10 @@ export function inControlUnits(rows: StoredQcRow[]): { comparable: QcReadingRow[
 }
 
 /** QC readings that name a material and have a number, oldest first, in their controls' units, with those that cannot be. */
-export async function qcReadingsWithUnits(tx: Executor, clinicId: string, filter: { analyte?: string; instrumentId?: string | null } = {}) {
+export async function qcReadingsWithUnits(tx: Executor, clinicId: string, filter: QcFilter = {}) {
   const conditions = [eq(readings.clinicId, clinicId), eq(readings.status, 'control')];
   if (filter.analyte) conditions.push(eq(readings.analyte, filter.analyte));
+  if (filter.analytes) conditions.push(inArray(readings.analyte, [...filter.analytes]));
   if (filter.instrumentId !== undefined) {
     conditions.push(filter.instrumentId === null ? isNull(readings.instrumentId) : eq(readings.instrumentId, filter.instrumentId));
   }
@@ -101,7 +109,7 @@ export async function qcReadingsWithUnits(tx: Executor, clinicId: string, filter
 }
 
 /** QC readings that can be compared with their controls' targets (see qcReadingsWithUnits), oldest first. */
-export async function qcReadings(tx: Executor, clinicId: string, filter: { analyte?: string; instrumentId?: string | null } = {}) {
+export async function qcReadings(tx: Executor, clinicId: string, filter: QcFilter = {}) {
   return (await qcReadingsWithUnits(tx, clinicId, filter)).comparable;
 }
 
@@ -119,7 +127,9 @@ export function evaluateGroups(rows: QcReadingRow[]): QcGroup[] {
   const groups = new Map<string, QcReadingRow[]>();
   for (const row of rows) {
     const key = `${row.analyte}|${row.instrumentId ?? ''}`;
-    groups.set(key, [...(groups.get(key) ?? []), row]);
+    const list = groups.get(key);
+    if (list) list.push(row);
+    else groups.set(key, [row]);
   }
   return [...groups.entries()].map(([key, list]) => {
     // A material is one level; two lots of "level 1" are two materials, so the material id is the level key.

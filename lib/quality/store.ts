@@ -161,13 +161,31 @@ export async function updateKitLot(actor: Actor, lotId: string, input: KitLotUpd
 /** The lot loaded in an instrument for an analyte (the newest opened one still in use). */
 export async function loadedLot(tx: Executor, clinicId: string, instrumentId: string | null, analyte: string) {
   if (!instrumentId) return null;
-  const [lot] = await tx
+  return (await loadedLots(tx, clinicId, [{ instrumentId, analyte }])).get(`${instrumentId}|${analyte}`) ?? null;
+}
+
+/** The lot loaded for each instrument and analyte (keyed `instrumentId|analyte`), in one query for a batch. */
+export async function loadedLots(tx: Executor, clinicId: string, pairs: readonly { instrumentId: string; analyte: string }[]) {
+  const found = new Map<string, typeof kitLots.$inferSelect>();
+  if (!pairs.length) return found;
+  const lots = await tx
     .select()
     .from(kitLots)
-    .where(and(eq(kitLots.clinicId, clinicId), eq(kitLots.instrumentId, instrumentId), eq(kitLots.analyte, analyte), isNull(kitLots.finishedAt)))
-    .orderBy(desc(sql`coalesce(${kitLots.openedOn}, ${kitLots.createdAt}::date)`), desc(kitLots.createdAt))
-    .limit(1);
-  return lot ?? null;
+    .where(
+      and(
+        eq(kitLots.clinicId, clinicId),
+        inArray(kitLots.instrumentId, [...new Set(pairs.map((p) => p.instrumentId))]),
+        inArray(kitLots.analyte, [...new Set(pairs.map((p) => p.analyte))]),
+        isNull(kitLots.finishedAt),
+      ),
+    )
+    .orderBy(desc(sql`coalesce(${kitLots.openedOn}, ${kitLots.createdAt}::date)`), desc(kitLots.createdAt));
+  // In this order the first lot of each pair is the one in use.
+  for (const lot of lots) {
+    const key = `${lot.instrumentId}|${lot.analyte}`;
+    if (!found.has(key)) found.set(key, lot);
+  }
+  return found;
 }
 
 // ───────────── room temperature ─────────────
@@ -275,16 +293,24 @@ export async function establishControlTarget(actor: Actor, materialId: string) {
  * slip printed (a printout profile's control line), else the only one without a sample ID. Never a guess
  * between two: an unmatched QC reading waits on the QC page for a person to name its material.
  */
-export async function matchControlMaterial(
-  tx: Executor,
-  clinicId: string,
-  reading: { analyte: string; instrumentId: string | null; sampleId: string | null; level?: string | null },
-) {
-  const candidates = await tx
+export async function matchControlMaterial(tx: Executor, clinicId: string, reading: ControlRun) {
+  return pickControlMaterial(await activeControlMaterials(tx, clinicId, [reading.analyte]), reading);
+}
+
+type ControlRun = { analyte: string; instrumentId: string | null; sampleId: string | null; level?: string | null };
+
+/** The clinic's active control materials for these analytes (a batch's control runs look them up once). */
+export async function activeControlMaterials(tx: Executor, clinicId: string, analytes: readonly string[]) {
+  if (!analytes.length) return [];
+  return tx
     .select()
     .from(controlMaterials)
-    .where(and(eq(controlMaterials.clinicId, clinicId), eq(controlMaterials.analyte, reading.analyte), eq(controlMaterials.active, true)));
-  const here = candidates.filter((m) => m.instrumentId === null || m.instrumentId === reading.instrumentId);
+    .where(and(eq(controlMaterials.clinicId, clinicId), inArray(controlMaterials.analyte, [...new Set(analytes)]), eq(controlMaterials.active, true)));
+}
+
+/** matchControlMaterial's choice among materials already loaded. */
+export function pickControlMaterial<M extends typeof controlMaterials.$inferSelect>(materials: readonly M[], reading: ControlRun): M | null {
+  const here = materials.filter((m) => m.analyte === reading.analyte && (m.instrumentId === null || m.instrumentId === reading.instrumentId));
   const sample = reading.sampleId?.trim().toLowerCase();
   const bySample = sample ? here.filter((m) => m.sampleId?.trim().toLowerCase() === sample) : [];
   if (bySample.length === 1) return bySample[0];

@@ -1,13 +1,15 @@
 import 'server-only';
+import { randomUUID } from 'node:crypto';
 import { and, eq, inArray, sql } from 'drizzle-orm';
 import { getDatabase, type Tx } from '@/db/client';
-import { bridges, instruments, readings, unparsedCaptures, type Bridge } from '@/db/schema';
+import { bridges, instruments, readings, unparsedCaptures, type Bridge, type Reading } from '@/db/schema';
+import { insertJsonRows } from '@/lib/bulk-insert';
 import { recordAudits, type AuditEntry } from '@/lib/audit';
 import { publishBatch } from '@/lib/live/bus';
 import type { BridgeBatch, BridgeBatchResult, BridgeRecord } from '@/lib/validation/readings';
 import { autoAssignBatchOnIngest } from './suggestions';
-import { applyQualityOnIngest } from '@/lib/quality/ingest-step';
-import { specimenFor } from './specimens';
+import { decideQuality, NO_QUALITY, qualityColumnsOnArrival, recordQuality, type QualityDecision } from '@/lib/quality/ingest-step';
+import { specimensFor } from './specimens';
 import { unitsOnArrival } from './instrument-units';
 
 /** PostgreSQL text cannot hold U+0000, which line noise often sends; keep it visible as ␀ (U+2400) instead. */
@@ -40,10 +42,12 @@ export type IngestSource =
   | { clinicId: string; bridgeId: null; captureImportId: string; importedBy: string };
 
 /**
- * Stores records in the caller's transaction, set-wise: one multi-row INSERT for the readings and one for
- * the unparsed captures (ON CONFLICT DO NOTHING on (bridge, key)), one for their audit events, one NOTIFY
- * per kind carrying the new ids; then the lab-quality step on each new reading. Every reading is stored
- * unassigned: only the caller may apply the clinic's exact-ID rule (a bridge upload does).
+ * Stores records in the caller's transaction, set-wise: whatever the number of records, one query finds
+ * those already stored, specimens are found and made for all at once (lib/readings/specimens.ts), the
+ * lab-quality step is decided for all before anything is stored (lib/quality/ingest-step.ts), and one
+ * INSERT each stores the readings, the unparsed captures (ON CONFLICT DO NOTHING on (bridge, key)) and
+ * their audit events, with one NOTIFY per kind carrying the new ids. Every reading is stored unassigned
+ * (or as a control run): only the caller may apply the clinic's exact-ID rule (a bridge upload does).
  * Used by a bridge's upload (ingestBatch) and by a capture-file import (lib/import/captures.ts).
  */
 export async function storeRecords(tx: Tx, source: IngestSource, received: BridgeRecord[]) {
@@ -70,75 +74,97 @@ export async function storeRecords(tx: Tx, source: IngestSource, received: Bridg
   const readingRecords = records.filter((r): r is ReadingRecord => r.payload.kind === 'reading');
   const captureRecords = records.filter((r): r is CaptureRecord => r.payload.kind === 'unparsed');
 
-  // The readings of one sample (same instrument and sample ID, or one message) share a specimen. Records
-  // this bridge already sent keep theirs; within the batch, one message's readings share one lookup.
+  // Records this bridge already sent are not stored again, nor is a key sent twice in this batch.
   const alreadyStored = await storedIds(tx, readings, source.bridgeId, readingRecords.map((r) => r.key));
-  const specimenByRecord = new Map<string, string>();
-  const specimenInBatch = new Map<string, string>();
-  for (const record of readingRecords) {
-    if (alreadyStored.has(record.key)) continue;
-    const p = record.payload;
-    const measuredAt = p.measuredAt ? new Date(p.measuredAt) : null;
-    const sameSample = `${record.instrument}|${p.sampleId?.trim().toLowerCase() ?? ''}|${p.patientRef?.trim() ?? ''}|${p.sampleId?.trim() ? '' : (measuredAt?.toISOString() ?? record.key)}`;
-    let specimenId = specimenInBatch.get(sameSample);
-    if (!specimenId) {
-      specimenId = await specimenFor(tx, { ...common(record), sampleId: p.sampleId, patientRef: p.patientRef, measuredAt });
-      specimenInBatch.set(sameSample, specimenId);
-    }
-    specimenByRecord.set(record.key, specimenId);
-  }
+  const seen = new Set(alreadyStored.keys());
+  const fresh = readingRecords.filter((r) => !seen.has(r.key) && seen.add(r.key));
+  // Ids made here, so every step below knows each reading's id before the one INSERT stores them all.
+  const ids = fresh.map(() => randomUUID());
+  const measuredAt = fresh.map((r) => (r.payload.measuredAt ? new Date(r.payload.measuredAt) : null));
+
+  // The readings of one sample (same instrument and sample ID, or one message) share a specimen.
+  const specimenIds = await specimensFor(
+    tx,
+    fresh.map((record, i) => ({ ...common(record), sampleId: record.payload.sampleId, patientRef: record.payload.patientRef, measuredAt: measuredAt[i] })),
+  );
 
   // Units UCUM cannot read are listed per instrument; one an administrator has mapped is read as mapped.
   const units = await unitsOnArrival(
     tx,
     source.clinicId,
-    readingRecords.filter((r) => !alreadyStored.has(r.key)).map((r) => ({ key: r.key, instrumentId: instrumentByCode.get(r.instrument) ?? null, unit: r.payload.unit })),
+    fresh.map((r) => ({ key: r.key, instrumentId: instrumentByCode.get(r.instrument) ?? null, unit: r.payload.unit })),
+  );
+
+  // Lab quality (QC recognition, kit lot, QC-failed and expiry marks), decided before anything may place a
+  // reading, and stored by the same INSERT.
+  const decisions = await decideQuality(
+    tx,
+    source.clinicId,
+    fresh.map((record, i) => {
+      const p = record.payload;
+      return {
+        id: ids[i],
+        instrumentId: instrumentByCode.get(record.instrument) ?? null,
+        analyte: p.analyte,
+        value: p.value,
+        // The unit as it will be stored (an administrator's mapping applied), so a control run is compared in it.
+        unit: units.get(record.key)?.unit ?? p.unit ?? null,
+        sampleId: p.sampleId,
+        measuredAt: measuredAt[i],
+        receivedAt: new Date(record.receivedAt),
+        specimenRole: p.specimenRole,
+        controlLevel: p.controlLevel,
+      };
+    }),
   );
 
   // Arrival numbers in the order the bridge sent the records (the analyzer's own order), drawn from the
   // column's sequence and handed out sorted, so a panel lists its tests as the analyzer printed them.
-  const arrivals = readingRecords.length
+  const arrivals = fresh.length
     ? (
         await tx.execute<{ n: string }>(
-          sql`select nextval(pg_get_serial_sequence('readings', 'arrival')) as n from generate_series(1, ${readingRecords.length})`,
+          sql`select nextval(pg_get_serial_sequence('readings', 'arrival')) as n from generate_series(1, ${fresh.length})`,
         )
       ).rows
         .map((r) => Number(r.n))
         .sort((a, b) => a - b)
     : [];
-  const createdReadings = readingRecords.length
-    ? await tx
-        .insert(readings)
-        .values(
-          readingRecords.map((record, index) => {
-            const p = record.payload;
-            return {
-              ...common(record),
-              arrival: arrivals[index],
-              valueDecimals: p.value === null ? null : (p.decimals ?? null),
-              specimenId: specimenByRecord.get(record.key) ?? null,
-              instrumentSerial: p.instrumentSerial,
-              instrumentRange: p.referenceRange,
-              resultStatus: p.resultStatus,
-              analyte: p.analyte,
-              value: p.value,
-              // A result is a number, a code or text (lib/validation/readings.ts), with the notes sent beside it.
-              valueCode: p.code,
-              valueText: p.text,
-              notes: p.notes,
-              comparator: p.comparator,
-              unit: units.get(record.key)?.unit ?? p.unit,
-              printedUnit: units.get(record.key)?.printedUnit ?? null,
-              flags: p.flags,
-              sampleId: p.sampleId,
-              patientRef: p.patientRef,
-              measuredAt: p.measuredAt ? new Date(p.measuredAt) : null,
-            };
-          }),
-        )
-        .onConflictDoNothing({ target: [readings.bridgeId, readings.idempotencyKey] })
-        .returning()
-    : [];
+  // Every column set on every row (the JSON insert leaves none to a default).
+  const readingRows = fresh.map((record, index) => {
+    const p = record.payload;
+    const unit = units.get(record.key);
+    return {
+      ...common(record),
+      id: ids[index],
+      arrival: arrivals[index],
+      valueDecimals: p.value === null ? null : (p.decimals ?? null),
+      specimenId: specimenIds[index],
+      ...qualityColumnsOnArrival(decisions[index]),
+      instrumentSerial: p.instrumentSerial ?? null,
+      instrumentRange: p.referenceRange ?? null,
+      resultStatus: p.resultStatus ?? null,
+      analyte: p.analyte,
+      value: p.value,
+      // A result is a number, a code or text (lib/validation/readings.ts), with the notes sent beside it.
+      valueCode: p.code ?? null,
+      valueText: p.text ?? null,
+      notes: p.notes ?? [],
+      comparator: p.comparator ?? null,
+      unit: unit?.unit ?? p.unit ?? null,
+      printedUnit: unit?.printedUnit ?? null,
+      flags: p.flags ?? [],
+      sampleId: p.sampleId ?? null,
+      patientRef: p.patientRef ?? null,
+      measuredAt: measuredAt[index],
+    };
+  });
+  // As one JSON document rather than 5,000 parameters (lib/bulk-insert.ts).
+  const createdReadings = await insertJsonRows<typeof readings, Pick<Reading, 'id' | 'idempotencyKey'>>(
+    tx,
+    readings,
+    readingRows,
+    sql`on conflict (bridge_id, idempotency_key) do nothing returning id, idempotency_key as "idempotencyKey"`,
+  );
   const createdCaptures = captureRecords.length
     ? await tx
         .insert(unparsedCaptures)
@@ -149,7 +175,11 @@ export async function storeRecords(tx: Tx, source: IngestSource, received: Bridg
 
   const newReading = new Map(createdReadings.map((r) => [r.idempotencyKey, r.id]));
   const newCapture = new Map(createdCaptures.map((r) => [r.key, r.id]));
-  const earlierReadings = await storedIds(tx, readings, source.bridgeId, readingRecords.filter((r) => !newReading.has(r.key)).map((r) => r.key));
+  // Stored before (found above), or by another upload of the same records while this one ran.
+  const earlierReadings = new Map([
+    ...alreadyStored,
+    ...(await storedIds(tx, readings, source.bridgeId, readingRecords.filter((r) => !newReading.has(r.key) && !alreadyStored.has(r.key)).map((r) => r.key))),
+  ]);
   const earlierCaptures = await storedIds(tx, unparsedCaptures, source.bridgeId, captureRecords.filter((r) => !newCapture.has(r.key)).map((r) => r.key));
 
   // In the batch's order; a key sent twice in one batch is created once and a duplicate after that.
@@ -186,11 +216,15 @@ export async function storeRecords(tx: Tx, source: IngestSource, received: Bridg
   await recordAudits(tx, audits);
   await publishBatch(tx, { type: 'reading.created', clinicId: source.clinicId }, createdReadings.map((r) => r.id));
   await publishBatch(tx, { type: 'capture.created', clinicId: source.clinicId }, createdCaptures.map((r) => r.id));
-  // Lab quality (QC recognition, kit lot, QC-failed mark): a separate step, before anything may place a reading.
-  const payloadByKey = new Map(readingRecords.map((r) => [r.key, r.payload]));
-  const checked = [];
-  for (const row of createdReadings) checked.push(await applyQualityOnIngest(tx, row, payloadByKey.get(row.idempotencyKey) ?? {}, source.importedBy));
-  return { results, readings: checked, captureIds: createdCaptures.map((r) => r.id) };
+  const decisionById = new Map<string, QualityDecision>(ids.map((id, i) => [id, decisions[i]]));
+  await recordQuality(tx, { clinicId: source.clinicId, ...actor }, createdReadings.map((reading) => ({ reading, decision: decisionById.get(reading.id) ?? NO_QUALITY })));
+  // What was stored new, as the exact-ID rule and an import's counts need it; a control run never waits in Intake.
+  const stored = fresh.flatMap((record, i) =>
+    newReading.get(record.key) === ids[i]
+      ? [{ id: ids[i], status: decisions[i].control ? ('control' as const) : ('unassigned' as const), sampleId: record.payload.sampleId ?? null, patientRef: record.payload.patientRef ?? null }]
+      : [],
+  );
+  return { results, readings: stored, captureIds: createdCaptures.map((r) => r.id) };
 }
 
 /**

@@ -1,7 +1,9 @@
 import 'server-only';
-import { and, desc, eq, gte, isNull, lte, ne, sql } from 'drizzle-orm';
+import { randomUUID } from 'node:crypto';
+import { and, eq, ne, sql } from 'drizzle-orm';
 import type { Tx } from '@/db/client';
 import { readings, specimens, type Reading } from '@/db/schema';
+import { insertJsonRows } from '@/lib/bulk-insert';
 import type { Actor } from '@/lib/auth/guards';
 import { recordAudit } from '@/lib/audit';
 import { publish } from '@/lib/live/bus';
@@ -35,61 +37,99 @@ const blank = (value: string | null) => !value || !value.trim();
  * an advisory lock on the key makes two uploads of one panel land on one specimen under concurrency.
  */
 export async function specimenFor(tx: Tx, key: SpecimenKey): Promise<string> {
-  const sampleId = blank(key.sampleId) ? null : key.sampleId!.trim();
-  const patientRef = blank(key.patientRef) ? null : key.patientRef!.trim();
-  const lockKey = `${key.clinicId}|${key.instrumentCode}|${sampleId?.toLowerCase() ?? ''}|${patientRef ?? ''}`;
-  await tx.execute(sql`select pg_advisory_xact_lock(hashtext(${lockKey}))`);
+  const [id] = await specimensFor(tx, [key]);
+  return id;
+}
 
-  let existing: { id: string } | undefined;
-  if (sampleId) {
-    [existing] = await tx
-      .select({ id: specimens.id })
-      .from(specimens)
-      .where(
-        and(
-          eq(specimens.clinicId, key.clinicId),
-          eq(specimens.instrumentCode, key.instrumentCode),
-          sql`lower(${specimens.sampleId}) = ${sampleId.toLowerCase()}`,
-          isNull(specimens.splitFrom),
-          gte(specimens.receivedAt, new Date(key.receivedAt.getTime() - SAME_SAMPLE_WINDOW_MS)),
-          lte(specimens.receivedAt, new Date(key.receivedAt.getTime() + SAME_SAMPLE_WINDOW_MS)),
-        ),
-      )
-      .orderBy(desc(specimens.receivedAt))
-      .limit(1);
-  } else if (key.measuredAt) {
-    // Same instrument, no sample ID, same patient ID (or none) and the same measurement time.
-    [existing] = await tx
-      .select({ id: specimens.id })
-      .from(specimens)
-      .innerJoin(readings, eq(readings.specimenId, specimens.id))
-      .where(
-        and(
-          eq(specimens.clinicId, key.clinicId),
-          eq(specimens.instrumentCode, key.instrumentCode),
-          isNull(specimens.sampleId),
-          isNull(specimens.splitFrom),
-          patientRef ? eq(specimens.patientRef, patientRef) : isNull(specimens.patientRef),
-          eq(readings.measuredAt, key.measuredAt),
-          gte(specimens.receivedAt, new Date(key.receivedAt.getTime() - SAME_MESSAGE_WINDOW_MS)),
-        ),
-      )
-      .orderBy(desc(specimens.receivedAt))
-      .limit(1);
+/** One tube or one message of a batch: the readings that share a specimen without asking the database. */
+interface Group extends SpecimenKey {
+  sampleId: string | null;
+  patientRef: string | null;
+  lock: string;
+}
+
+/**
+ * specimenFor for a batch's new readings, in order (one id per key), set-wise: one statement takes the
+ * locks, at most two look up existing specimens, one creates the rest. The answer is the one specimenFor
+ * called on each reading in turn gives: readings of one tube (same instrument and sample ID) or one message
+ * (no sample ID, same measurement time) share one; a tube's later reading also finds a specimen made for
+ * an earlier reading of the same call, as it would once that one was stored.
+ */
+export async function specimensFor(tx: Tx, keys: readonly SpecimenKey[]): Promise<string[]> {
+  if (!keys.length) return [];
+  const groupOf: string[] = [];
+  const groups = new Map<string, Group>();
+  keys.forEach((key, i) => {
+    const sampleId = blank(key.sampleId) ? null : key.sampleId!.trim();
+    const patientRef = blank(key.patientRef) ? null : key.patientRef!.trim();
+    const lock = `${key.clinicId}|${key.instrumentCode}|${sampleId?.toLowerCase() ?? ''}|${patientRef ?? ''}`;
+    // Without a sample ID only the same measurement time makes one message; without that, each reading is its own.
+    const group = `${lock}|${sampleId ? '' : (key.measuredAt?.toISOString() ?? `#${i}`)}`;
+    groupOf.push(group);
+    if (!groups.has(group)) groups.set(group, { ...key, sampleId, patientRef, lock });
+  });
+  const firsts = [...groups.entries()];
+
+  // In one order for every caller, so two batches waiting on each other's keys cannot deadlock.
+  const locks = JSON.stringify([...new Set(firsts.map(([, g]) => g.lock))]);
+  await tx.execute(sql`select count(pg_advisory_xact_lock(h)) from (select distinct hashtext(k) as h from jsonb_array_elements_text(${locks}::jsonb) as l(k) order by h) as s`);
+
+  type Found = { id: string; receivedAt: number };
+  const existing = new Map<number, Found>();
+  const bySample = firsts.map(([, g], i) => ({ g, i })).filter(({ g }) => g.sampleId);
+  if (bySample.length) {
+    // Same instrument and sample ID (any case), arrived within the window, not split off: the newest.
+    const wanted = JSON.stringify(bySample.map(({ g, i }) => ({ i, clinic: g.clinicId, code: g.instrumentCode, sample: g.sampleId!.toLowerCase(), at: g.receivedAt.toISOString() })));
+    const found = await tx.execute<{ i: number; id: string; received_at: string | Date }>(sql`
+      select k.i, s.id, s.received_at from jsonb_to_recordset(${wanted}::jsonb) as k(i int, clinic uuid, code text, sample text, at timestamptz)
+      cross join lateral (
+        select ${specimens.id} as id, ${specimens.receivedAt} as received_at from ${specimens}
+        where ${specimens.clinicId} = k.clinic and ${specimens.instrumentCode} = k.code and lower(${specimens.sampleId}) = k.sample
+          and ${specimens.splitFrom} is null
+          and ${specimens.receivedAt} >= k.at - make_interval(secs => ${SAME_SAMPLE_WINDOW_MS / 1000})
+          and ${specimens.receivedAt} <= k.at + make_interval(secs => ${SAME_SAMPLE_WINDOW_MS / 1000})
+        order by ${specimens.receivedAt} desc limit 1) as s`);
+    for (const row of found.rows) existing.set(Number(row.i), { id: row.id, receivedAt: new Date(row.received_at).getTime() });
   }
-  if (existing) return existing.id;
-  const [created] = await tx
-    .insert(specimens)
-    .values({
-      clinicId: key.clinicId,
-      instrumentId: key.instrumentId,
-      instrumentCode: key.instrumentCode,
-      sampleId,
-      patientRef,
-      receivedAt: key.receivedAt,
-    })
-    .returning({ id: specimens.id });
-  return created.id;
+  const byMessage = firsts.map(([, g], i) => ({ g, i })).filter(({ g }) => !g.sampleId && g.measuredAt);
+  if (byMessage.length) {
+    // Same instrument, no sample ID, same patient ID (or none), a reading with the same measurement time.
+    const wanted = JSON.stringify(byMessage.map(({ g, i }) => ({ i, clinic: g.clinicId, code: g.instrumentCode, ref: g.patientRef, measured: g.measuredAt!.toISOString(), at: g.receivedAt.toISOString() })));
+    const found = await tx.execute<{ i: number; id: string }>(sql`
+      select k.i, s.id from jsonb_to_recordset(${wanted}::jsonb) as k(i int, clinic uuid, code text, ref text, measured timestamptz, at timestamptz)
+      cross join lateral (
+        select ${specimens.id} as id from ${specimens} inner join ${readings} on ${readings.specimenId} = ${specimens.id}
+        where ${specimens.clinicId} = k.clinic and ${specimens.instrumentCode} = k.code and ${specimens.sampleId} is null
+          and ${specimens.splitFrom} is null and ${specimens.patientRef} is not distinct from k.ref
+          and ${readings.measuredAt} = k.measured
+          and ${specimens.receivedAt} >= k.at - make_interval(secs => ${SAME_MESSAGE_WINDOW_MS / 1000})
+        order by ${specimens.receivedAt} desc limit 1) as s`);
+    for (const row of found.rows) existing.set(Number(row.i), { id: row.id, receivedAt: 0 });
+  }
+
+  // In order, as one reading after another: a tube's specimen made earlier in this call counts like a stored one.
+  const made: (typeof specimens.$inferInsert & { id: string })[] = [];
+  const idOf = new Map<string, string>();
+  firsts.forEach(([group, g], i) => {
+    let choice = existing.get(i);
+    if (g.sampleId) {
+      const at = g.receivedAt.getTime();
+      for (const m of made) {
+        const t = (m.receivedAt as Date).getTime();
+        if (m.instrumentCode === g.instrumentCode && m.sampleId?.toLowerCase() === g.sampleId.toLowerCase() && Math.abs(t - at) <= SAME_SAMPLE_WINDOW_MS && (!choice || t > choice.receivedAt)) {
+          choice = { id: m.id, receivedAt: t };
+        }
+      }
+    }
+    if (!choice) {
+      const row = { id: randomUUID(), clinicId: g.clinicId, instrumentId: g.instrumentId, instrumentCode: g.instrumentCode, sampleId: g.sampleId, patientRef: g.patientRef, receivedAt: g.receivedAt };
+      made.push(row);
+      choice = { id: row.id, receivedAt: g.receivedAt.getTime() };
+    }
+    idOf.set(group, choice.id);
+  });
+  await insertJsonRows(tx, specimens, made);
+  return groupOf.map((group) => idOf.get(group)!);
 }
 
 /**

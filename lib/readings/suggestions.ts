@@ -171,11 +171,14 @@ export async function suggestionsForUnassigned(actor: Actor, perReading = 3): Pr
  * whose exact sample ID (or record number) names exactly one open order goes on that order's patient.
  * Off unless switched on. The setting and the open orders are looked up once for the whole batch.
  */
-export async function autoAssignBatchOnIngest(tx: Tx, bridge: Bridge, created: Reading[]): Promise<number> {
-  const named = created.filter((r) => r.sampleId || r.patientRef);
-  if (!named.length) return 0;
+export async function autoAssignBatchOnIngest(tx: Tx, bridge: Bridge, created: Pick<Reading, 'id' | 'sampleId' | 'patientRef'>[]): Promise<number> {
+  const namedIds = created.filter((r) => r.sampleId || r.patientRef).map((r) => r.id);
+  if (!namedIds.length) return 0;
   const settings = await clinicalSettings(tx, bridge.clinicId);
   if (!settings.autoAssignExactId) return 0;
+  // The whole rows only when the rule is on: ingest stores a batch without reading it back. In the batch's order.
+  const order = new Map(namedIds.map((id, i) => [id, i]));
+  const named = (await tx.select().from(readings).where(inArray(readings.id, namedIds))).sort((a, b) => order.get(a.id)! - order.get(b.id)!);
   const context = await matchContext(
     tx,
     bridge.clinicId,

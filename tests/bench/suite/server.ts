@@ -312,7 +312,7 @@ async function part(report: Report, name: string, run: () => Promise<void>) {
   }
 }
 
-export async function benchServer(report: Report, dataDir: string, options: { rawRate: number; batches: number; fanOutBatches: number; slips: number }) {
+export async function benchServer(report: Report, dataDir: string, options: { rawRate: number; sameRowsRate: number; batches: number; fanOutBatches: number; slips: number }) {
   const token = fs.readFileSync(path.join(dataDir, 'demo-bridge-token'), 'utf8').trim();
   // Baseline for start-up: node itself with tsx's loader and nothing else.
   let t = now();
@@ -350,7 +350,8 @@ export async function benchServer(report: Report, dataDir: string, options: { ra
     t = now();
     for (let n = 0; n < options.batches; n++) await postBatch(server.url, token, benchBatch('http1', n));
     const oneRate = (options.batches * BATCH) / (ms(t) / 1000);
-    report.add({ section: 'ingest (HTTP)', name: `POST /api/bridge/readings, 1 bridge, ${options.batches} × ${BATCH}`, value: oneRate, unit: 'readings/s', baseline: 'raw multi-row INSERT', baselineValue: options.rawRate, target: '≥ 0.7 of raw', met: oneRate / options.rawRate >= 0.7 });
+    report.add({ section: 'ingest (HTTP)', name: `POST /api/bridge/readings, 1 bridge, ${options.batches} × ${BATCH}`, value: oneRate, unit: 'readings/s', baseline: 'raw multi-row INSERT of the readings alone', baselineValue: options.rawRate, target: '≥ 0.7 of raw', met: oneRate / options.rawRate >= 0.7 });
+    report.add({ section: 'ingest (HTTP)', name: `POST /api/bridge/readings, 1 bridge, ${options.batches} × ${BATCH}`, value: oneRate, unit: 'readings/s', baseline: 'raw INSERTs of the same rows (specimens, readings, audit rows)', baselineValue: options.sameRowsRate, target: '≥ 0.7 of raw', met: oneRate / options.sameRowsRate >= 0.7 });
     const admin = await signIn(server.url, 'admin@fernhollow.example');
     const tokens = [token];
     for (let i = 0; i < 3; i++) {
