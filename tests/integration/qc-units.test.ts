@@ -94,6 +94,21 @@ describe('control values and QC readings in different units', () => {
     expect(qc.status.find((s: { instrumentId: string }) => s.instrumentId === instrumentId)).toEqual(before.status.find((s: { instrumentId: string }) => s.instrumentId === instrumentId));
   });
 
+  it('within one bridge batch too: a control rerun in mg/dL clears the QC-failed mark for the patient reading after it', async () => {
+    await send({ value: 7, unit: 'mg/dL' }); // 70 mg/L, +4 SD: rejected
+    const batch = [
+      readingRecord(`qc-units-batch-${String(++n).padStart(6, '0')}`, { analyte: 'cCRP', sampleId: 'QC-U1', value: 5.1, unit: 'mg/dL' }, CODE),
+      readingRecord(`qc-units-batch-${String(++n).padStart(6, '0')}`, { analyte: 'cCRP', value: 14, unit: 'mg/L' }, CODE),
+    ];
+    const response = await ingest(token, batch);
+    expect(response.status).toBe(200);
+    const [controlId, patientId] = (await body(response)).results.map((r: { id: string }) => r.id);
+    const rows = await database.db.select().from(readings).where(eq(readings.instrumentCode, CODE));
+    expect(rows.find((r) => r.id === controlId)?.status).toBe('control');
+    // 5.1 mg/dL is 51 mg/L (+0.2 SD, accepted); read as 5.1 mg/L it would be −9 SD and the patient result marked.
+    expect(rows.find((r) => r.id === patientId)).toMatchObject({ status: 'unassigned', qualityMarks: [] });
+  });
+
   it('a target established from 20 runs is in the control’s unit; a run in a unit that does not convert is left out, and the answer says so', async () => {
     const created = await materialRoute(
       request('/api/quality/materials', {
