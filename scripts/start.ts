@@ -6,6 +6,7 @@ import fs from 'node:fs';
 import path from 'node:path';
 import { buildIfNeeded } from './build-if-needed';
 import { startMailSink } from './mail-sink';
+import { SERVER_NODE_FLAGS } from '../lib/server-flags';
 
 const root = process.cwd();
 const port = Number(process.env.PORT ?? 3000);
@@ -54,7 +55,7 @@ async function main() {
   // The sink first, so the app's mail queue finds it; the app sends to it over SMTP like to any server.
   const mailDir = path.join(dataDir, 'mail');
   await startMailSink({ port: mailPort, dir: mailDir });
-  run('web app', bin('tsx'), ['--tsconfig', 'tsconfig.server.json', 'server.ts', '--seed-demo'], {
+  run('web app', bin('tsx'), [...SERVER_NODE_FLAGS, '--tsconfig', 'tsconfig.server.json', 'server.ts', '--seed-demo'], {
     SMTP_URL: process.env.SMTP_URL ?? `smtp://127.0.0.1:${mailPort}`,
     // Demo only: the Outbox page reads what the sink kept.
     MAIL_SINK_DIR: mailDir,

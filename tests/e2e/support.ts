@@ -7,6 +7,7 @@ import os from 'node:os';
 import path from 'node:path';
 import { afterAll, beforeAll } from 'vitest';
 import { chromium, type Browser, type Page } from 'playwright-core';
+import { SERVER_NODE_FLAGS } from '@/lib/server-flags';
 
 const root = process.cwd();
 const tsx = path.join(root, 'node_modules', '.bin', 'tsx');
@@ -63,7 +64,7 @@ export async function startApp(extraEnv: Record<string, string> = {}): Promise<R
     children.push(child);
     return child;
   };
-  track(spawn(tsx, ['--tsconfig', 'tsconfig.server.json', 'server.ts', '--seed-demo'], { cwd: root, env }), 'server');
+  track(spawn(tsx, [...SERVER_NODE_FLAGS, '--tsconfig', 'tsconfig.server.json', 'server.ts', '--seed-demo'], { cwd: root, env }), 'server');
   const baseUrl = `http://127.0.0.1:${port}`;
   await waitFor('the server to answer /api/health', async () => ((await fetch(`${baseUrl}/api/health`)).ok ? true : undefined), 120_000).catch(
     (error) => {

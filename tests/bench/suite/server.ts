@@ -16,6 +16,7 @@ import { HEAVY_PATIENT } from './dataset';
 import { BATCH, benchBatch } from './database';
 import { readPaths } from './paths';
 import { ms, now, percentile, rssMB, type Report } from './report';
+import { SERVER_NODE_FLAGS } from '@/lib/server-flags';
 
 const root = process.cwd();
 const sleep = (t: number) => new Promise((r) => setTimeout(r, t));
@@ -34,7 +35,7 @@ export async function startServer(dataDir: string, args: string[] = []): Promise
   const port = await freePort();
   const env = { ...process.env, PORT: String(port), DATA_DIR: dataDir, HOST: '127.0.0.1', NODE_ENV: 'production' as const, NEXT_TELEMETRY_DISABLED: '1', TSX_TSCONFIG_PATH: 'tsconfig.server.json' };
   const t = now();
-  const child = spawn(process.execPath, ['--import', 'tsx', 'server.ts', ...args], { cwd: root, env, stdio: ['ignore', 'pipe', 'pipe'] });
+  const child = spawn(process.execPath, [...SERVER_NODE_FLAGS, '--import', 'tsx', 'server.ts', ...args], { cwd: root, env, stdio: ['ignore', 'pipe', 'pipe'] });
   let output = '';
   child.stdout?.on('data', (d) => (output += d));
   child.stderr?.on('data', (d) => (output += d));
