@@ -233,7 +233,8 @@ export async function patientResults(actor: Actor, patientId: string) {
       and(eq(readings.clinicId, actor.clinicId), eq(readings.patientId, patientId), eq(readings.status, 'assigned')),
     )
     // An instrument may print no time: such a reading sorts by when it arrived, not above everything (NULLS FIRST).
-    .orderBy(desc(sql`coalesce(${readings.measuredAt}, ${readings.receivedAt})`), desc(readings.receivedAt));
+    // Within one time, the order the analyzer sent them (arrival), not whatever order the rows were stored in.
+    .orderBy(desc(sql`coalesce(${readings.measuredAt}, ${readings.receivedAt})`), desc(readings.receivedAt), asc(readings.arrival));
 }
 
 export async function listCaptures(actor: Actor, status: 'open' | 'transcribed' | 'dismissed', limit = 100) {
