@@ -62,7 +62,7 @@ export function AlertsMailPanel() {
       {mail.error && <Notice tone="error">Could not load e-mail: {mail.error.message}</Notice>}
       {mail.data?.mail.length === 0 && <p className="text-sm text-ink-500">Nothing sent yet.</p>}
       {mail.data && mail.data.mail.length > 0 && (
-        <div className="overflow-x-auto">
+        <div className="relative overflow-x-auto">
           <table className="min-w-full text-sm" data-testid="mail-list">
             <thead>
               <tr>

@@ -60,7 +60,7 @@ export function BridgesPanel() {
           <button type="button" className={`${buttonClass.quiet} mt-2`} onClick={() => setIssued(null)}>I have stored it</button>
         </div>
       )}
-      <div className="mb-5 overflow-x-auto">
+      <div className="relative mb-5 overflow-x-auto">
       <table className="min-w-full divide-y divide-ink-100 text-sm">
         <thead>
           <tr>

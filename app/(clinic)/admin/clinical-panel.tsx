@@ -83,7 +83,7 @@ export function ClinicalPanel() {
 
         <div>
           <h3 className="mb-2 font-semibold">Reference intervals</h3>
-          <div className="overflow-x-auto">
+          <div className="relative overflow-x-auto">
             <table className="min-w-full text-sm">
               <thead>
                 <tr>

@@ -43,7 +43,7 @@ export function InstrumentHealthPanel() {
             ))}
           </ul>
           <p className="text-xs text-ink-500">Offline after {data.offlineAfterMinutes} min without a heartbeat or upload.</p>
-          <div className="overflow-x-auto">
+          <div className="relative overflow-x-auto">
             <table className="min-w-full divide-y divide-ink-100 text-sm" data-testid="instrument-health">
               <thead>
                 <tr>

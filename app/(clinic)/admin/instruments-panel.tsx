@@ -152,7 +152,7 @@ export function InstrumentsPanel() {
   return (
     <Panel id="instruments" title="Instruments" intro="Each analyzer on the bench: how the bridge reaches it, how to read what it sends, and which tests it runs.">
       {message && <div className="mb-3"><Notice tone={message.tone}>{message.text}</Notice></div>}
-      <div className="mb-5 overflow-x-auto">
+      <div className="relative mb-5 overflow-x-auto">
       <table className="min-w-full divide-y divide-ink-100 text-sm">
         <thead>
           <tr>

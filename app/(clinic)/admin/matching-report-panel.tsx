@@ -56,7 +56,7 @@ export function MatchingReportPanel() {
           {r.notKept.length === 0 ? (
             <p className="text-sm text-ink-700">Every confident suggestion was the one kept.</p>
           ) : (
-            <div className="overflow-x-auto">
+            <div className="relative overflow-x-auto">
               <table className="min-w-full divide-y divide-ink-100 text-sm" aria-label="Confident suggestions not kept">
                 <thead>
                   <tr>

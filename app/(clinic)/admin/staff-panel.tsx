@@ -53,7 +53,7 @@ export function StaffPanel({ selfId }: { selfId: string }) {
   return (
     <Panel id="staff" title="Staff" intro="Everyone who signs in. Roles decide what each person may do; deactivated staff cannot sign in.">
       {message && <div className="mb-3"><Notice tone={message.tone}>{message.text}</Notice></div>}
-      <div className="mb-5 overflow-x-auto">
+      <div className="relative mb-5 overflow-x-auto">
       <table className="min-w-full divide-y divide-ink-100 text-sm">
         <thead>
           <tr>

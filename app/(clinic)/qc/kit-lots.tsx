@@ -14,7 +14,7 @@ export function KitLots({ data, canManage }: { data: Overview; canManage: boolea
       <p className="max-w-3xl text-sm text-ink-700">
         Each patient, QC or aborted run uses one test of the lot loaded in the instrument. A result produced on an expired lot is marked on the result.
       </p>
-      <div className="overflow-x-auto rounded-lg border border-ink-100 bg-white shadow-sm">
+      <div className="relative overflow-x-auto rounded-lg border border-ink-100 bg-white shadow-sm">
         <table className="min-w-full text-sm" data-testid="kit-lots">
           <thead className="bg-paper-deep/60 text-left text-xs uppercase tracking-wide text-ink-700">
             <tr>

@@ -351,7 +351,7 @@ function SigmaSection({ data, canManage }: { data: Overview; canManage: boolean 
       <p className="max-w-3xl text-sm text-ink-700">
         σ = (TEa − |bias|) / CV, in percent: bias of the observed mean against the control’s target, CV from the accepted runs.
       </p>
-      <div className="overflow-x-auto rounded-lg border border-ink-100 bg-white shadow-sm">
+      <div className="relative overflow-x-auto rounded-lg border border-ink-100 bg-white shadow-sm">
         <table className="min-w-full text-sm" data-testid="sigma-table">
           <thead className="bg-paper-deep/60 text-left text-xs uppercase tracking-wide text-ink-700">
             <tr>

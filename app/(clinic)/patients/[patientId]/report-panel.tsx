@@ -100,7 +100,7 @@ export function ReportPanel({ patientId, ownerEmail }: { patientId: string; owne
         })}
       </ul>
       {data.reports.length > 0 && (
-        <div className="overflow-x-auto rounded-lg border border-ink-100 bg-white shadow-sm">
+        <div className="relative overflow-x-auto rounded-lg border border-ink-100 bg-white shadow-sm">
           <table className="min-w-full divide-y divide-ink-100 text-sm" data-testid="sent-reports">
             <thead className="bg-paper-deep/60 text-left text-xs uppercase tracking-wide text-ink-700">
               <tr>
