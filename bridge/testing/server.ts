@@ -1,5 +1,5 @@
 import { createServer, type IncomingHttpHeaders } from 'node:http';
-import { connect, type AddressInfo, type Socket } from 'node:net';
+import { connect, createServer as createNetServer, type AddressInfo, type Socket } from 'node:net';
 import type { BridgeBatch, BridgeBatchResult } from '../../lib/validation/readings';
 
 // A real HTTP server on 127.0.0.1 for uploader and bridge tests; each test scripts its answers.
@@ -87,9 +87,14 @@ export async function dialWhenListening(port: number): Promise<Socket> {
   }
 }
 
-/** A port nothing listens on right now (connections are refused). */
-export async function freePort(): Promise<number> {
-  const probe = await startTestServer(() => ({ status: 500 }));
-  await probe.close();
-  return probe.port;
+/** A loopback port nothing listens on right now (connections are refused); the one helper for every test. */
+export function freePort(): Promise<number> {
+  return new Promise((resolve, reject) => {
+    const probe = createNetServer();
+    probe.once('error', reject);
+    probe.listen(0, '127.0.0.1', () => {
+      const { port } = probe.address() as AddressInfo;
+      probe.close(() => resolve(port));
+    });
+  });
 }

@@ -2,26 +2,18 @@
 // and Debian's chromium through playwright-core. Requires a production build (`npm test` makes one).
 import { spawn, type ChildProcess } from 'node:child_process';
 import fs from 'node:fs';
-import net from 'node:net';
 import os from 'node:os';
 import path from 'node:path';
 import { afterAll, beforeAll } from 'vitest';
 import { chromium, type Browser, type Page } from 'playwright-core';
 import { SERVER_NODE_FLAGS } from '@/lib/server-flags';
+import { freePort } from '@/bridge/testing/server';
+
+// The browser tests take their ports from here too.
+export { freePort };
 
 const root = process.cwd();
 const tsx = path.join(root, 'node_modules', '.bin', 'tsx');
-
-export async function freePort(): Promise<number> {
-  return new Promise((resolve, reject) => {
-    const server = net.createServer();
-    server.once('error', reject);
-    server.listen(0, '127.0.0.1', () => {
-      const { port } = server.address() as net.AddressInfo;
-      server.close(() => resolve(port));
-    });
-  });
-}
 
 async function waitFor<T>(what: string, probe: () => Promise<T | undefined>, timeoutMs: number): Promise<T> {
   const deadline = Date.now() + timeoutMs;

@@ -9,6 +9,7 @@
 import { spawn, type ChildProcess } from 'node:child_process';
 import fs from 'node:fs';
 import net from 'node:net';
+import { freePort } from '../../bridge/testing/server';
 import os from 'node:os';
 import path from 'node:path';
 import { sql } from 'drizzle-orm';
@@ -40,16 +41,6 @@ export function removeTempDirs(): void {
   for (const dir of made.splice(0)) fs.rmSync(dir, { recursive: true, force: true });
 }
 
-export function freePort(): Promise<number> {
-  return new Promise((resolve, reject) => {
-    const server = net.createServer();
-    server.once('error', reject);
-    server.listen(0, '127.0.0.1', () => {
-      const { port } = server.address() as net.AddressInfo;
-      server.close(() => resolve(port));
-    });
-  });
-}
 
 export const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
 
@@ -407,3 +398,4 @@ export async function stopAll(...things: ({ kill(signal: NodeJS.Signals): Promis
     else await thing.kill('SIGTERM').catch(() => {});
   }
 }
+

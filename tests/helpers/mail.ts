@@ -1,23 +1,12 @@
 // The real local SMTP sink (scripts/mail-sink.ts) on a free loopback port, and reading back what it kept
 // with mailparser, so e-mail tests check what an SMTP server actually received.
 import fs from 'node:fs';
-import net from 'node:net';
+import { freePort } from '@/bridge/testing/server';
 import os from 'node:os';
 import path from 'node:path';
 import { simpleParser, type ParsedMail } from 'mailparser';
 import type { SMTPServer } from 'smtp-server';
 import { startMailSink } from '@/scripts/mail-sink';
-
-export async function freeLoopbackPort(): Promise<number> {
-  return new Promise((resolve, reject) => {
-    const server = net.createServer();
-    server.once('error', reject);
-    server.listen(0, '127.0.0.1', () => {
-      const { port } = server.address() as net.AddressInfo;
-      server.close(() => resolve(port));
-    });
-  });
-}
 
 export interface Sink {
   port: number;
@@ -33,7 +22,7 @@ export interface Sink {
 }
 
 export async function mailSink(): Promise<Sink> {
-  const port = await freeLoopbackPort();
+  const port = await freePort();
   const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'benchwire-mail-'));
   const sink: Sink = {
     port,

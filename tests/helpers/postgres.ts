@@ -3,7 +3,7 @@
 // to run as root). Used by the PostgreSQL pass of the integration suite and the two-instance test.
 import { execFileSync, spawnSync } from 'node:child_process';
 import fs from 'node:fs';
-import net from 'node:net';
+import { freePort } from '@/bridge/testing/server';
 import os from 'node:os';
 import path from 'node:path';
 
@@ -16,17 +16,6 @@ export function postgresBin(): string | null {
     .filter((v) => fs.existsSync(path.join(base, v, 'bin', 'pg_ctl')) && fs.existsSync(path.join(base, v, 'bin', 'initdb')))
     .sort((a, b) => Number(b) - Number(a));
   return versions.length ? path.join(base, versions[0], 'bin') : null;
-}
-
-async function freePort(): Promise<number> {
-  return new Promise((resolve, reject) => {
-    const server = net.createServer();
-    server.once('error', reject);
-    server.listen(0, '127.0.0.1', () => {
-      const { port } = server.address() as net.AddressInfo;
-      server.close(() => resolve(port));
-    });
-  });
 }
 
 export interface TestPostgres {

@@ -10,7 +10,8 @@ import { auditEvents, outboundMail } from '@/db/schema';
 import { deliverDueMail, enqueueMail, isPermanentFailure, retryDelayMs, transportFromEnv } from '@/lib/mail/queue';
 import { seededDatabase } from '../helpers/db';
 import { params, request, signIn } from '../helpers/http';
-import { freeLoopbackPort, mailSink, type Sink } from '../helpers/mail';
+import { freePort } from '@/bridge/testing/server';
+import { mailSink, type Sink } from '../helpers/mail';
 
 // The e-mail queue against the real local SMTP sink (smtp-server on loopback), read back with mailparser.
 
@@ -77,7 +78,7 @@ describe('delivery through the local SMTP sink', () => {
   });
 
   it('keeps retrying with backoff while the sink is down, and delivers once it is back', async () => {
-    const downPort = await freeLoopbackPort();
+    const downPort = await freePort();
     const transport = () => transportFromEnv({ SMTP_URL: `smtp://127.0.0.1:${downPort}` });
     const t0 = new Date('2026-03-02T09:00:00Z');
     const mail = await queue(['referrals@example.org'], { subject: 'Retry me', now: t0 });
@@ -113,7 +114,7 @@ describe('delivery through the local SMTP sink', () => {
   });
 
   it('a permanent refusal (550) fails at once and stays listed with the server’s answer; an admin can queue it again', async () => {
-    const port = await freeLoopbackPort();
+    const port = await freePort();
     const refusing = new SMTPServer({
       authOptional: true,
       disabledCommands: ['STARTTLS'],
@@ -155,7 +156,7 @@ describe('delivery through the local SMTP sink', () => {
   });
 
   it('gives up after its last attempt and marks the message failed', async () => {
-    const downPort = await freeLoopbackPort();
+    const downPort = await freePort();
     const t0 = new Date('2026-03-02T10:00:00Z');
     const mail = await queue(['late@example.org'], { subject: 'Gives up', now: t0 });
     await database.db.update(outboundMail).set({ maxAttempts: 2 }).where(eq(outboundMail.id, mail.id));
