@@ -11,6 +11,7 @@ import { FLAG_CODE } from '@/lib/clinical/flags';
 import { APP_VERSION } from '@/lib/config';
 import { ApiError } from '@/lib/http';
 import { capabilityStatement, diagnosticReportResource, observationResource, operationOutcome, patientResource, searchBundle } from './resources';
+import { resultValueColumns } from '@/lib/readings/queries';
 
 // The FHIR read API: token check, search parameters, paging, and answers as FHIR JSON.
 
@@ -156,16 +157,7 @@ async function observationRows(integration: IntegrationToken, where: SQL | undef
       patientId: readings.patientId,
       analyte: readings.analyte,
       analyteName: analyteSettings.name,
-      value: readings.value,
-      comparator: readings.comparator,
-      unit: readings.unit,
-      printedUnit: readings.printedUnit,
-      valueCode: readings.valueCode,
-      valueText: readings.valueText,
-      notes: readings.notes,
-      // evaluateResult reads the analyzer's own flags and range too (a coded result's interpretation).
-      flags: readings.flags,
-      instrumentRange: readings.instrumentRange,
+      ...resultValueColumns,
       resultStatus: readings.resultStatus,
       measuredAt: readings.measuredAt,
       receivedAt: readings.receivedAt,

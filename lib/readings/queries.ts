@@ -9,23 +9,32 @@ import { notFound } from '@/lib/http';
 import { historyForPatient } from './history';
 import type { WaitingQuery } from '@/lib/validation/api';
 
-const readingColumns = {
-  id: readings.id,
-  status: readings.status,
-  analyte: readings.analyte,
+/**
+ * A result as sent: a number (with comparator and unit), a code or text, the notes beside it, and the
+ * analyzer's own flags and range. What evaluateResult reads; selected alike by every screen and export.
+ */
+export const resultValueColumns = {
   value: readings.value,
-  /** The precision the value was sent with (null when unknown: typed in, older rows). */
-  valueDecimals: readings.valueDecimals,
-  valueCode: readings.valueCode,
-  valueText: readings.valueText,
-  notes: readings.notes,
-  enteredBy: readings.enteredBy,
-  /** Who typed the result in from an unparsed capture (null for an instrument's own). */
-  enteredByName: sql<string | null>`(select ${staffUsers.displayName} from ${staffUsers} where ${staffUsers.id} = ${readings.enteredBy})`,
   comparator: readings.comparator,
   unit: readings.unit,
   printedUnit: readings.printedUnit,
+  valueCode: readings.valueCode,
+  valueText: readings.valueText,
+  notes: readings.notes,
   flags: readings.flags,
+  instrumentRange: readings.instrumentRange,
+};
+
+const readingColumns = {
+  ...resultValueColumns,
+  id: readings.id,
+  status: readings.status,
+  analyte: readings.analyte,
+  /** The precision the value was sent with (null when unknown: typed in, older rows). */
+  valueDecimals: readings.valueDecimals,
+  enteredBy: readings.enteredBy,
+  /** Who typed the result in from an unparsed capture (null for an instrument's own). */
+  enteredByName: sql<string | null>`(select ${staffUsers.displayName} from ${staffUsers} where ${staffUsers.id} = ${readings.enteredBy})`,
   sampleId: readings.sampleId,
   patientRef: readings.patientRef,
   measuredAt: readings.measuredAt,
@@ -33,7 +42,6 @@ const readingColumns = {
   instrumentId: readings.instrumentId,
   instrumentCode: readings.instrumentCode,
   instrumentSerial: readings.instrumentSerial,
-  instrumentRange: readings.instrumentRange,
   resultStatus: readings.resultStatus,
   instrumentName: instruments.name,
   raw: readings.raw,

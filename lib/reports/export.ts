@@ -10,6 +10,7 @@ import { FLAG_CODE } from '@/lib/clinical/flags';
 import { toCsv } from '@/lib/csv';
 import { ApiError, notFound } from '@/lib/http';
 import type { ExportQuery } from '@/lib/validation/reports';
+import { resultValueColumns } from '@/lib/readings/queries';
 
 const MAX_ROWS = 50_000;
 
@@ -71,16 +72,7 @@ export async function exportResultsCsv(actor: Actor, query: ExportQuery) {
     .select({
       id: readings.id,
       analyte: readings.analyte,
-      value: readings.value,
-      comparator: readings.comparator,
-      unit: readings.unit,
-      printedUnit: readings.printedUnit,
-      valueCode: readings.valueCode,
-      valueText: readings.valueText,
-      notes: readings.notes,
-      // The analyzer's flags and range: a coded result's interpretation and the analyzer's interval.
-      flags: readings.flags,
-      instrumentRange: readings.instrumentRange,
+      ...resultValueColumns,
       measuredAt: readings.measuredAt,
       receivedAt: readings.receivedAt,
       instrumentId: readings.instrumentId,
