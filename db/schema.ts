@@ -1,6 +1,7 @@
 // The one schema: every table, every constraint. Migrations are generated from it (npm run db:generate).
 // Every row belongs to a clinic, so a clinic group can share one PostgreSQL server later.
 import { sql } from 'drizzle-orm';
+import { PATIENT_SEXES, SAMPLE_TYPES, SPECIES } from './vocabulary';
 import {
   smallint,
   bigint,
@@ -28,21 +29,15 @@ const clinicRef = () =>
     .references(() => clinics.id, { onDelete: 'restrict' });
 
 export const staffRole = pgEnum('staff_role', ['admin', 'veterinarian', 'technician']);
-export const species = pgEnum('species', ['dog', 'cat', 'rabbit', 'ferret', 'bird', 'reptile', 'other']);
-export const patientSex = pgEnum('patient_sex', [
-  'male',
-  'male_neutered',
-  'female',
-  'female_spayed',
-  'unknown',
-]);
+export const species = pgEnum('species', SPECIES);
+export const patientSex = pgEnum('patient_sex', PATIENT_SEXES);
 /** 'active' is an open record; a merged record points at the one it was merged into. */
 export const patientStatus = pgEnum('patient_status', ['active', 'deceased', 'archived', 'merged']);
 /** 'control': a QC reading (recognised by sample ID, by the analyzer, or marked by hand); never on a patient. */
 export const readingStatus = pgEnum('reading_status', ['unassigned', 'assigned', 'voided', 'control']);
 export const captureStatus = pgEnum('capture_status', ['open', 'transcribed', 'dismissed']);
 export const orderStatus = pgEnum('order_status', ['open', 'fulfilled', 'aborted', 'cancelled']);
-export const sampleType = pgEnum('sample_type', ['whole_blood', 'serum', 'plasma', 'urine', 'other']);
+export const sampleType = pgEnum('sample_type', SAMPLE_TYPES);
 export const reviewKind = pgEnum('review_kind', ['comment', 'reviewed']);
 
 /** Stands in for "no instrument" in unique indexes, so a species-wide default is unique too. */

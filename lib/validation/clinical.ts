@@ -1,11 +1,11 @@
 import { z } from 'zod';
 import { text, isoDateTime } from './text';
-import { sampleType, species } from '@/db/schema';
+import { SAMPLE_TYPES, SPECIES } from '@/db/vocabulary';
 import { emailAddress } from './api';
 
 // Request shapes for orders, matching, review, alerts and the clinic's clinical settings.
 
-export const SAMPLE_TYPE_LABELS: Record<(typeof sampleType.enumValues)[number], string> = {
+export const SAMPLE_TYPE_LABELS: Record<(typeof SAMPLE_TYPES)[number], string> = {
   whole_blood: 'Whole blood',
   serum: 'Serum',
   plasma: 'Plasma',
@@ -22,7 +22,7 @@ export const newOrderSchema = z.object({
   patientId: z.uuid('Choose a patient.'),
   analyte: text(64, { min: 1, minMessage: 'Choose the test.' }),
   instrumentId: z.uuid().optional(),
-  sampleType: z.enum(sampleType.enumValues, 'Choose the sample type.'),
+  sampleType: z.enum(SAMPLE_TYPES, 'Choose the sample type.'),
   sampleId: optionalText(64),
   kitLot: optionalText(64),
   orderedBy: z.uuid('Choose who ordered the test.'),
@@ -122,7 +122,7 @@ const limit = z.number().finite().nullable();
 export const intervalSchema = z
   .object({
     analyte: text(64, { min: 1 }),
-    species: z.enum(species.enumValues),
+    species: z.enum(SPECIES),
     instrumentId: z.uuid().nullable().default(null),
     unit: text(32, { min: 1 }),
     low: limit,
@@ -149,7 +149,7 @@ export type IntervalInput = z.infer<typeof intervalSchema>;
 export const analyteSettingsSchema = z.object({
   displayUnit: text(32, { min: 1 }),
   decimals: z.number().int().min(0).max(6),
-  validatedSpecies: z.array(z.enum(species.enumValues)).max(10),
+  validatedSpecies: z.array(z.enum(SPECIES)).max(10),
   deltaAbsolute: z.number().positive().nullable(),
   deltaPercent: z.number().positive().nullable(),
   deltaWindowHours: z.number().positive().nullable(),

@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { patientSex, species } from '@/db/schema';
+import { PATIENT_SEXES, SPECIES } from '@/db/vocabulary';
 
 // Patient and owner shapes shared by the New patient / Edit forms and the route handlers, so a field
 // error reads the same in the browser and in a 400 from the API.
@@ -45,9 +45,9 @@ export const patientInputSchema = z
       .max(40, 'Use at most 40 characters.')
       .regex(/^[A-Za-z0-9][A-Za-z0-9./-]*$/, RECORD_NUMBER_HINT),
     name: z.string({ message: 'Enter the patient’s name.' }).trim().min(1, 'Enter the patient’s name.').max(80, 'Use at most 80 characters.'),
-    species: z.enum(species.enumValues, { message: 'Choose the species.' }),
+    species: z.enum(SPECIES, { message: 'Choose the species.' }),
     breed: optionalText(80),
-    sex: z.enum(patientSex.enumValues, { message: 'Choose the sex and neuter status.' }).default('unknown'),
+    sex: z.enum(PATIENT_SEXES, { message: 'Choose the sex and neuter status.' }).default('unknown'),
     /** Known date of birth, or… */
     dateOfBirth: pastDate('date of birth'),
     /** …an estimated age today (years and months), turned into an estimated date of birth. */
@@ -129,7 +129,7 @@ export type MergePatientsInput = z.output<typeof mergePatientsSchema>;
 export const patientListQuery = z.object({
   q: z.string().trim().max(100).default(''),
   limit: z.coerce.number().int().min(1).max(200).default(50),
-  species: z.enum(species.enumValues).optional(),
+  species: z.enum(SPECIES).optional(),
   /** 'open' (default): active records only. */
   status: z.enum(['open', 'all', 'active', 'deceased', 'archived', 'merged']).default('open'),
 });

@@ -8,7 +8,7 @@ import { useForm, type FieldPath } from 'react-hook-form';
 import { zodResolver } from '@hookform/resolvers/zod';
 import { Field, Notice, buttonClass, inputClass } from '@/app/components/ui';
 import { useDebounced } from '@/app/components/use-debounced';
-import { patientSex, species } from '@/db/schema';
+import { PATIENT_SEXES, SPECIES } from '@/db/vocabulary';
 import { ApiClientError, fetcher, send } from '@/lib/client/fetcher';
 import { sexLabel, speciesLabel } from '@/lib/format';
 import { RECORD_NUMBER_HINT, patientInputSchema, type PatientFormValues, type PatientInput } from '@/lib/validation/patients';
@@ -103,7 +103,7 @@ export function PatientForm({
             <option value="" disabled>
               Choose…
             </option>
-            {species.enumValues.map((s) => (
+            {SPECIES.map((s) => (
               <option key={s} value={s}>
                 {speciesLabel[s]}
               </option>
@@ -115,7 +115,7 @@ export function PatientForm({
         </Field>
         <Field id="patient-sex" label="Sex and neuter status" error={err('sex')}>
           <select id="patient-sex" className={inputClass} {...aria('sex')} {...register('sex')}>
-            {patientSex.enumValues.map((s) => (
+            {PATIENT_SEXES.map((s) => (
               <option key={s} value={s}>
                 {sexLabel[s][0].toUpperCase() + sexLabel[s].slice(1)}
               </option>

@@ -6,7 +6,7 @@ import { createColumnHelper } from '@tanstack/react-table';
 import { DataTable } from '@/app/components/data-table';
 import { Notice, inputClass } from '@/app/components/ui';
 import { fetcher } from '@/lib/client/fetcher';
-import { species as speciesEnum } from '@/db/schema';
+import { SPECIES } from '@/db/vocabulary';
 import { formatAge, sexLabel, speciesLabel } from '@/lib/format';
 import type { PatientView } from '@/lib/patients';
 
@@ -59,7 +59,7 @@ export function PatientSearch() {
           </label>
           <select id="patients-species" className={inputClass} value={species} onChange={(e) => setSpecies(e.target.value)}>
             <option value="">All</option>
-            {speciesEnum.enumValues.map((s) => (
+            {SPECIES.map((s) => (
               <option key={s} value={s}>
                 {speciesLabel[s]}
               </option>
