@@ -22,10 +22,18 @@ import { activeControlMaterials, clinicClock, loadedLots, pickControlMaterial } 
 
 import type { QualityMark } from './labels';
 
+// Compiled once per pattern, not per reading (a clinic has one; a server of a clinic group a few).
+const compiledQcPatterns = new Map<string, ReturnType<typeof compileLinePattern>>();
+
 export function isQcSampleId(sampleId: string | null, pattern: string): boolean {
   if (!sampleId || !pattern) return false;
   // The clinic's own pattern runs in the linear-time engine, like printout profiles.
-  const compiled = compileLinePattern(pattern, { ignoreCase: true });
+  let compiled = compiledQcPatterns.get(pattern);
+  if (!compiled) {
+    if (compiledQcPatterns.size >= 64) compiledQcPatterns.clear();
+    compiled = compileLinePattern(pattern, { ignoreCase: true });
+    compiledQcPatterns.set(pattern, compiled);
+  }
   return compiled.ok && compiled.pattern.test(sampleId);
 }
 
