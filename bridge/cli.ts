@@ -342,7 +342,7 @@ async function profileFile(path: string): Promise<ProfileDefinition> {
     throw new UsageError(`cannot read profile ${path}: ${(error as Error).message}`);
   }
   const definition = json && typeof json === 'object' && 'definition' in json ? (json as { definition: unknown }).definition : json;
-  const profile = loadProfile(definition);
+  const profile = await loadProfile(definition);
   if (!profile.ok) throw new UsageError(`profile ${path}: ${profile.message}`);
   return profile.definition;
 }

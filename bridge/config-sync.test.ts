@@ -46,9 +46,9 @@ afterEach(async () => {
 });
 
 describe('instrumentsOf', () => {
-  it('turns the server\'s connections into sources and leaves out what it cannot run, saying why', () => {
+  it('turns the server\'s connections into sources and leaves out what it cannot run, saying why', async () => {
     const profile = { key: 'p1', version: 2, definition: { analyzer: 'x', record: { end: '^END$' }, fields: [{ label: 'v', pattern: '^(?<value>\\d+)$' }], analyte: 'GLU' } };
-    const { instruments, problems } = instrumentsOf({
+    const { instruments, problems } = await instrumentsOf({
       version: 'v',
       instruments: [
         instrument('chem', 'astm-e1394', { kind: 'serial', path: '/dev/ttyUSB1', baudRate: 9600, dataBits: 7, parity: 'even', stopBits: 1, flowControl: 'xonxoff' }),

@@ -52,7 +52,7 @@ export const serverConfigSchema = z.object({
 export type ServerConfig = z.infer<typeof serverConfigSchema>;
 
 /** The server's instruments as the bridge runs them; those it cannot run are left out with a reason. */
-export function instrumentsOf(config: ServerConfig): { instruments: InstrumentConfig[]; problems: string[] } {
+export async function instrumentsOf(config: ServerConfig): Promise<{ instruments: InstrumentConfig[]; problems: string[] }> {
   const instruments: InstrumentConfig[] = [];
   const problems: string[] = [];
   for (const entry of config.instruments) {
@@ -83,7 +83,7 @@ export function instrumentsOf(config: ServerConfig): { instruments: InstrumentCo
         problems.push(`${entry.code}: reads by a printout profile, but none is set; not read`);
         continue;
       }
-      const profile = loadProfile(entry.profile.definition);
+      const profile = await loadProfile(entry.profile.definition);
       if (!profile.ok) {
         problems.push(`${entry.code}: profile ${entry.profile.key} v${entry.profile.version} is not valid (${profile.message}); not read`);
         continue;
@@ -201,7 +201,7 @@ export class ConfigSync extends EventEmitter<ConfigSyncEvents> {
   }
 
   private async use(config: ServerConfig, etag: string | undefined, save: boolean): Promise<void> {
-    const { instruments, problems } = instrumentsOf(config);
+    const { instruments, problems } = await instrumentsOf(config);
     for (const problem of problems) this.log.error(`config: ${problem}`);
     this.log.info(`config: version ${config.version}: ${instruments.map((i) => i.code).join(', ') || 'no instruments'}`);
     await this.options.apply(instruments);

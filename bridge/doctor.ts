@@ -261,7 +261,7 @@ async function serverInstruments(config: ServerConfig | undefined, spoolDir: str
       check: { name, ok: false, detail: "not known: the server's config could not be read and the spool holds no copy", fix: 'fix the token check above' },
     };
   }
-  const { instruments, problems } = instrumentsOf(config);
+  const { instruments, problems } = await instrumentsOf(config);
   if (instruments.length === 0) {
     return {
       instruments,

@@ -113,7 +113,7 @@ describe('ASTM over a real pseudo-terminal pair', () => {
 
 describe('a profile-defined printout over a real pseudo-terminal pair', () => {
   it('reads the printout by the profile and posts its readings and the stray text', async () => {
-    const definition = profileDefinitionSchema.parse({
+    const definition = await profileDefinitionSchema.parseAsync({
       analyzer: 'Invented electrolyte printer',
       record: { start: '^== ELECTROLYTES ==$', end: '^== END ==$' },
       fields: [

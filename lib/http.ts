@@ -186,7 +186,8 @@ export async function readJson<S extends z.ZodType>(request: Request, schema: S,
   }
   if (options.text === 'instrument') body = withWellFormedText(body);
   else rejectBadText(body, 'body');
-  return schema.parse(body);
+  // parseAsync: some schemas check with an engine they import only when needed (the QC pattern).
+  return schema.parseAsync(body);
 }
 
 /** Validates query parameters with a zod object schema. */

@@ -23,7 +23,7 @@ const panel: ProfileDefinitionInput = {
   dateFormat: 'DD.MM.YYYY',
   timeFormat: 'HH:mm',
 };
-const definition = profileDefinitionSchema.parse(panel);
+const definition = await profileDefinitionSchema.parseAsync(panel);
 const printout = [
   '*** CHEM PANEL ***',
   'ID: S-5001',
@@ -39,7 +39,7 @@ const printout = [
 pinTimeZone('Europe/Berlin');
 
 describe('previewProfile', () => {
-  it('reads one reading per repeating result line, with the record\'s own fields', () => {
+  it('reads one reading per repeating result line, with the record\'s own fields', async () => {
     const preview = previewProfile(definition, `PAPER OUT\r\n${printout}`);
     const common = { sampleId: 'S-5001', patientRef: 'PT-12', measuredAt: '2026-12-01T14:03:00+01:00', instrumentSerial: null, referenceRange: null, resultStatus: null, code: null, text: null, notes: [], raw: printout };
     expect(preview.outputs).toEqual([
@@ -55,7 +55,7 @@ describe('previewProfile', () => {
     expect(preview.records[0].lines[5].captures).toEqual({ analyte: 'CREA', value: '<18', unit: 'umol/L', flag: 'L' });
   });
 
-  it('says why a record is not read: a required line missing, a value that is no number, an impossible date', () => {
+  it('says why a record is not read: a required line missing, a value that is no number, an impossible date', async () => {
     const reasons = (text: string) => previewProfile(definition, text).outputs.map((o) => (o.kind === 'unparsed' ? o.reason : o.kind));
     expect(reasons(printout.replace('ID: S-5001\r\n', ''))).toEqual(['no line matches "Sample"']);
     expect(reasons(printout.replace('5,2', '5.2'))).toEqual(['GLU: value "5.2" is not a number with a decimal comma', 'reading', 'reading']);
@@ -64,8 +64,8 @@ describe('previewProfile', () => {
   });
 
   // A single-test reader: the test and unit come from the profile; a form feed ejects each slip.
-  it('reads form-feed slips of a single-test reader with a 12-hour clock', () => {
-    const slip = profileDefinitionSchema.parse({
+  it('reads form-feed slips of a single-test reader with a 12-hour clock', async () => {
+    const slip = await profileDefinitionSchema.parseAsync({
       analyzer: 'Invented SDMA reader',
       record: { formFeed: true },
       fields: [
@@ -86,10 +86,10 @@ describe('previewProfile', () => {
 });
 
 describe('loadProfile', () => {
-  it('refuses a bad profile with a message that points at the field', () => {
-    expect(loadProfile({ ...panel, fields: [{ label: 'x', pattern: '(?<value' }] })).toEqual({ ok: false, message: expect.stringMatching(/^fields\.0\.pattern: Not a valid pattern/) });
-    expect(loadProfile({ ...panel, record: {} })).toEqual({ ok: false, message: expect.stringMatching(/^record: Say how a record is told apart/) });
-    expect(loadProfile(panel)).toEqual({ ok: true, definition });
+  it('refuses a bad profile with a message that points at the field', async () => {
+    expect(await loadProfile({ ...panel, fields: [{ label: 'x', pattern: '(?<value' }] })).toEqual({ ok: false, message: expect.stringMatching(/^fields\.0\.pattern: Not a valid pattern/) });
+    expect(await loadProfile({ ...panel, record: {} })).toEqual({ ok: false, message: expect.stringMatching(/^record: Say how a record is told apart/) });
+    expect(await loadProfile(panel)).toEqual({ ok: true, definition });
   });
 });
 
@@ -120,19 +120,20 @@ describe('profile dialect on a byte stream', () => {
   });
 });
 
+const single = await profileDefinitionSchema.parseAsync({
+  analyzer: 'Invented single-test lactate printer',
+  record: { start: '^LACTATE TEST', idleMs: 600_000 },
+  fields: [
+    { label: 'Sample', pattern: '^SAMPLE\\s+(?<sampleId>\\S+)' },
+    { label: 'Result', pattern: '^(?<analyte>LAC)\\s+(?<value>[\\d.]+)\\s+(?<unit>mmol/L)$' },
+  ],
+});
+
 describe('a start-only profile whose fields are all read once', () => {
   // Our profile format (lib/validation/profile.ts): without an end line a record ends at the next start
   // or when the line goes quiet. When every field it defines has been read and none repeats, nothing
   // more can belong to the record, so it ends at that line. The longest quiet time the format allows
   // makes any wait visible: the reading must come from the bytes alone.
-  const single = profileDefinitionSchema.parse({
-    analyzer: 'Invented single-test lactate printer',
-    record: { start: '^LACTATE TEST', idleMs: 600_000 },
-    fields: [
-      { label: 'Sample', pattern: '^SAMPLE\\s+(?<sampleId>\\S+)' },
-      { label: 'Result', pattern: '^(?<analyte>LAC)\\s+(?<value>[\\d.]+)\\s+(?<unit>mmol/L)$' },
-    ],
-  });
 
   it('ends the record at its last field, without waiting for the next start or the quiet time', async () => {
     const stages = createParsingStages(profileDialect(single), {});
@@ -145,8 +146,8 @@ describe('a start-only profile whose fields are all read once', () => {
     for (const stage of stages) stage.destroy();
   });
 
-  it('a profile with a repeating field still waits (more results may follow)', () => {
-    const framing = profileDialect(profileDefinitionSchema.parse({ ...single, fields: [...single.fields, { label: 'More', pattern: '^X (?<value>\\d+)', repeats: true }] })).framing;
+  it('a profile with a repeating field still waits (more results may follow)', async () => {
+    const framing = profileDialect(await profileDefinitionSchema.parseAsync({ ...single, fields: [...single.fields, { label: 'More', pattern: '^X (?<value>\\d+)', repeats: true }] })).framing;
     expect(framing?.complete).toBeUndefined();
   });
 });
@@ -166,49 +167,50 @@ describe('patterns run in a linear-time engine', () => {
     ],
   };
 
-  it('accepts ^(a+)+$ and answers correctly on a 4,000-character line that almost matches (just under the line limit)', () => {
-    const loaded = loadProfile(catastrophic);
+  it('accepts ^(a+)+$ and answers correctly on a 4,000-character line that almost matches (just under the line limit)', async () => {
+    const loaded = await loadProfile(catastrophic);
     expect(loaded.ok).toBe(true);
     const almost = `${'a'.repeat(4_000)}!`;
-    const preview = previewProfile(profileDefinitionSchema.parse(catastrophic), `${almost}\nRESULT 12\n\f`);
+    const preview = previewProfile(await profileDefinitionSchema.parseAsync(catastrophic), `${almost}\nRESULT 12\n\f`);
     expect(preview.records).toHaveLength(1);
     // The filler line does not match (it ends in "!"); the result line does.
     expect(preview.records[0].lines.map((line) => line.fields)).toEqual([[], ['Result'], []]); // the last line is the form feed
     expect(preview.outputs).toEqual([expect.objectContaining({ kind: 'reading', analyte: 'CRP', value: 12 })]);
-    const whole = previewProfile(profileDefinitionSchema.parse(catastrophic), `${'a'.repeat(4_000)}\nRESULT 7\n\f`);
+    const whole = previewProfile(await profileDefinitionSchema.parseAsync(catastrophic), `${'a'.repeat(4_000)}\nRESULT 7\n\f`);
     expect(whole.records[0].lines.map((line) => line.fields)).toEqual([['Filler'], ['Result'], []]);
   });
 
-  it('refuses backreferences and lookaround at load, naming the field and why', () => {
+  it('refuses backreferences and lookaround at load, naming the field and why', async () => {
     const withPattern = (pattern: string) => ({ ...catastrophic, fields: [catastrophic.fields[1], { label: 'Extra', pattern }] });
-    expect(loadProfile(withPattern('^(\\d)\\1$'))).toEqual({ ok: false, message: expect.stringMatching(/^fields\.1\.pattern: Not a valid pattern: a backreference/) });
-    expect(loadProfile(withPattern('^(?<sampleId>\\S+)\\k<sampleId>'))).toEqual({ ok: false, message: expect.stringMatching(/^fields\.1\.pattern: .*backreference/) });
+    expect(await loadProfile(withPattern('^(\\d)\\1$'))).toEqual({ ok: false, message: expect.stringMatching(/^fields\.1\.pattern: Not a valid pattern: a backreference/) });
+    expect(await loadProfile(withPattern('^(?<sampleId>\\S+)\\k<sampleId>'))).toEqual({ ok: false, message: expect.stringMatching(/^fields\.1\.pattern: .*backreference/) });
     for (const look of ['^ID(?=:)', '^ID(?!X)', '(?<=ID:)\\S+', '(?<!X)ID']) {
-      expect(loadProfile(withPattern(look))).toEqual({ ok: false, message: expect.stringMatching(/^fields\.1\.pattern: Not a valid pattern: lookahead and lookbehind/) });
+      expect(await loadProfile(withPattern(look))).toEqual({ ok: false, message: expect.stringMatching(/^fields\.1\.pattern: Not a valid pattern: lookahead and lookbehind/) });
     }
-    expect(loadProfile({ ...catastrophic, record: { start: 'x(?=y)' } })).toEqual({ ok: false, message: expect.stringMatching(/^record\.start: .*lookahead/) });
+    expect(await loadProfile({ ...catastrophic, record: { start: 'x(?=y)' } })).toEqual({ ok: false, message: expect.stringMatching(/^record\.start: .*lookahead/) });
   });
 });
 
 // A single-test reader that prints no sample ID: a QC slip says so only in a line of its own. Invented
 // slips; that QC must never land on a patient is common practice, no source.
+const reader = await profileDefinitionSchema.parseAsync({
+  analyzer: 'Invented single-test CRP reader',
+  record: { formFeed: true },
+  fields: [
+    { label: 'Result', pattern: '^CRP\\s+(?<value>[<>]?[\\d.]+)\\s+(?<unit>\\S+)', required: true },
+    { label: 'Time', pattern: '^(?<date>\\d{4}-\\d\\d-\\d\\d) (?<time>\\d\\d:\\d\\d)$' },
+  ],
+  analyte: 'cCRP',
+  control: { pattern: '^QC\\s+LEVEL\\s+(?<level>\\S+)' },
+});
+
 describe('a control line marks a slip as a control run', () => {
-  const reader = profileDefinitionSchema.parse({
-    analyzer: 'Invented single-test CRP reader',
-    record: { formFeed: true },
-    fields: [
-      { label: 'Result', pattern: '^CRP\\s+(?<value>[<>]?[\\d.]+)\\s+(?<unit>\\S+)', required: true },
-      { label: 'Time', pattern: '^(?<date>\\d{4}-\\d\\d-\\d\\d) (?<time>\\d\\d:\\d\\d)$' },
-    ],
-    analyte: 'cCRP',
-    control: { pattern: '^QC\\s+LEVEL\\s+(?<level>\\S+)' },
-  });
   const patientSlip = 'CRP  12.4 mg/L\n2026-12-01 09:15\n\f';
   const qcSlip = 'QC LEVEL 2\nCRP  61.0 mg/L\n2026-12-01 09:20\n\f';
   const unlevelledQc = 'QC LEVEL\nCONTROL RUN\nCRP  11.8 mg/L\n2026-12-01 09:25\n\f';
   const capture = patientSlip + qcSlip + unlevelledQc;
 
-  it('gives every result of a slip with the line the control role and the printed level; others stay patient slips', () => {
+  it('gives every result of a slip with the line the control role and the printed level; others stay patient slips', async () => {
     const preview = previewProfile(reader, capture);
     expect(preview.outputs).toEqual([
       expect.objectContaining({ kind: 'reading', value: 12.4, sampleId: null }),
@@ -222,8 +224,8 @@ describe('a control line marks a slip as a control run', () => {
     expect(preview.records[1].lines.map((l) => l.fields)).toEqual([['Control run'], ['Result'], ['Time'], []]);
   });
 
-  it('a level is optional: a plain "control" line marks the slip without one', () => {
-    const plain = profileDefinitionSchema.parse({ ...reader, control: { pattern: '^CONTROL RUN$' } });
+  it('a level is optional: a plain "control" line marks the slip without one', async () => {
+    const plain = await profileDefinitionSchema.parseAsync({ ...reader, control: { pattern: '^CONTROL RUN$' } });
     const [, , third] = previewProfile(plain, capture).outputs;
     expect(third).toMatchObject({ specimenRole: 'control', value: 11.8 });
     expect(third).not.toHaveProperty('controlLevel');
@@ -242,13 +244,13 @@ describe('a control line marks a slip as a control run', () => {
     );
   });
 
-  it('a control slip that cannot be read says it is a control slip, so nobody types it in for a patient', () => {
+  it('a control slip that cannot be read says it is a control slip, so nobody types it in for a patient', async () => {
     const [out] = previewProfile(reader, 'QC LEVEL 1\nCRP  ?? mg/L\n\f').outputs;
     expect(out).toEqual({ kind: 'unparsed', raw: 'QC LEVEL 1\nCRP  ?? mg/L\n\f', reason: 'control slip: no line matches "Result"' });
   });
 
-  it('refuses a control pattern that captures anything but level, or uses lookaround, naming the field', () => {
-    expect(loadProfile({ ...reader, control: { pattern: '^QC (?<sampleId>\\S+)' } })).toEqual({ ok: false, message: 'control.pattern: A control line may capture only (?<level>…), not "sampleId".' });
-    expect(loadProfile({ ...reader, control: { pattern: '^(?=QC)' } })).toEqual({ ok: false, message: expect.stringMatching(/^control\.pattern: Not a valid pattern: lookahead and lookbehind/) });
+  it('refuses a control pattern that captures anything but level, or uses lookaround, naming the field', async () => {
+    expect(await loadProfile({ ...reader, control: { pattern: '^QC (?<sampleId>\\S+)' } })).toEqual({ ok: false, message: 'control.pattern: A control line may capture only (?<level>…), not "sampleId".' });
+    expect(await loadProfile({ ...reader, control: { pattern: '^(?=QC)' } })).toEqual({ ok: false, message: expect.stringMatching(/^control\.pattern: Not a valid pattern: lookahead and lookbehind/) });
   });
 });

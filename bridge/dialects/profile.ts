@@ -1,10 +1,11 @@
 import { printedDecimals } from '../../lib/validation/numbers';
 import {
+  namedGroupsOf,
   profileDefinitionSchema,
   type ProfileCapture,
   type ProfileDefinition,
 } from '../../lib/validation/profile';
-import { linePattern, namedGroupsOf, type LinePattern } from '../../lib/validation/pattern';
+import { linePattern, type LinePattern } from '../../lib/validation/pattern';
 import type { ParsedReading, ParserOutput, UnparsedFragment } from '../../lib/validation/readings';
 import { LineCutter, type Line } from '../framing/lines';
 import { RecordGrouper, type FramerOutput, type RecordFrame, type RecordFraming } from '../framing/records';
@@ -24,8 +25,8 @@ const START_ONLY_GAP_MS = 5_000;
 export type Captures = Partial<Record<ProfileCapture, string>>;
 
 /** Checks a definition as the server does; an error names the field it is about. */
-export function loadProfile(json: unknown): { ok: true; definition: ProfileDefinition } | { ok: false; message: string } {
-  const parsed = profileDefinitionSchema.safeParse(json);
+export async function loadProfile(json: unknown): Promise<{ ok: true; definition: ProfileDefinition } | { ok: false; message: string }> {
+  const parsed = await profileDefinitionSchema.safeParseAsync(json);
   if (parsed.success) return { ok: true, definition: parsed.data };
   const issue = parsed.error.issues[0];
   return { ok: false, message: `${issue?.path.join('.') || '(profile)'}: ${issue?.message}` };

@@ -14,7 +14,7 @@ import { OUTSIDE_RECORD } from './records';
 // ours). When the spool cannot write (disk full), lines wait in the stream buffers before the record
 // stage; the idle timer must not cut the slip it is holding into fragments meanwhile.
 
-const definition = profileDefinitionSchema.parse({
+const definition = await profileDefinitionSchema.parseAsync({
   analyzer: 'Invented single-test reader',
   record: { start: '^BEGIN', end: '^END', idleMs: 200 },
   analyte: 'CRP',

@@ -52,7 +52,7 @@ async function readerFor(tx: Executor, actor: Actor, instrumentId: string) {
           .limit(1)
       : [];
     if (!latest) throw new ApiError(409, 'no_profile', `${instrument.name} is read by a printout profile, but none is chosen. Choose one in Admin → Instruments first.`, [{ path: 'instrumentId', message: 'No printout profile.' }]);
-    const loaded = loadProfile(latest.definition);
+    const loaded = await loadProfile(latest.definition);
     if (!loaded.ok) throw new ApiError(409, 'profile_invalid', `The printout profile of ${instrument.name} is not valid (${loaded.message}).`, [{ path: 'instrumentId', message: 'Profile not valid.' }]);
     profile = { key: latest.profileKey, version: latest.version };
     dialect = profileDialect(loaded.definition, profile);

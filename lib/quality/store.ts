@@ -20,7 +20,7 @@ import { ApiError, notFound } from '@/lib/http';
 import { publish } from '@/lib/live/bus';
 import { isUniqueViolation } from '@/lib/staff';
 import {
-  qualitySettingsSchema,
+  storedQualitySettingsSchema,
   type ControlMaterialInput,
   type KitLotInput,
   type KitLotUpdate,
@@ -43,8 +43,8 @@ async function audited(tx: Executor, actor: Actor, action: string, entityType: s
 
 export async function clinicClock(tx: Executor, clinicId: string): Promise<{ timeZone: string; settings: QualitySettings }> {
   const [clinic] = await tx.select({ timeZone: clinics.timeZone, settings: clinics.settings }).from(clinics).where(eq(clinics.id, clinicId));
-  const parsed = qualitySettingsSchema.safeParse(clinic?.settings ?? {});
-  return { timeZone: clinic?.timeZone ?? 'UTC', settings: parsed.success ? parsed.data : qualitySettingsSchema.parse({}) };
+  const parsed = storedQualitySettingsSchema.safeParse(clinic?.settings ?? {});
+  return { timeZone: clinic?.timeZone ?? 'UTC', settings: parsed.success ? parsed.data : storedQualitySettingsSchema.parse({}) };
 }
 
 export async function updateQualitySettings(actor: Actor, input: Partial<QualitySettings>) {

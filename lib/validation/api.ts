@@ -2,7 +2,6 @@ import { z } from 'zod';
 import { text, isoDateTime } from './text';
 import { DECIMAL_MARKS, readNumber } from './numbers';
 import { ROLES } from '@/lib/auth/roles';
-import { profileDefinitionSchema } from './profile';
 
 // Request shapes shared by the forms in app/ and the route handlers.
 
@@ -228,16 +227,6 @@ export const transcribeCaptureSchema = z.object({
   note: text(500, { multiline: true }).optional(),
 });
 export type TranscribeCaptureInput = z.infer<typeof transcribeCaptureSchema>;
-
-export const saveProfileSchema = z.object({
-  name: text(120, { min: 2, minMessage: 'Name the profile.' }),
-  definition: profileDefinitionSchema,
-});
-
-export const previewProfileSchema = z.object({
-  definition: profileDefinitionSchema,
-  sample: z.string().max(256 * 1024, 'Paste at most 256 KB of printout.'),
-});
 
 const calendarDay = z.string().regex(/^\d{4}-\d{2}-\d{2}$/, 'Use a date (YYYY-MM-DD).');
 const blankToUndefined = (v: unknown) => (v === '' ? undefined : v);

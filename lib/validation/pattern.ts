@@ -58,8 +58,3 @@ export function linePattern(source: string, options: { ignoreCase?: boolean } = 
   if (!compiled.ok) throw new Error(`pattern ${JSON.stringify(source)}: ${compiled.reason}`);
   return compiled.pattern;
 }
-
-/** Named groups a pattern defines, in order ((?<name>…) and RE2's (?P<name>…)). */
-export function namedGroupsOf(source: string): string[] {
-  return [...source.matchAll(/\(\?P?<([A-Za-z_$][\w$]*)>/g)].map((m) => m[1]);
-}

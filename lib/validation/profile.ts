@@ -1,5 +1,4 @@
 import { z } from 'zod';
-import { compileLinePattern, namedGroupsOf } from './pattern';
 import { text } from './text';
 
 // A printout profile: how to read one text-printing analyzer, as data an admin edits in the browser.
@@ -23,6 +22,10 @@ export type ProfileCapture = (typeof PROFILE_CAPTURES)[number];
 export const DATE_FORMATS = ['YYYY-MM-DD', 'DD.MM.YYYY', 'DD/MM/YYYY', 'MM/DD/YYYY', 'DD-MM-YYYY', 'DD.MM.YY', 'YY/MM/DD'] as const;
 export const TIME_FORMATS = ['HH:mm', 'HH:mm:ss', 'hh:mm a', 'hh:mm:ss a'] as const;
 
+/** Named groups a pattern defines, in order ((?<name>…) and RE2's (?P<name>…)). */
+export function namedGroupsOf(source: string): string[] {
+  return [...source.matchAll(/\(\?P?<([A-Za-z_$][\w$]*)>/g)].map((m) => m[1]);
+}
 const namedGroups = namedGroupsOf;
 
 /**
@@ -33,7 +36,10 @@ const pattern = z
   .string()
   .min(1, 'Enter a pattern.')
   .max(500)
-  .superRefine((source, ctx) => {
+  .superRefine(async (source, ctx) => {
+    // The engine (about 45 kB gzipped) loads when a pattern is checked, not with the editor's page,
+    // so these schemas are parsed asynchronously (parseAsync, zodResolver, readJson).
+    const { compileLinePattern } = await import('./pattern');
     const compiled = compileLinePattern(source);
     if (!compiled.ok) ctx.addIssue({ code: 'custom', message: `Not a valid pattern: ${compiled.reason}` });
   });
@@ -130,3 +136,14 @@ export const profileDefinitionSchema = z
 
 export type ProfileDefinition = z.infer<typeof profileDefinitionSchema>;
 export type ProfileDefinitionInput = z.input<typeof profileDefinitionSchema>;
+
+/** An administrator's save of a profile (name and definition), from the editor and its API. */
+export const saveProfileSchema = z.object({
+  name: text(120, { min: 2, minMessage: 'Name the profile.' }),
+  definition: profileDefinitionSchema,
+});
+
+export const previewProfileSchema = z.object({
+  definition: profileDefinitionSchema,
+  sample: z.string().max(256 * 1024, 'Paste at most 256 KB of printout.'),
+});

@@ -1,6 +1,4 @@
 import { z } from 'zod';
-import { compileLinePattern } from './pattern';
-import { species } from '@/db/schema';
 
 // Request shapes for lab quality: kit lots, the room-temperature log, control materials, QC readings,
 // quality goals (TEa) and reference-interval verifications.
@@ -87,17 +85,9 @@ export const verificationSchema = z.object({
 export type VerificationInput = z.infer<typeof verificationSchema>;
 
 /** Clinic-wide QC switches kept in clinics.settings under their own keys. */
-export const qualitySettingsSchema = z.object({
+const qualitySettingsShape = {
   /** Sample IDs matching this regular expression (case-insensitive) are QC runs, never patient results. */
-  qcSampleIdPattern: z
-    .string()
-    .trim()
-    .max(200)
-    .superRefine((p, ctx) => {
-      const compiled = compileLinePattern(p, { ignoreCase: true });
-      if (!compiled.ok) ctx.addIssue({ code: 'custom', message: `Not a valid regular expression: ${compiled.reason}` });
-    })
-    .default('^QC'),
+  qcSampleIdPattern: z.string().trim().max(200).default('^QC'),
   /** Minutes without a heartbeat after which a bridge is shown offline. */
   bridgeOfflineMinutes: z
     .number({ error: 'Give the minutes as a number.' })
@@ -112,9 +102,30 @@ export const qualitySettingsSchema = z.object({
     .min(0, 'At least 0 days.')
     .max(365, 'At most 365 days.')
     .default(30),
+};
+
+/** The settings as stored: each was checked when it was saved, so reading them back needs no pattern engine. */
+export const storedQualitySettingsSchema = z.object(qualitySettingsShape);
+
+/**
+ * What an administrator saves, in the form and in the handler: the QC pattern must also run in the
+ * linear-time engine. The engine (about 45 kB gzipped) is imported when a pattern is checked, not with
+ * the Admin page, so this schema is parsed asynchronously (zodResolver and readJson both do).
+ */
+export const qualitySettingsSchema = z.object({
+  ...qualitySettingsShape,
+  qcSampleIdPattern: z
+    .string()
+    .trim()
+    .max(200)
+    .superRefine(async (p, ctx) => {
+      const { compileLinePattern } = await import('./pattern');
+      const compiled = compileLinePattern(p, { ignoreCase: true });
+      if (!compiled.ok) ctx.addIssue({ code: 'custom', message: `Not a valid regular expression: ${compiled.reason}` });
+    })
+    .default('^QC'),
 });
 export type QualitySettings = z.infer<typeof qualitySettingsSchema>;
 export const qualitySettingsUpdateSchema = qualitySettingsSchema.partial();
 
 export const qcQuery = z.object({ analyte: z.string().trim().max(64).optional() });
-export const SPECIES = species.enumValues;

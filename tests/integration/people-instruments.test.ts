@@ -157,7 +157,7 @@ describe('editing and retiring instruments', () => {
     const after = await config();
     expect(after.version).not.toBe(first.version);
     expect(after.instruments.find((i) => i.code === 'crp-reader')?.read).toEqual({ decimalMark: 'comma' });
-    expect(instrumentsOf(after).instruments.find((i) => i.code === 'crp-reader')?.decimalMark).toBe('comma');
+    expect((await instrumentsOf(after)).instruments.find((i) => i.code === 'crp-reader')?.decimalMark).toBe('comma');
     const events = await database.db.select().from(auditEvents).where(and(eq(auditEvents.action, 'instrument.updated'), eq(auditEvents.entityId, before.id)));
     expect(events.at(-1)?.details.changed).toEqual(expect.arrayContaining(['readSettings']));
     expect(events.at(-1)?.details.before).toMatchObject({ readSettings: {} });

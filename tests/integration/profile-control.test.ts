@@ -85,7 +85,7 @@ describe('a profile that marks control slips', () => {
     expect(items.map((i: { control: unknown }) => i.control)).toEqual([null, { level: '2' }]);
 
     const config = (await body(await bridgeConfig(request('/api/bridge/config', { token }), undefined))).instruments.find((i: { code: string }) => i.code === CODE);
-    const loaded = loadProfile(config.profile.definition);
+    const loaded = await loadProfile(config.profile.definition);
     if (!loaded.ok) throw new Error(loaded.message);
     bridgeOutputs = await runThrough<ParserOutput>([Buffer.from(sample)], createParsingStages(profileDialect(loaded.definition), { idle: false }));
     expect(bridgeOutputs.map((o) => (o.kind === 'reading' ? [o.value, o.specimenRole ?? null, o.controlLevel ?? null] : o.reason))).toEqual([

@@ -18,7 +18,7 @@ const CHUNK = 16 * 1024;
 const clock = () => new Date(Date.UTC(2026, 11, 1, 9, 0, 0));
 
 /** An invented electrolyte printer's profile (CR-only lines), as an administrator would write it. */
-export const ELECTROLYTE_PROFILE = profileDefinitionSchema.parse({
+export const ELECTROLYTE_PROFILE = await profileDefinitionSchema.parseAsync({
   analyzer: 'Invented electrolyte printer',
   record: { start: '^== ELECTROLYTES ==$', end: '^== END ==$' },
   fields: [

@@ -9,7 +9,7 @@ import type { z } from 'zod';
 import { Field, Notice, buttonClass, inputClass } from '@/app/components/ui';
 import { ApiClientError, send } from '@/lib/client/fetcher';
 import { formatValue } from '@/lib/format';
-import { saveProfileSchema } from '@/lib/validation/api';
+import { saveProfileSchema } from '@/lib/validation/profile';
 import { DATE_FORMATS, PROFILE_CAPTURES, TIME_FORMATS, type ProfileDefinitionInput } from '@/lib/validation/profile';
 
 type FormValues = z.input<typeof saveProfileSchema>;

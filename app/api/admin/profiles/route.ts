@@ -1,7 +1,7 @@
 import { requireActor } from '@/lib/auth/guards';
 import { apiRoute, json, readJson } from '@/lib/http';
 import { listProfiles, saveProfileVersion } from '@/lib/profiles';
-import { saveProfileSchema } from '@/lib/validation/api';
+import { saveProfileSchema } from '@/lib/validation/profile';
 
 export const GET = apiRoute(async (request) => {
   const actor = await requireActor(request, 'manageClinic');

@@ -1,7 +1,7 @@
 import { previewProfile } from '@/bridge/dialects/profile';
 import { requireActor } from '@/lib/auth/guards';
 import { BODY_LIMITS, apiRoute, json, readJson } from '@/lib/http';
-import { previewProfileSchema } from '@/lib/validation/api';
+import { previewProfileSchema } from '@/lib/validation/profile';
 
 /**
  * Runs the bridge's own profile engine on a pasted printout, so what the editor shows is what the bridge

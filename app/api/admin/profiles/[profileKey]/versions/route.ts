@@ -1,7 +1,8 @@
 import { requireActor } from '@/lib/auth/guards';
 import { apiRoute, json, readJson } from '@/lib/http';
 import { saveProfileVersion } from '@/lib/profiles';
-import { idParam, saveProfileSchema } from '@/lib/validation/api';
+import { idParam } from '@/lib/validation/api';
+import { saveProfileSchema } from '@/lib/validation/profile';
 
 type Ctx = { params: Promise<{ profileKey: string }> };
 
