@@ -1,6 +1,7 @@
 import 'server-only';
-import { and, asc, desc, eq, inArray, isNull, sql } from 'drizzle-orm';
+import { and, asc, desc, eq, isNull, sql } from 'drizzle-orm';
 import { db, type Tx } from '@/db/client';
+import { inJsonList, selectJsonRows } from '@/lib/bulk-select';
 import { instruments, patients, readings, resultAlerts, resultAssignments, resultReviews, staffUsers } from '@/db/schema';
 import { requirePermission, type Actor } from '@/lib/auth/guards';
 import { recordAudit } from '@/lib/audit';
@@ -86,19 +87,25 @@ async function reviewInTx(tx: Tx, actor: Actor, readingId: string, input: { comm
 export async function reviewsFor(clinicId: string, readingIds: string[]) {
   if (!readingIds.length) return new Map<string, { kind: string; comment: string | null; at: Date; reviewerName: string }[]>();
   const database = await db();
-  const rows = await database
-    .select({
-      readingId: resultReviews.readingId,
-      kind: resultReviews.kind,
-      comment: resultReviews.comment,
-      at: resultReviews.at,
-      reviewerName: staffUsers.displayName,
-    })
-    .from(resultReviews)
-    .innerJoin(resultAssignments, and(eq(resultAssignments.id, resultReviews.assignmentId), isNull(resultAssignments.endedAt)))
-    .innerJoin(staffUsers, eq(staffUsers.id, resultReviews.reviewerId))
-    .where(and(eq(resultReviews.clinicId, clinicId), inArray(resultReviews.readingId, readingIds)))
-    .orderBy(asc(resultReviews.at));
+  const fields = {
+    readingId: resultReviews.readingId,
+    kind: resultReviews.kind,
+    comment: resultReviews.comment,
+    at: resultReviews.at,
+    reviewerName: staffUsers.displayName,
+  };
+  // A long record has a sign-off per result: the rows come back as one JSON document.
+  const rows = await selectJsonRows(
+    database,
+    fields,
+    database
+      .select(fields)
+      .from(resultReviews)
+      .innerJoin(resultAssignments, and(eq(resultAssignments.id, resultReviews.assignmentId), isNull(resultAssignments.endedAt)))
+      .innerJoin(staffUsers, eq(staffUsers.id, resultReviews.reviewerId))
+      .where(and(eq(resultReviews.clinicId, clinicId), inJsonList(resultReviews.readingId, readingIds)))
+      .orderBy(asc(resultReviews.at)),
+  );
   const map = new Map<string, typeof rows>();
   for (const r of rows) map.set(r.readingId, [...(map.get(r.readingId) ?? []), r]);
   return map;

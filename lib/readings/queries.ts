@@ -1,6 +1,7 @@
 import 'server-only';
 import { and, asc, desc, eq, inArray, sql, type SQL } from 'drizzle-orm';
 import { db } from '@/db/client';
+import { selectJsonRows } from '@/lib/bulk-select';
 import { analyteSettings, auditEvents, instruments, patients, readings, specimens, staffUsers, unparsedCaptures } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { analyteContexts, intervalContexts } from '@/lib/clinical/config';
@@ -25,7 +26,8 @@ export const resultValueColumns = {
   instrumentRange: readings.instrumentRange,
 };
 
-const readingColumns = {
+/** A reading's columns as a patient's own results show them (the patient's name is on the page; the raw printout comes with a result's detail). */
+const patientResultColumns = {
   ...resultValueColumns,
   id: readings.id,
   status: readings.status,
@@ -44,15 +46,18 @@ const readingColumns = {
   instrumentSerial: readings.instrumentSerial,
   resultStatus: readings.resultStatus,
   instrumentName: instruments.name,
-  raw: readings.raw,
   specimenId: readings.specimenId,
   patientId: readings.patientId,
-  patientName: patients.name,
-  patientRecordNumber: patients.recordNumber,
-  patientSpecies: patients.species,
   // Lab quality: marks fixed on arrival and the kit lot the run used.
   qualityMarks: readings.qualityMarks,
   kitLotId: readings.kitLotId,
+};
+const readingColumns = {
+  ...patientResultColumns,
+  raw: readings.raw,
+  patientName: patients.name,
+  patientRecordNumber: patients.recordNumber,
+  patientSpecies: patients.species,
 };
 
 export type ReadingView = Awaited<ReturnType<typeof listReadings>>[number];
@@ -232,17 +237,19 @@ export async function patientResults(actor: Actor, patientId: string) {
     .from(patients)
     .where(and(eq(patients.id, patientId), eq(patients.clinicId, actor.clinicId)));
   if (!patient) throw notFound('The patient');
-  return database
-    .select(readingColumns)
-    .from(readings)
-    .leftJoin(instruments, eq(instruments.id, readings.instrumentId))
-    .leftJoin(patients, eq(patients.id, readings.patientId))
-    .where(
-      and(eq(readings.clinicId, actor.clinicId), eq(readings.patientId, patientId), eq(readings.status, 'assigned')),
-    )
-    // An instrument may print no time: such a reading sorts by when it arrived, not above everything (NULLS FIRST).
-    // Within one time, the order the analyzer sent them (arrival), not whatever order the rows were stored in.
-    .orderBy(desc(sql`coalesce(${readings.measuredAt}, ${readings.receivedAt})`), desc(readings.receivedAt), asc(readings.arrival));
+  // A long record is hundreds of rows: they come back as one JSON document (lib/bulk-select.ts).
+  return selectJsonRows(
+    database,
+    patientResultColumns,
+    database
+      .select(patientResultColumns)
+      .from(readings)
+      .leftJoin(instruments, eq(instruments.id, readings.instrumentId))
+      .where(and(eq(readings.clinicId, actor.clinicId), eq(readings.patientId, patientId), eq(readings.status, 'assigned')))
+      // An instrument may print no time: such a reading sorts by when it arrived, not above everything (NULLS FIRST).
+      // Within one time, the order the analyzer sent them (arrival), not whatever order the rows were stored in.
+      .orderBy(desc(sql`coalesce(${readings.measuredAt}, ${readings.receivedAt})`), desc(readings.receivedAt), asc(readings.arrival)),
+  );
 }
 
 export async function listCaptures(actor: Actor, status: 'open' | 'transcribed' | 'dismissed', limit = 100) {
