@@ -137,8 +137,8 @@ export const patients = pgTable(
     index('patients_clinic_record_lower_idx').on(t.clinicId, sql`lower(${t.recordNumber})`),
     index('patients_clinic_name_idx').on(t.clinicId, sql`lower(${t.name})`),
     index('patients_owner_idx').on(t.ownerId),
-    // Trigram indexes for substring search on name and record number (and owners' names) are
-    // hand-written in migration 0013: they need the pg_trgm extension created first.
+    // Trigram indexes for substring search on name and record number (and owners' names and phones) are
+    // hand-written in migrations 0013 and 0021: they need the pg_trgm extension created first.
     check('patients_weight_positive', sql`${t.weightKg} is null or ${t.weightKg} > 0`),
     // Hand-written in migration 0010 (after existing rows are brought in line): active = (status = 'active'),
     // and status 'merged' exactly when merged_into_id is set; an insert with only active = false becomes 'archived'.
