@@ -1,5 +1,6 @@
 import 'server-only';
-import { and, eq, inArray, isNull } from 'drizzle-orm';
+import { and, eq, isNull } from 'drizzle-orm';
+import { inJsonList } from '@/lib/bulk-select';
 import { db } from '@/db/client';
 import { patients, resultAlerts } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
@@ -16,30 +17,24 @@ import { reviewsFor } from './review';
  * A patient's results with what the veterinarian reads them by: the value in the clinic's unit, the flag
  * against the species' interval, the change from the previous result of the same test, the delta check,
  * and who reviewed it. Newest first, like patientResults.
+ *
+ * Every result is evaluated, for the trend (`trend`: one small point per result) and for the change from
+ * the previous one, but only the newest `limit` are enriched with reviews, alerts and lab-quality marks
+ * and sent whole (`results`; `total` says how many there are). A page never ends inside a specimen, so a
+ * panel's results stay together. Without `limit` every result is sent whole (reports).
  */
-export async function patientChart(actor: Actor, patientId: string) {
+export async function patientChart(actor: Actor, patientId: string, options: { limit?: number } = {}) {
   const database = await db();
   const [patient] = await database
     .select({ id: patients.id, name: patients.name, species: patients.species })
     .from(patients)
     .where(and(eq(patients.id, patientId), eq(patients.clinicId, actor.clinicId)));
   if (!patient) throw notFound('The patient');
-  const results = await patientResults(actor, patientId);
-  const codes = [...new Set(results.map((r) => r.analyte))];
-  const [analytes, intervals, reviews, alerts, quality] = await Promise.all([
-    analyteContexts(database, actor.clinicId, codes),
-    intervalContexts(database, actor.clinicId, codes),
-    reviewsFor(actor.clinicId, results.map((r) => r.id)),
-    results.length
-      ? database
-          .select({ id: resultAlerts.id, readingId: resultAlerts.readingId, acknowledgedAt: resultAlerts.acknowledgedAt, message: resultAlerts.message })
-          .from(resultAlerts)
-          .where(and(inArray(resultAlerts.readingId, results.map((r) => r.id)), eq(resultAlerts.patientId, patientId), isNull(resultAlerts.withdrawnAt)))
-      : Promise.resolve([]),
-    qualityMarksFor(database, actor.clinicId, results),
-  ]);
+  const all = await patientResults(actor, patientId);
+  const codes = [...new Set(all.map((r) => r.analyte))];
+  const [analytes, intervals] = await Promise.all([analyteContexts(database, actor.clinicId, codes), intervalContexts(database, actor.clinicId, codes)]);
 
-  const evaluated = results.map((r) => {
+  const evaluated = all.map((r) => {
     const e = evaluateResult(r, patient, analytes.get(r.analyte), intervals);
     return { r, e, at: new Date(r.measuredAt ?? r.receivedAt) };
   });
@@ -54,12 +49,35 @@ export async function patientChart(actor: Actor, patientId: string) {
     previousOf[i] = lastWithValue.get(key);
     if (x.e.display.value !== null) lastWithValue.set(key, x);
   }
+  const changeAt = (index: number) => {
+    const previous = previousOf[index];
+    if (!previous) return null;
+    const { r, e } = evaluated[index];
+    return changeBetween(previous.e.display, e.display, analytes.get(r.analyte)?.decimals ?? 1, e.display.unit ?? '');
+  };
+
+  let shown = options.limit === undefined ? evaluated.length : Math.min(options.limit, evaluated.length);
+  const lastSpecimen = shown > 0 ? evaluated[shown - 1].r.specimenId : null;
+  while (lastSpecimen && shown < evaluated.length && evaluated[shown].r.specimenId === lastSpecimen) shown++;
+  const page = evaluated.slice(0, shown);
+  const results = page.map((x) => x.r);
+
+  const [reviews, alerts, quality] = await Promise.all([
+    reviewsFor(actor.clinicId, results.map((r) => r.id)),
+    results.length
+      ? database
+          .select({ id: resultAlerts.id, readingId: resultAlerts.readingId, acknowledgedAt: resultAlerts.acknowledgedAt, message: resultAlerts.message })
+          .from(resultAlerts)
+          .where(and(inJsonList(resultAlerts.readingId, results.map((r) => r.id)), eq(resultAlerts.patientId, patientId), isNull(resultAlerts.withdrawnAt)))
+      : Promise.resolve([]),
+    qualityMarksFor(database, actor.clinicId, results),
+  ]);
   const alertByReading = new Map(alerts.map((a) => [a.readingId, a]));
 
-  const enriched = evaluated.map(({ r, e, at }, index) => {
+  const enriched = page.map(({ r, e, at }, index) => {
     const analyte = analytes.get(r.analyte);
     const previous = previousOf[index];
-    const change = previous ? changeBetween(previous.e.display, e.display, analyte?.decimals ?? 1, e.display.unit ?? '') : null;
+    const change = changeAt(index);
     const delta =
       previous && analyte
         ? deltaCheck(
@@ -96,12 +114,24 @@ export async function patientChart(actor: Actor, patientId: string) {
     };
   });
 
+  /** One point per result, every result: what a trend line or a qualitative timeline draws. */
+  const trend = evaluated.map(({ r, e, at }, index) => ({
+    id: r.id,
+    analyte: r.analyte,
+    at,
+    display: e.display,
+    qualitative: e.qualitative,
+    /** Outside the interval by our flag or the analyzer's. */
+    flagged: (!!e.flag && e.flag.flag !== 'normal') || !!e.analyzerFlag?.abnormal,
+    change: changeAt(index)?.text ?? null,
+  }));
+
   const perAnalyte = Object.fromEntries(
     codes.map((code) => {
       const a = analytes.get(code);
       const interval = pickInterval(intervals, code, patient.species, null);
       // Without a clinic interval, the chart draws the latest range the analyzer sent for this test, labelled as such.
-      const fromAnalyzer = interval ? null : enriched.find((x) => x.analyte === code && x.clinical.interval?.origin === 'analyzer')?.clinical.interval ?? null;
+      const fromAnalyzer = interval ? null : evaluated.find((x) => x.r.analyte === code && x.e.interval?.origin === 'analyzer')?.e.interval ?? null;
       const toDisplay = (v: number | null) => {
         if (v === null || !interval || !a) return v;
         const c = convert(v, interval.unit, a.displayUnit);
@@ -112,7 +142,7 @@ export async function patientChart(actor: Actor, patientId: string) {
         {
           code,
           name: a?.name ?? code,
-          unit: a?.displayUnit ?? enriched.find((x) => x.analyte === code)?.clinical.display.unit ?? null,
+          unit: a?.displayUnit ?? evaluated.find((x) => x.r.analyte === code)?.e.display.unit ?? null,
           decimals: a?.decimals ?? 1,
           speciesNote: a?.speciesNote ?? null,
           deltaSource: a?.deltaSource ?? null,
@@ -129,12 +159,12 @@ export async function patientChart(actor: Actor, patientId: string) {
               ? { low: fromAnalyzer.low, high: fromAnalyzer.high, criticalLow: null, criticalHigh: null, source: fromAnalyzer.source, origin: 'analyzer' as const }
               : null,
           /** Coded or text results: shown as a timeline of values, not a line plot. */
-          qualitative: enriched.some((x) => x.analyte === code && x.clinical.qualitative !== null),
+          qualitative: evaluated.some((x) => x.r.analyte === code && x.e.qualitative !== null),
         },
       ];
     }),
   );
-  return { results: enriched, analytes: perAnalyte };
+  return { results: enriched, total: evaluated.length, trend, analytes: perAnalyte };
 }
 
 /** Delta limits are kept in the analyte's own unit: compare there. */

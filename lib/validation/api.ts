@@ -259,3 +259,10 @@ export const setPasswordSchema = z.object({
   token: z.string().min(20, 'This link is incomplete.').max(200),
   password,
 });
+
+/** Results a record shows whole at first; older ones load a page at a time ("Show older results"). */
+export const CHART_PAGE = 100;
+/** A patient's chart: how many of the newest results to send whole (the trend always has every result). */
+export const chartQuery = z.object({
+  limit: z.coerce.number({ error: 'Give the limit as a number.' }).int('A whole number of results.').min(1, 'At least 1 result.').max(100_000).default(CHART_PAGE),
+});

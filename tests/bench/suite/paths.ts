@@ -13,6 +13,7 @@ export const PATIENT_QUERY = 'keeper 123';
 export async function readPaths(): Promise<ReadPath[]> {
   const { suggestionsForUnassigned } = await import('@/lib/readings/suggestions');
   const { patientChart } = await import('@/lib/clinical/chart');
+  const { CHART_PAGE } = await import('@/lib/validation/api');
   const { unreviewedResults } = await import('@/lib/clinical/review');
   const { searchPatients } = await import('@/lib/patients');
   const { listReadings } = await import('@/lib/readings/queries');
@@ -20,7 +21,8 @@ export async function readPaths(): Promise<ReadPath[]> {
   const { sql } = await import('drizzle-orm');
   return [
     { name: 'Intake suggestions', url: () => '/api/readings/suggestions', call: (a) => suggestionsForUnassigned(a) },
-    { name: '1,000-result chart', url: (i) => `/api/patients/${i.heavyPatientId}/results`, call: (a, i) => patientChart(a, i.heavyPatientId) },
+    // What the record's page loads: the newest page of results whole and a trend point for each of the 1,000.
+    { name: '1,000-result chart', url: (i) => `/api/patients/${i.heavyPatientId}/results`, call: (a, i) => patientChart(a, i.heavyPatientId, { limit: CHART_PAGE }) },
     { name: 'Review list', url: () => '/api/reviews/unreviewed', call: (a) => unreviewedResults(a, false) },
     { name: 'patient search', url: () => `/api/patients?q=${encodeURIComponent(PATIENT_QUERY)}`, call: (a) => searchPatients(a, PATIENT_QUERY) },
     { name: 'Intake list', url: () => '/api/readings?status=unassigned', call: (a) => listReadings(a, { status: 'unassigned', limit: 100 }) },

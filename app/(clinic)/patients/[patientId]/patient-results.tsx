@@ -2,8 +2,9 @@
 import dynamic from 'next/dynamic';
 import { Fragment, useState } from 'react';
 import useSWR, { useSWRConfig } from 'swr';
-import { Notice } from '@/app/components/ui';
+import { Notice, buttonClass } from '@/app/components/ui';
 import { fetcher } from '@/lib/client/fetcher';
+import { CHART_PAGE } from '@/lib/validation/api';
 import type { patientChart } from '@/lib/clinical/chart';
 import { FLAG_CODE } from '@/lib/clinical/flags';
 import { QualityMarks } from '@/app/components/quality-marks';
@@ -21,6 +22,7 @@ type Chart = Awaited<ReturnType<typeof patientChart>>;
 type Json<T> = T extends Date ? string : T extends (infer U)[] ? Json<U>[] : T extends object ? { [K in keyof T]: Json<T[K]> } : T;
 export type ChartResult = Json<Chart['results'][number]>;
 export type ChartAnalyte = Json<Chart['analytes'][string]>;
+export type TrendPoint = Json<Chart['trend'][number]>;
 
 const flagClass: Record<string, string> = {
   'critical-low': 'bg-alarm-700 text-white',
@@ -88,7 +90,9 @@ export function FlagBadge({ result }: { result: ChartResult }) {
 
 export function PatientResults({ patientId, patientName }: { patientId: string; patientName?: string }) {
   // The live feed revalidates this key whenever a result on this patient changes.
-  const { data, error, mutate } = useSWR<{ results: ChartResult[]; analytes: Record<string, ChartAnalyte> }>(`/api/patients/${patientId}/results`, fetcher);
+  // The newest results come whole, a page at a time; the trend has a point for every result.
+  const [limit, setLimit] = useState(CHART_PAGE);
+  const { data, error, mutate, isLoading } = useSWR<Json<Chart>>(`/api/patients/${patientId}/results?limit=${limit}`, fetcher, { keepPreviousData: true });
   const { mutate: revalidate } = useSWRConfig();
   const [open, setOpen] = useState<string | null>(null);
   const analytes = Object.values(data?.analytes ?? {});
@@ -104,7 +108,7 @@ export function PatientResults({ patientId, patientName }: { patientId: string; 
           <div className={`grid gap-4 ${analytes.length > 1 ? 'lg:grid-cols-2' : ''}`}>
             {analytes.map((a) => (
               <div key={a.code}>
-                {a.qualitative ? <QualitativeTimeline analyte={a} results={data.results} /> : <TrendChart analyte={a} results={data.results} />}
+                {a.qualitative ? <QualitativeTimeline analyte={a} trend={data.trend} /> : <TrendChart analyte={a} trend={data.trend} />}
                 {a.interval && <p className="mt-1 text-[11px] leading-snug text-ink-500">Interval source: {a.interval.source}</p>}
                 {a.speciesNote && <p className="mt-1 text-[11px] leading-snug text-ink-500">{a.speciesNote}</p>}
               </div>
@@ -211,6 +215,16 @@ export function PatientResults({ patientId, patientName }: { patientId: string; 
               </tbody>
             </table>
           </div>
+          {data.total > data.results.length && (
+            <div className="flex flex-wrap items-center gap-3 text-sm">
+              <span className="text-ink-700" data-testid="results-shown">
+                Newest {data.results.length} of {data.total} results shown.
+              </span>
+              <button type="button" className={buttonClass.secondary} disabled={isLoading} onClick={() => setLimit(data.results.length + CHART_PAGE)}>
+                Show {Math.min(CHART_PAGE, data.total - data.results.length)} older results
+              </button>
+            </div>
+          )}
         </>
       )}
     </section>

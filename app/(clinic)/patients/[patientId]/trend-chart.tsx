@@ -3,7 +3,7 @@
 // as a triangle pointing the way the true value lies (▼ for "<5", ▲ for ">200"), never as a plain point.
 import { CartesianGrid, ComposedChart, Line, ReferenceArea, ReferenceLine, ResponsiveContainer, Tooltip, XAxis, YAxis } from 'recharts';
 import { formatMeasured, niceTicks, unitLabel } from '@/lib/format';
-import type { ChartAnalyte, ChartResult } from './patient-results';
+import type { ChartAnalyte, TrendPoint } from './patient-results';
 
 interface Point {
   id: string;
@@ -34,17 +34,17 @@ function Marker(props: { cx?: number; cy?: number; payload?: Point }) {
   );
 }
 
-export function TrendChart({ analyte, results }: { analyte: ChartAnalyte; results: ChartResult[] }) {
-  const points: Point[] = results
-    .filter((r) => r.analyte === analyte.code && r.clinical.display.value !== null && r.clinical.display.unit === analyte.unit)
+export function TrendChart({ analyte, trend }: { analyte: ChartAnalyte; trend: TrendPoint[] }) {
+  const points: Point[] = trend
+    .filter((r) => r.analyte === analyte.code && r.display.value !== null && r.display.unit === analyte.unit)
     .map((r) => ({
       id: r.id,
-      t: new Date(r.measuredAt ?? r.receivedAt).getTime(),
-      y: r.clinical.display.value as number,
-      comparator: r.clinical.display.comparator,
-      label: formatMeasured(r.clinical.display, analyte.decimals),
-      change: r.clinical.change?.text ?? null,
-      flagged: (!!r.clinical.flag && r.clinical.flag.flag !== 'normal') || !!r.clinical.analyzerFlag?.abnormal,
+      t: new Date(r.at).getTime(),
+      y: r.display.value as number,
+      comparator: r.display.comparator,
+      label: formatMeasured(r.display, analyte.decimals),
+      change: r.change,
+      flagged: r.flagged,
     }))
     .sort((a, b) => a.t - b.t);
   if (points.length === 0) return null;
