@@ -114,51 +114,57 @@ export async function reviewsFor(clinicId: string, readingIds: string[]) {
 /** Results on patients' records that no veterinarian has signed off yet; `mine`: my patients only. */
 export async function unreviewedResults(actor: Actor, mine: boolean) {
   const database = await db();
-  const rows = await database
-    .select({
-      id: readings.id,
-      analyte: readings.analyte,
-      value: readings.value,
-      valueDecimals: readings.valueDecimals,
-      valueCode: readings.valueCode,
-      valueText: readings.valueText,
-      notes: readings.notes,
-      flags: readings.flags,
-      instrumentRange: readings.instrumentRange,
-      comparator: readings.comparator,
-      unit: readings.unit,
-      printedUnit: readings.printedUnit,
-      instrumentId: readings.instrumentId,
-      instrumentName: instruments.name,
-      measuredAt: readings.measuredAt,
-      receivedAt: readings.receivedAt,
-      qualityMarks: readings.qualityMarks,
-      kitLotId: readings.kitLotId,
-      assignedAt: resultAssignments.assignedAt,
-      patientId: patients.id,
-      patientName: patients.name,
-      patientRecordNumber: patients.recordNumber,
-      patientSpecies: patients.species,
-      attendingVetId: patients.attendingVetId,
-      attendingVetName: staffUsers.displayName,
-    })
-    .from(readings)
-    .innerJoin(resultAssignments, and(eq(resultAssignments.readingId, readings.id), isNull(resultAssignments.endedAt)))
-    .innerJoin(patients, eq(patients.id, readings.patientId))
-    .leftJoin(staffUsers, eq(staffUsers.id, patients.attendingVetId))
-    .leftJoin(instruments, eq(instruments.id, readings.instrumentId))
-    .where(
-      and(
-        eq(resultAssignments.clinicId, actor.clinicId),
-        eq(readings.clinicId, actor.clinicId),
-        eq(readings.status, 'assigned'),
-        // Kept by a trigger on result_reviews; the partial index makes this a range read, newest first.
-        isNull(resultAssignments.reviewedAt),
-        mine ? eq(patients.attendingVetId, actor.userId) : undefined,
-      ),
-    )
-    .orderBy(desc(resultAssignments.assignedAt))
-    .limit(200);
+  const fields = {
+    id: readings.id,
+    analyte: readings.analyte,
+    value: readings.value,
+    valueDecimals: readings.valueDecimals,
+    valueCode: readings.valueCode,
+    valueText: readings.valueText,
+    notes: readings.notes,
+    flags: readings.flags,
+    instrumentRange: readings.instrumentRange,
+    comparator: readings.comparator,
+    unit: readings.unit,
+    printedUnit: readings.printedUnit,
+    instrumentId: readings.instrumentId,
+    instrumentName: instruments.name,
+    measuredAt: readings.measuredAt,
+    receivedAt: readings.receivedAt,
+    qualityMarks: readings.qualityMarks,
+    kitLotId: readings.kitLotId,
+    assignedAt: resultAssignments.assignedAt,
+    patientId: patients.id,
+    patientName: patients.name,
+    patientRecordNumber: patients.recordNumber,
+    patientSpecies: patients.species,
+    attendingVetId: patients.attendingVetId,
+    attendingVetName: staffUsers.displayName,
+  };
+  // The 200 newest come back as one JSON document (lib/bulk-select.ts).
+  const rows = await selectJsonRows(
+    database,
+    fields,
+    database
+      .select(fields)
+      .from(readings)
+      .innerJoin(resultAssignments, and(eq(resultAssignments.readingId, readings.id), isNull(resultAssignments.endedAt)))
+      .innerJoin(patients, eq(patients.id, readings.patientId))
+      .leftJoin(staffUsers, eq(staffUsers.id, patients.attendingVetId))
+      .leftJoin(instruments, eq(instruments.id, readings.instrumentId))
+      .where(
+        and(
+          eq(resultAssignments.clinicId, actor.clinicId),
+          eq(readings.clinicId, actor.clinicId),
+          eq(readings.status, 'assigned'),
+          // Kept by a trigger on result_reviews; the partial index makes this a range read, newest first.
+          isNull(resultAssignments.reviewedAt),
+          mine ? eq(patients.attendingVetId, actor.userId) : undefined,
+        ),
+      )
+      .orderBy(desc(resultAssignments.assignedAt))
+      .limit(200),
+  );
   const codes = [...new Set(rows.map((r) => r.analyte))];
   const [analytes, intervals, quality] = await Promise.all([
     analyteContexts(database, actor.clinicId, codes),

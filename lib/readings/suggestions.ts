@@ -1,6 +1,7 @@
 import 'server-only';
 import { and, desc, eq, gte, inArray, isNotNull, or, sql } from 'drizzle-orm';
 import { db, type Executor, type Tx } from '@/db/client';
+import { selectJsonRows } from '@/lib/bulk-select';
 import { analyteSettings, clinics, instruments, labOrders, patients, readings, runProtocols, type Bridge, type Reading } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { clinicalSettings } from '@/lib/clinical/config';
@@ -112,7 +113,8 @@ async function matchContext(tx: Executor, clinicId: string, analytes: string[], 
   };
 }
 
-const toMatchReading = (r: Pick<Reading, 'id' | 'analyte' | 'instrumentId' | 'sampleId' | 'patientRef' | 'receivedAt'>): MatchReading => ({
+const matchFields = { id: readings.id, analyte: readings.analyte, instrumentId: readings.instrumentId, sampleId: readings.sampleId, patientRef: readings.patientRef, receivedAt: readings.receivedAt };
+const toMatchReading = (r: Pick<Reading, keyof typeof matchFields>): MatchReading => ({
   id: r.id,
   analyte: r.analyte,
   instrumentId: r.instrumentId,
@@ -149,7 +151,8 @@ async function rankWaiting(clinicId: string, analytes?: string[]) {
   const database = await db();
   const conditions = [eq(readings.clinicId, clinicId), eq(readings.status, 'unassigned')];
   if (analytes) conditions.push(inArray(readings.analyte, analytes));
-  const waiting = await database.select().from(readings).where(and(...conditions)).orderBy(desc(readings.receivedAt)).limit(200);
+  // Only what the matcher reads, not whole rows (a raw printout each), as one JSON document.
+  const waiting = await selectJsonRows(database, matchFields, database.select(matchFields).from(readings).where(and(...conditions)).orderBy(desc(readings.receivedAt)).limit(200));
   if (!waiting.length) return { ranked: new Map<string, Suggestion>(), context: null };
   const context = await matchContext(
     database,
