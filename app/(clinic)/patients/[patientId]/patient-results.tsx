@@ -220,7 +220,8 @@ export function PatientResults({ patientId, patientName }: { patientId: string; 
               <span className="text-ink-700" data-testid="results-shown">
                 Newest {data.results.length} of {data.total} results shown.
               </span>
-              <button type="button" className={buttonClass.secondary} disabled={isLoading} onClick={() => setLimit(data.results.length + CHART_PAGE)}>
+              {/* Not disabled while loading: a disabled button would drop the keyboard focus. */}
+              <button type="button" className={buttonClass.secondary} aria-busy={isLoading} onClick={() => setLimit(data.results.length + CHART_PAGE)}>
                 Show {Math.min(CHART_PAGE, data.total - data.results.length)} older results
               </button>
             </div>
