@@ -1,8 +1,11 @@
 import 'server-only';
 import { Column, is, SQL, sql, type DriverValueDecoder, type SQLWrapper } from 'drizzle-orm';
+import type { PgSelectBuilder, SelectedFields } from 'drizzle-orm/pg-core';
 import type { Executor } from '@/db/client';
 
 type Field = Column | SQL | SQL.Aliased;
+/** A flat selection, as Drizzle's select() takes it. */
+type Fields = Record<string, Field> & SelectedFields;
 
 /**
  * Runs a Drizzle select and brings its rows back as one JSON document (json_agg), then decodes each value
@@ -10,16 +13,17 @@ type Field = Column | SQL | SQL.Aliased;
  * one: for a 1,000-result chart of 30 columns that was most of the query's time; one JSON value is parsed
  * natively. The read counterpart of insertJsonRows (lib/bulk-insert.ts).
  *
- * `fields` must be the flat object the query selects. Order is kept: PostgreSQL feeds a plain aggregate
+ * `fields` is a flat selection (columns and SQL values); `build` adds FROM, WHERE, ORDER BY and LIMIT. Order is kept: PostgreSQL feeds a plain aggregate
  * the rows of a sorted subquery in that order when the outer query does nothing else (PostgreSQL manual,
  * "Aggregate Expressions": "supplying the input values from a sorted subquery will usually work … this
  * approach can fail if the outer query level contains additional processing, such as a join").
  */
-export async function selectJsonRows<Q extends SQLWrapper & PromiseLike<unknown[]>>(
+export async function selectJsonRows<F extends Fields, Q extends SQLWrapper & PromiseLike<unknown[]>>(
   tx: Executor,
-  fields: Record<string, Field>,
-  query: Q,
+  fields: F,
+  build: (select: PgSelectBuilder<F>) => Q,
 ): Promise<Awaited<Q>> {
+  const query = build(tx.select(fields));
   const entries = Object.entries(fields);
   for (const [key, field] of entries) {
     if (!is(field, Column) && !is(field, SQL) && !is(field, SQL.Aliased)) throw new Error(`selectJsonRows: ${key} is not a column or an SQL value (nested selections are not supported)`);

@@ -95,11 +95,8 @@ export async function reviewsFor(clinicId: string, readingIds: string[]) {
     reviewerName: staffUsers.displayName,
   };
   // A long record has a sign-off per result: the rows come back as one JSON document.
-  const rows = await selectJsonRows(
-    database,
-    fields,
-    database
-      .select(fields)
+  const rows = await selectJsonRows(database, fields, (select) =>
+    select
       .from(resultReviews)
       .innerJoin(resultAssignments, and(eq(resultAssignments.id, resultReviews.assignmentId), isNull(resultAssignments.endedAt)))
       .innerJoin(staffUsers, eq(staffUsers.id, resultReviews.reviewerId))
@@ -142,11 +139,8 @@ export async function unreviewedResults(actor: Actor, mine: boolean) {
     attendingVetName: staffUsers.displayName,
   };
   // The 200 newest come back as one JSON document (lib/bulk-select.ts).
-  const rows = await selectJsonRows(
-    database,
-    fields,
-    database
-      .select(fields)
+  const rows = await selectJsonRows(database, fields, (select) =>
+    select
       .from(readings)
       .innerJoin(resultAssignments, and(eq(resultAssignments.readingId, readings.id), isNull(resultAssignments.endedAt)))
       .innerJoin(patients, eq(patients.id, readings.patientId))

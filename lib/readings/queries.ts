@@ -238,11 +238,8 @@ export async function patientResults(actor: Actor, patientId: string) {
     .where(and(eq(patients.id, patientId), eq(patients.clinicId, actor.clinicId)));
   if (!patient) throw notFound('The patient');
   // A long record is hundreds of rows: they come back as one JSON document (lib/bulk-select.ts).
-  return selectJsonRows(
-    database,
-    patientResultColumns,
-    database
-      .select(patientResultColumns)
+  return selectJsonRows(database, patientResultColumns, (select) =>
+    select
       .from(readings)
       .leftJoin(instruments, eq(instruments.id, readings.instrumentId))
       .where(and(eq(readings.clinicId, actor.clinicId), eq(readings.patientId, patientId), eq(readings.status, 'assigned')))

@@ -152,7 +152,7 @@ async function rankWaiting(clinicId: string, analytes?: string[]) {
   const conditions = [eq(readings.clinicId, clinicId), eq(readings.status, 'unassigned')];
   if (analytes) conditions.push(inArray(readings.analyte, analytes));
   // Only what the matcher reads, not whole rows (a raw printout each), as one JSON document.
-  const waiting = await selectJsonRows(database, matchFields, database.select(matchFields).from(readings).where(and(...conditions)).orderBy(desc(readings.receivedAt)).limit(200));
+  const waiting = await selectJsonRows(database, matchFields, (select) => select.from(readings).where(and(...conditions)).orderBy(desc(readings.receivedAt)).limit(200));
   if (!waiting.length) return { ranked: new Map<string, Suggestion>(), context: null };
   const context = await matchContext(
     database,

@@ -2,6 +2,7 @@ import { z } from 'zod';
 import { text, isoDateTime } from './text';
 import { DECIMAL_MARKS, readNumber } from './numbers';
 import { ROLES } from '@/lib/auth/roles';
+import { CHART_PAGE } from '@/lib/clinical/chart-page';
 
 // Request shapes shared by the forms in app/ and the route handlers.
 
@@ -260,8 +261,6 @@ export const setPasswordSchema = z.object({
   password,
 });
 
-/** Results a record shows whole at first; older ones load a page at a time ("Show older results"). */
-export const CHART_PAGE = 100;
 /** A patient's chart: how many of the newest results to send whole (the trend always has every result). */
 export const chartQuery = z.object({
   limit: z.coerce.number({ error: 'Give the limit as a number.' }).int('A whole number of results.').min(1, 'At least 1 result.').max(100_000).default(CHART_PAGE),

@@ -56,16 +56,15 @@ describe('selectJsonRows reads what Drizzle reads', () => {
       patientName: patients.name,
       enteredByName: sql<string | null>`(select ${staffUsers.displayName} from ${staffUsers} where ${staffUsers.id} = ${readings.enteredBy})`,
     };
-    const query = () =>
-      database.db
-        .select(fields)
+    const query = (select: ReturnType<typeof database.db.select<typeof fields>>) =>
+      select
         .from(readings)
         .leftJoin(instruments, eq(instruments.id, readings.instrumentId))
         .leftJoin(patients, eq(patients.id, readings.patientId))
         .where(eq(readings.clinicId, clinicId))
         .orderBy(desc(sql`coalesce(${readings.measuredAt}, ${readings.receivedAt})`), desc(readings.receivedAt), asc(readings.arrival));
-    const byDrizzle = await query();
-    const byJson = await selectJsonRows(database.db, fields, query());
+    const byDrizzle = await query(database.db.select(fields));
+    const byJson = await selectJsonRows(database.db, fields, query);
     expect(byDrizzle.length).toBeGreaterThan(5);
     expect(byDrizzle.some((r) => r.patientName === null)).toBe(true); // unassigned readings: the left join found no patient
     expect(byJson).toEqual(byDrizzle);
@@ -74,7 +73,7 @@ describe('selectJsonRows reads what Drizzle reads', () => {
 
   it('gives an empty list for no rows, and inJsonList matches what inArray matches', async () => {
     const none = { id: readings.id };
-    expect(await selectJsonRows(database.db, none, database.db.select(none).from(readings).where(eq(readings.clinicId, '00000000-0000-4000-8000-000000000000')))).toEqual([]);
+    expect(await selectJsonRows(database.db, none, (select) => select.from(readings).where(eq(readings.clinicId, '00000000-0000-4000-8000-000000000000')))).toEqual([]);
     const some = (await database.db.select({ id: readings.id }).from(readings).where(eq(readings.clinicId, clinicId)).limit(3)).map((r) => r.id);
     const a = await database.db.select({ id: readings.id }).from(readings).where(inArray(readings.id, some)).orderBy(readings.id);
     const b = await database.db.select({ id: readings.id }).from(readings).where(inJsonList(readings.id, some)).orderBy(readings.id);

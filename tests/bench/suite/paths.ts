@@ -13,7 +13,7 @@ export const PATIENT_QUERY = 'keeper 123';
 export async function readPaths(): Promise<ReadPath[]> {
   const { suggestionsForUnassigned } = await import('@/lib/readings/suggestions');
   const { patientChart } = await import('@/lib/clinical/chart');
-  const { CHART_PAGE } = await import('@/lib/validation/api');
+  const { CHART_PAGE } = await import('@/lib/clinical/chart-page');
   const { unreviewedResults } = await import('@/lib/clinical/review');
   const { searchPatients } = await import('@/lib/patients');
   const { listReadings } = await import('@/lib/readings/queries');

@@ -4,7 +4,7 @@ import { Fragment, useState } from 'react';
 import useSWR, { useSWRConfig } from 'swr';
 import { Notice, buttonClass } from '@/app/components/ui';
 import { fetcher } from '@/lib/client/fetcher';
-import { CHART_PAGE } from '@/lib/validation/api';
+import { CHART_PAGE } from '@/lib/clinical/chart-page';
 import type { patientChart } from '@/lib/clinical/chart';
 import { FLAG_CODE } from '@/lib/clinical/flags';
 import { QualityMarks } from '@/app/components/quality-marks';

@@ -1,0 +1,2 @@
+/** Results a record shows whole at first; older ones load a page at a time ("Show older results"). Client-safe. */
+export const CHART_PAGE = 100;
