@@ -5,5 +5,5 @@ import nextTs from 'eslint-config-next/typescript';
 export default defineConfig([
   ...nextVitals,
   ...nextTs,
-  globalIgnores(['.next/**', 'node_modules/**', '.data/**', 'db/migrations/**', 'next-env.d.ts']),
+  globalIgnores(['.next/**', 'node_modules/**', '.data/**', '.bench/**', 'db/migrations/**', 'next-env.d.ts']),
 ]);
