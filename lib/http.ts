@@ -98,6 +98,7 @@ export interface RouteOptions {
 
 export function apiRoute<Ctx = unknown>(handler: (request: Request, context: Ctx) => Promise<Response>, options: RouteOptions = {}) {
   return async (request: Request, context: Ctx): Promise<Response> => {
+    const started = performance.now();
     let response: Response;
     try {
       checkStateChangingRequest(request, options);
@@ -107,6 +108,8 @@ export function apiRoute<Ctx = unknown>(handler: (request: Request, context: Ctx
     }
     // API answers hold patient data: never kept by a browser or a proxy (RFC 9111 §5.2.2.5).
     if (!response.headers.has('cache-control')) response.headers.set('cache-control', 'no-store');
+    // W3C Server Timing: how long the handler took, so a slow answer can be told from a slow network.
+    response.headers.set('server-timing', `handler;dur=${(performance.now() - started).toFixed(1)}`);
     return response;
   };
 }

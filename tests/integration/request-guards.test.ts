@@ -155,6 +155,13 @@ describe('response headers', () => {
     expect(response.headers.get('cache-control')).toBe('no-store');
   });
 
+  it("API answers say how long their handler took (W3C Server Timing: metric name, then ';dur=' in milliseconds)", async () => {
+    const ok = await patientsRoute(request('/api/patients', { cookie: adminCookie }), undefined);
+    const refused = await patientsRoute(request('/api/patients'), undefined);
+    expect(refused.status).toBe(401);
+    for (const response of [ok, refused]) expect(response.headers.get('server-timing')).toMatch(/^handler;dur=\d+\.\d$/);
+  });
+
   it('next.config sends CSP with frame-ancestors none, nosniff, Referrer-Policy, Permissions-Policy, and HSTS only behind HTTPS', async () => {
     const rules = await nextConfig.headers!();
     const everywhere = rules.find((r) => r.source === '/:path*' && !r.has)!;
