@@ -49,12 +49,11 @@ export async function patientChart(actor: Actor, patientId: string, options: { l
     previousOf[i] = lastWithValue.get(key);
     if (x.e.display.value !== null) lastWithValue.set(key, x);
   }
-  const changeAt = (index: number) => {
+  // Each result's change from the previous one, for its trend point and, on the page, its row.
+  const changes = evaluated.map(({ r, e }, index) => {
     const previous = previousOf[index];
-    if (!previous) return null;
-    const { r, e } = evaluated[index];
-    return changeBetween(previous.e.display, e.display, analytes.get(r.analyte)?.decimals ?? 1, e.display.unit ?? '');
-  };
+    return previous ? changeBetween(previous.e.display, e.display, analytes.get(r.analyte)?.decimals ?? 1, e.display.unit ?? '') : null;
+  });
 
   let shown = options.limit === undefined ? evaluated.length : Math.min(options.limit, evaluated.length);
   const lastSpecimen = shown > 0 ? evaluated[shown - 1].r.specimenId : null;
@@ -77,7 +76,7 @@ export async function patientChart(actor: Actor, patientId: string, options: { l
   const enriched = page.map(({ r, e, at }, index) => {
     const analyte = analytes.get(r.analyte);
     const previous = previousOf[index];
-    const change = changeAt(index);
+    const change = changes[index];
     const delta =
       previous && analyte
         ? deltaCheck(
@@ -123,7 +122,7 @@ export async function patientChart(actor: Actor, patientId: string, options: { l
     qualitative: e.qualitative,
     /** Outside the interval by our flag or the analyzer's. */
     flagged: (!!e.flag && e.flag.flag !== 'normal') || !!e.analyzerFlag?.abnormal,
-    change: changeAt(index)?.text ?? null,
+    change: changes[index]?.text ?? null,
   }));
 
   const perAnalyte = Object.fromEntries(

@@ -2,6 +2,7 @@ import 'server-only';
 import { and, asc, desc, eq, isNull, sql } from 'drizzle-orm';
 import { db, type Tx } from '@/db/client';
 import { inJsonList, selectJsonRows } from '@/lib/bulk-select';
+import { resultValueColumns } from '@/lib/readings/queries';
 import { instruments, patients, readings, resultAlerts, resultAssignments, resultReviews, staffUsers } from '@/db/schema';
 import { requirePermission, type Actor } from '@/lib/auth/guards';
 import { recordAudit } from '@/lib/audit';
@@ -112,18 +113,10 @@ export async function reviewsFor(clinicId: string, readingIds: string[]) {
 export async function unreviewedResults(actor: Actor, mine: boolean) {
   const database = await db();
   const fields = {
+    ...resultValueColumns,
     id: readings.id,
     analyte: readings.analyte,
-    value: readings.value,
     valueDecimals: readings.valueDecimals,
-    valueCode: readings.valueCode,
-    valueText: readings.valueText,
-    notes: readings.notes,
-    flags: readings.flags,
-    instrumentRange: readings.instrumentRange,
-    comparator: readings.comparator,
-    unit: readings.unit,
-    printedUnit: readings.printedUnit,
     instrumentId: readings.instrumentId,
     instrumentName: instruments.name,
     measuredAt: readings.measuredAt,

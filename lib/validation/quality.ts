@@ -84,10 +84,12 @@ export const verificationSchema = z.object({
 });
 export type VerificationInput = z.infer<typeof verificationSchema>;
 
+const qcPatternText = z.string().trim().max(200);
+
 /** Clinic-wide QC switches kept in clinics.settings under their own keys. */
 const qualitySettingsShape = {
   /** Sample IDs matching this regular expression (case-insensitive) are QC runs, never patient results. */
-  qcSampleIdPattern: z.string().trim().max(200).default('^QC'),
+  qcSampleIdPattern: qcPatternText.default('^QC'),
   /** Minutes without a heartbeat after which a bridge is shown offline. */
   bridgeOfflineMinutes: z
     .number({ error: 'Give the minutes as a number.' })
@@ -114,10 +116,7 @@ export const storedQualitySettingsSchema = z.object(qualitySettingsShape);
  */
 export const qualitySettingsSchema = z.object({
   ...qualitySettingsShape,
-  qcSampleIdPattern: z
-    .string()
-    .trim()
-    .max(200)
+  qcSampleIdPattern: qcPatternText
     .superRefine(async (p, ctx) => {
       const { compileLinePattern } = await import('./pattern');
       const compiled = compileLinePattern(p, { ignoreCase: true });
