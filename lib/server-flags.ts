@@ -1,7 +1,12 @@
 /**
  * Node flags the web server runs with (npm start, npm run serve, the benchmarks, the browser tests).
- * A 4 MB young generation instead of V8's default 16 MB: an idle server holds about 40 MB less, at a
- * few per cent of ingest speed (`npm run bench -- uploads` and `BENCH_PARTS=ingest npm run bench -- db`).
- * Keep package.json's "serve" script in step.
+ * - A 4 MB young generation instead of V8's default 16 MB: an idle server holds about 40 MB less, at a
+ *   few per cent of ingest speed (`npm run bench -- uploads` and `BENCH_PARTS=ingest npm run bench -- db`).
+ * - The old generation may grow to 1.5× what survived the last full collection before the next one
+ *   (V8 lets a large machine's heap grow up to 4× first). A request's rows outlive two young collections,
+ *   so read paths fill the old generation with garbage: without this, 40 requests to each read path
+ *   took the server from about 340 to 450–580 MB, with 1.5× to 350–390 MB, at the same latency
+ *   (`npm run bench -- server`, "server RSS after the read-path run").
+ * package.json's "serve" script carries the same flags (tests/unit/server-flags.test.ts checks).
  */
-export const SERVER_NODE_FLAGS = ['--max-semi-space-size=4'] as const;
+export const SERVER_NODE_FLAGS = ['--max-semi-space-size=4', '--heap-growing-percent=50'] as const;
