@@ -176,6 +176,37 @@ function qualitativeOf(reading: EvaluatedReading, analyte: AnalyteContext | unde
   return { label, code, text, abnormal: null, basis: 'Not interpreted: the analyzer sent no flag and the clinic has no rule for this test' };
 }
 
+type ClinicInterval = {
+  chosen: IntervalContext;
+  /** In the result's display unit; null when the units do not convert. */
+  interval: Evaluation['interval'];
+  /** Bands are kept in the interval's unit: the result is compared there. */
+  bandSource: { bands: readonly { label: string; from: number | null; to: number | null }[]; unit: string; limits: Pick<Limits, 'low' | 'high'> };
+};
+// A chart evaluates hundreds of results against the same few intervals: the interval's choice and its
+// limits in the display unit are worked out once per intervals list (one request's), not per result.
+const clinicIntervalsSeen = new WeakMap<readonly IntervalContext[], Map<string, ClinicInterval | null>>();
+
+function clinicInterval(intervals: readonly IntervalContext[], analyte: string, species: string, instrumentId: string | null, displayUnit: string | null): ClinicInterval | null {
+  let seen = clinicIntervalsSeen.get(intervals);
+  if (!seen) clinicIntervalsSeen.set(intervals, (seen = new Map()));
+  const key = `${analyte}\u0000${species}\u0000${instrumentId}\u0000${displayUnit}`;
+  const known = seen.get(key);
+  if (known !== undefined) return known;
+  const chosen = pickInterval(intervals, analyte, species, instrumentId);
+  let answer: ClinicInterval | null = null;
+  if (chosen) {
+    const limits = displayUnit ? convertLimits(chosen, chosen.unit, displayUnit) : null;
+    answer = {
+      chosen,
+      interval: limits && displayUnit ? { ...limits, unit: displayUnit, source: chosen.source, id: chosen.id, origin: 'clinic' } : null,
+      bandSource: { bands: chosen.bands.length ? chosen.bands : bandsFromLimits(chosen), unit: chosen.unit, limits: chosen },
+    };
+  }
+  seen.set(key, answer);
+  return answer;
+}
+
 export function evaluateResult(
   reading: EvaluatedReading,
   patient: { name: string; species: string },
@@ -207,18 +238,17 @@ export function evaluateResult(
   display = { ...display, decimals: sent ?? analyte?.decimals ?? null };
 
   // The clinic's interval (analyte, species, instrument) when there is one, else the analyzer's own range.
-  const chosen = pickInterval(intervals, reading.analyte, patient.species, reading.instrumentId);
+  const clinic = clinicInterval(intervals, reading.analyte, patient.species, reading.instrumentId, display.unit);
+  const chosen = clinic?.chosen ?? null;
   const fromAnalyzer = chosen ? null : parseAnalyzerRange(reading.instrumentRange);
   let interval: Evaluation['interval'] = null;
   let bandSource: { bands: readonly { label: string; from: number | null; to: number | null }[]; unit: string; limits: Pick<Limits, 'low' | 'high'> } | null = null;
-  if (chosen) {
+  if (clinic) {
     if (display.unit) {
-      const limits = convertLimits(chosen, chosen.unit, display.unit);
-      if (limits) interval = { ...limits, unit: display.unit, source: chosen.source, id: chosen.id, origin: 'clinic' };
-      else problems.push(`The interval's unit ${chosen.unit} does not convert to ${display.unit}.`);
+      if (clinic.interval) interval = clinic.interval;
+      else problems.push(`The interval's unit ${clinic.chosen.unit} does not convert to ${display.unit}.`);
     }
-    // Bands are kept in the interval's unit: compare the result there.
-    bandSource = { bands: chosen.bands.length ? chosen.bands : bandsFromLimits(chosen), unit: chosen.unit, limits: chosen };
+    bandSource = clinic.bandSource;
   } else if (fromAnalyzer && unitCheck.ok) {
     const limits = convertLimits({ ...fromAnalyzer, criticalLow: null, criticalHigh: null }, unitCheck.ucum, display.unit ?? unitCheck.ucum);
     if (limits) {

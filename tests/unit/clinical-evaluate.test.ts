@@ -1,3 +1,4 @@
+import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
 import { DEFAULT_ANALYTES, DEFAULT_INTERVALS } from '@/lib/clinical/defaults';
 import { evaluateResult, formatMeasured, pickInterval, type IntervalContext } from '@/lib/clinical/evaluate';
@@ -124,4 +125,30 @@ describe('the analyzer’s own range, flags and qualitative results', () => {
     expect(e.flag).toMatchObject({ flag: 'high' });
     expect(e.unitNote).toBe('"MG/L" read as mg/L (UCUM\'s case-insensitive form).');
   });
+
+  // evaluateResult keeps the interval it chose per intervals list (a chart evaluates hundreds of results
+  // against one list): a result evaluated after others against the same list must read exactly as it does
+  // against a fresh copy of that list, whatever came before it (species, instrument, display unit, value).
+  it('reads the same against a shared intervals list as against a fresh one, in any order', () => {
+    const cat = { name: 'Miso', species: 'cat' };
+    const catInterval: IntervalContext = { ...dogInterval, id: 'i-cat', species: 'cat', high: 5, criticalHigh: null };
+    const shared = [dogInterval, readerInterval, catInterval];
+    const reading = fc.record({
+      value: fc.oneof(fc.constant(null), fc.double({ min: 0, max: 400, noNaN: true })),
+      comparator: fc.constantFrom(null, '<' as const, '>' as const),
+      unit: fc.constantFrom('mg/L', 'mg/dL', 'mg/l', 'MG/L', 'g/L', 'mg per litre', null),
+      instrumentId: fc.constantFrom(null, 'reader-1', 'reader-2'),
+    });
+    const step = fc.record({ reading, cat: fc.boolean(), displayUnit: fc.constantFrom('mg/L', 'mg/dL') });
+    fc.assert(
+      fc.property(fc.array(step, { minLength: 1, maxLength: 12 }), (steps) => {
+        for (const { reading: x, cat: isCat, displayUnit } of steps) {
+          const args = [{ ...x, analyte: 'cCRP' }, isCat ? cat : dog, { ...crp, displayUnit }] as const;
+          expect(evaluateResult(...args, shared)).toEqual(evaluateResult(...args, [...shared]));
+        }
+      }),
+      { numRuns: 300 },
+    );
+  });
 });
+
