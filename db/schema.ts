@@ -356,6 +356,11 @@ export const readings = pgTable(
     check('readings_one_source', sql`(${t.bridgeId} is null) <> (${t.captureImportId} is null)`),
     index('readings_clinic_status_idx').on(t.clinicId, t.status, t.receivedAt),
     index('readings_patient_idx').on(t.patientId, t.measuredAt),
+    // A patient's record in its own order (lib/readings/queries.ts recordOrder): the chart's newest page is
+    // read straight off this index instead of sorting every result of a long record.
+    index('readings_record_order_idx')
+      .on(t.patientId, sql`(coalesce(${t.measuredAt}, ${t.receivedAt})) desc`, sql`${t.receivedAt} desc`, t.arrival, t.id)
+      .where(sql`${t.status} = 'assigned'`),
     index('readings_specimen_idx').on(t.specimenId, t.status),
     check('readings_comparator_valid', sql`${t.comparator} is null or ${t.comparator} in ('<', '>')`),
     check(

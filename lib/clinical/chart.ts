@@ -6,7 +6,7 @@ import { patients, resultAlerts } from '@/db/schema';
 import type { Actor } from '@/lib/auth/guards';
 import { notFound } from '@/lib/http';
 import { qualityMarksFor } from '@/lib/quality/marks';
-import { patientResults } from '@/lib/readings/queries';
+import { patientResultSummaries, patientResults, patientResultsPage, type ResultSummary } from '@/lib/readings/queries';
 import { analyteContexts, intervalContexts } from './config';
 import { evaluateResult, pickInterval } from './evaluate';
 import { changeBetween, deltaCheck } from './flags';
@@ -19,9 +19,10 @@ import { reviewsFor } from './review';
  * and who reviewed it. Newest first, like patientResults.
  *
  * Every result is evaluated, for the trend (`trend`: one small point per result) and for the change from
- * the previous one, but only the newest `limit` are enriched with reviews, alerts and lab-quality marks
- * and sent whole (`results`; `total` says how many there are). A page never ends inside a specimen, so a
- * panel's results stay together. Without `limit` every result is sent whole (reports).
+ * the previous one, from the columns evaluation needs; only the newest `limit` are read whole, enriched
+ * with reviews, alerts and lab-quality marks and sent (`results`; `total` says how many there are). A page
+ * never ends inside a specimen, so a panel's results stay together. Without `limit` every result is read
+ * and sent whole (reports).
  */
 export async function patientChart(actor: Actor, patientId: string, options: { limit?: number } = {}) {
   const database = await db();
@@ -30,7 +31,8 @@ export async function patientChart(actor: Actor, patientId: string, options: { l
     .from(patients)
     .where(and(eq(patients.id, patientId), eq(patients.clinicId, actor.clinicId)));
   if (!patient) throw notFound('The patient');
-  const all = await patientResults(actor, patientId);
+  const whole = options.limit === undefined ? await patientResults(actor, patientId) : null;
+  const all: ResultSummary[] = whole ?? (await patientResultSummaries(actor, patientId));
   const codes = [...new Set(all.map((r) => r.analyte))];
   const [analytes, intervals] = await Promise.all([analyteContexts(database, actor.clinicId, codes), intervalContexts(database, actor.clinicId, codes)]);
 
@@ -58,7 +60,14 @@ export async function patientChart(actor: Actor, patientId: string, options: { l
   let shown = options.limit === undefined ? evaluated.length : Math.min(options.limit, evaluated.length);
   const lastSpecimen = shown > 0 ? evaluated[shown - 1].r.specimenId : null;
   while (lastSpecimen && shown < evaluated.length && evaluated[shown].r.specimenId === lastSpecimen) shown++;
-  const page = evaluated.slice(0, shown);
+  // The page's rows whole, read in the same order. A result voided or moved in between is left off the page
+  // (the next refetch drops it from the trend too); a reading's value is never changed in place.
+  const wholeRows = whole ? whole.slice(0, shown) : await patientResultsPage(actor, patientId, shown);
+  const wholeById = new Map(wholeRows.map((r) => [r.id, r]));
+  const page = evaluated.slice(0, shown).flatMap((x, index) => {
+    const r = wholeById.get(x.r.id);
+    return r ? [{ ...x, r, index }] : [];
+  });
   const results = page.map((x) => x.r);
 
   const [reviews, alerts, quality] = await Promise.all([
@@ -73,7 +82,7 @@ export async function patientChart(actor: Actor, patientId: string, options: { l
   ]);
   const alertByReading = new Map(alerts.map((a) => [a.readingId, a]));
 
-  const enriched = page.map(({ r, e, at }, index) => {
+  const enriched = page.map(({ r, e, at, index }) => {
     const analyte = analytes.get(r.analyte);
     const previous = previousOf[index];
     const change = changes[index];

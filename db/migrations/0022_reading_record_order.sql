@@ -1,0 +1,1 @@
+CREATE INDEX "readings_record_order_idx" ON "readings" USING btree ("patient_id",(coalesce("measured_at", "received_at")) desc,"received_at" desc,"arrival","id") WHERE "readings"."status" = 'assigned';
