@@ -1,5 +1,5 @@
 import 'server-only';
-import { and, desc, eq, gte, inArray, isNotNull, or, sql } from 'drizzle-orm';
+import { and, desc, eq, gte, inArray, isNotNull, sql, type SQL } from 'drizzle-orm';
 import { db, type Executor, type Tx } from '@/db/client';
 import { selectJsonRows } from '@/lib/bulk-select';
 import { analyteSettings, clinics, instruments, labOrders, patients, readings, runProtocols, type Bridge, type Reading } from '@/db/schema';
@@ -50,7 +50,20 @@ export async function clinicTiming(tx: Executor, clinicId: string): Promise<Timi
 async function matchContext(tx: Executor, clinicId: string, analytes: string[], namedIds: string[]): Promise<MatchContext> {
   const [orders, instrumentRows, analyteRows, clinic, placedRows, timing] = await Promise.all([
     tx
-      .select({ order: labOrders, stages: runProtocols.stages })
+      // The columns the matcher reads (see the return below), not the whole order.
+      .select({
+        order: {
+          id: labOrders.id,
+          patientId: labOrders.patientId,
+          analyte: labOrders.analyte,
+          instrumentId: labOrders.instrumentId,
+          sampleId: labOrders.sampleId,
+          startedAt: labOrders.startedAt,
+          stages: labOrders.stages,
+          status: labOrders.status,
+        },
+        stages: runProtocols.stages,
+      })
       .from(labOrders)
       .leftJoin(runProtocols, eq(runProtocols.id, labOrders.protocolId))
       .where(and(eq(labOrders.clinicId, clinicId), eq(labOrders.status, 'open'), inArray(labOrders.analyte, analytes.length ? analytes : ['']))),
@@ -80,17 +93,20 @@ async function matchContext(tx: Executor, clinicId: string, analytes: string[], 
   const patientIds = [...new Set(orders.map((o) => o.order.patientId))];
   const lowerIds = [...new Set(namedIds.map((id) => id.trim().toLowerCase()).filter(Boolean))];
   // Patients with an open order, plus any whose record number is printed on a reading: chosen in SQL
-  // (indexed), never by loading every patient of the clinic into JavaScript.
-  const named = [
-    patientIds.length ? inArray(patients.id, patientIds) : undefined,
-    lowerIds.length ? inArray(sql`lower(${patients.recordNumber})`, lowerIds) : undefined,
-  ].filter((c) => c !== undefined);
-  const wanted = named.length
-    ? await tx
-        .select({ id: patients.id, name: patients.name, recordNumber: patients.recordNumber, species: patients.species })
-        .from(patients)
-        .where(and(eq(patients.clinicId, clinicId), eq(patients.active, true), or(...named)))
-    : [];
+  // (indexed), never by loading every patient of the clinic into JavaScript. Two lookups, not one with OR:
+  // each uses its own index and plans in a fraction of a millisecond; the OR of two long lists planned in
+  // 2–3 ms and cost 4–14 ms in all (measured on the bench data set).
+  const wantedBy = (condition: SQL) =>
+    tx
+      .select({ id: patients.id, name: patients.name, recordNumber: patients.recordNumber, species: patients.species })
+      .from(patients)
+      .where(and(eq(patients.clinicId, clinicId), eq(patients.active, true), condition));
+  const [byOrder, byRecordNumber] = await Promise.all([
+    patientIds.length ? wantedBy(inArray(patients.id, patientIds)) : [],
+    lowerIds.length ? wantedBy(inArray(sql`lower(${patients.recordNumber})`, lowerIds)) : [],
+  ]);
+  // One entry per patient, in a fixed order (the matcher breaks ties by record number too).
+  const wanted = [...new Map([...byOrder, ...byRecordNumber].map((p) => [p.id, p])).values()].sort((a, b) => a.recordNumber.localeCompare(b.recordNumber));
   return {
     orders: orders.map(({ order, stages }) => ({
       id: order.id,
