@@ -239,8 +239,7 @@ export function evaluateResult(
 
   // The clinic's interval (analyte, species, instrument) when there is one, else the analyzer's own range.
   const clinic = clinicInterval(intervals, reading.analyte, patient.species, reading.instrumentId, display.unit);
-  const chosen = clinic?.chosen ?? null;
-  const fromAnalyzer = chosen ? null : parseAnalyzerRange(reading.instrumentRange);
+  const fromAnalyzer = clinic ? null : parseAnalyzerRange(reading.instrumentRange);
   let interval: Evaluation['interval'] = null;
   let bandSource: { bands: readonly { label: string; from: number | null; to: number | null }[]; unit: string; limits: Pick<Limits, 'low' | 'high'> } | null = null;
   if (clinic) {

@@ -151,4 +151,3 @@ describe('the analyzer’s own range, flags and qualitative results', () => {
     );
   });
 });
-
