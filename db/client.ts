@@ -77,7 +77,11 @@ export async function openDatabase(dir?: string): Promise<Database> {
     kind: 'pglite',
     listen: (channel, onPayload) => pg.listen(channel, onPayload),
     durable: () => (sync ? sync() : Promise.resolve()),
-    close: () => pg.close(),
+    // Closing writes a shutdown checkpoint (data files, pg_control): to disk before the process exits.
+    close: async () => {
+      await pg.close();
+      await sync?.();
+    },
   };
 }
 
