@@ -9,6 +9,15 @@ const seedDemo = process.argv.includes('--seed-demo');
 const port = Number(process.env.PORT ?? 3000);
 const hostname = process.env.HOST ?? '0.0.0.0';
 
+// A log reader that went away (a closed terminal, a stopped pipe) must not spin the server: a write to a
+// broken stdout or stderr is an EPIPE error, which logged to stderr again made one more, at full CPU, and
+// the server no longer answered SIGTERM. Such writes are dropped.
+for (const stream of [process.stdout, process.stderr]) {
+  stream.on('error', (error: NodeJS.ErrnoException) => {
+    if (error.code !== 'EPIPE') throw error;
+  });
+}
+
 async function main() {
   // Next reads NODE_ENV when it starts; a plain `npm run serve` means production.
   if (!dev) (process.env as Record<string, string>).NODE_ENV ??= 'production';

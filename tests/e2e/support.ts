@@ -36,6 +36,8 @@ export interface RunningApp {
   dataDir: string;
   bridgeToken: string;
   logs: () => string;
+  /** The server process itself. */
+  server: ChildProcess;
   /** Starts another process (simulator, bridge) that is stopped with the app. */
   spawnSide(args: string[], env?: Record<string, string>): ChildProcess;
   stop(): Promise<void>;
@@ -56,7 +58,7 @@ export async function startApp(extraEnv: Record<string, string> = {}): Promise<R
     children.push(child);
     return child;
   };
-  track(spawn(tsx, [...SERVER_NODE_FLAGS, '--tsconfig', 'tsconfig.server.json', 'server.ts', '--seed-demo'], { cwd: root, env }), 'server');
+  const server = track(spawn(tsx, [...SERVER_NODE_FLAGS, '--tsconfig', 'tsconfig.server.json', 'server.ts', '--seed-demo'], { cwd: root, env }), 'server');
   const baseUrl = `http://127.0.0.1:${port}`;
   await waitFor('the server to answer /api/health', async () => ((await fetch(`${baseUrl}/api/health`)).ok ? true : undefined), 120_000).catch(
     (error) => {
@@ -72,6 +74,7 @@ export async function startApp(extraEnv: Record<string, string> = {}): Promise<R
     dataDir,
     bridgeToken,
     logs: () => output,
+    server,
     spawnSide: (args, extra = {}) => track(spawn(tsx, args, { cwd: root, env: { ...env, ...extra } }), path.basename(args[1] ?? args[0])),
     async stop() {
       await Promise.all(
