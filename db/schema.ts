@@ -1005,3 +1005,15 @@ export const rateLimits = pgTable('rate_limits', {
   expire: timestamp({ withTimezone: true }),
 });
 export type CaptureImport = typeof captureImports.$inferSelect;
+
+/**
+ * How many times what a cached view reads has changed, per scope: `patient:<id>` (the patient's row,
+ * results, assignments, reviews and alerts), `results:<clinic id>` (any patient's of that clinic) and
+ * `setup` (intervals, analytes, instruments, kit lots, room temperatures, staff names, clinic settings).
+ * Kept by triggers on those tables (migration 0023), so no write can forget it; lib/view-cache.ts serves
+ * a view again only while its scopes' versions are unchanged.
+ */
+export const recordVersions = pgTable('record_versions', {
+  scope: text().primaryKey(),
+  version: bigint({ mode: 'number' }).notNull().default(0),
+});

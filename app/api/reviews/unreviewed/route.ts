@@ -1,10 +1,13 @@
 import { requireActor } from '@/lib/auth/guards';
 import { unreviewedResults } from '@/lib/clinical/review';
-import { apiRoute, json, readQuery } from '@/lib/http';
+import { apiRoute, readQuery } from '@/lib/http';
 import { unreviewedQuery } from '@/lib/validation/clinical';
+import { cachedViewResponse } from '@/lib/view-cache';
 
 export const GET = apiRoute(async (request) => {
   const actor = await requireActor(request, 'readResults');
   const { mine } = readQuery(request, unreviewedQuery);
-  return json({ results: await unreviewedResults(actor, mine === '1') });
+  // Worked out again only when a result of the clinic or its set-up changed (lib/view-cache.ts).
+  const key = `review:${actor.clinicId}:${mine === '1' ? actor.userId : 'all'}`;
+  return cachedViewResponse(key, [`results:${actor.clinicId}`, 'setup'], async () => ({ results: await unreviewedResults(actor, mine === '1') }));
 });
