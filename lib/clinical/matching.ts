@@ -275,14 +275,25 @@ export function learnTiming(offsets: number[]): TimingModel {
 interface Edge {
   order: MatchOrder;
   weight: number;
-  reasons: Reason[];
+  /** The reading's sample ID or record number names this order or its patient (always offered). */
+  named: boolean;
+  /** Why, written only for a candidate that is shown. */
+  reasons: () => Reason[];
 }
 
 const dueOf = (o: MatchOrder) => o.startedAt.getTime() + o.runSeconds * 1000;
 
 /** Suggestions for every waiting reading, weighed together. */
 export function suggestMatches(readings: MatchReading[], context: MatchContext): Map<string, Suggestion> {
-  const clock = clockIn(context.timeZone);
+  // The same few due times are written into the reasons of every waiting reading: format each once.
+  const clockOf = clockIn(context.timeZone);
+  const clocked = new Map<number, string>();
+  const clock = (d: Date) => {
+    const ms = d.getTime();
+    let text = clocked.get(ms);
+    if (text === undefined) clocked.set(ms, (text = clockOf(d)));
+    return text;
+  };
   const timing = context.timing ?? defaultTiming();
   const sd = timing.spreadSeconds;
   const patients = new Map(context.patients.map((p) => [p.id, p]));
@@ -304,9 +315,15 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
   const singleChannel = (id: string | null) => !!id && (instruments.get(id)?.channels ?? 1) === 1;
   const lastArrivalBefore = (instrumentId: string, t: number) => {
     const list = arrivals.get(instrumentId) ?? [];
-    let last: number | null = null;
-    for (const a of list) if (a < t) last = a;
-    return last;
+    // Sorted above: the last arrival before t by bisection (it is asked for every pair of runs).
+    let lo = 0;
+    let hi = list.length;
+    while (lo < hi) {
+      const mid = (lo + hi) >> 1;
+      if (list[mid] < t) lo = mid + 1;
+      else hi = mid;
+    }
+    return lo > 0 ? list[lo - 1] : null;
   };
   const readersFor = (analyte: string) => context.instruments.filter((i) => !i.analytes || i.analytes.length === 0 || i.analytes.includes(analyte));
   // Known busy spells per single-channel reader: placed runs (start to arrival).
@@ -486,29 +503,31 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
     const namedOrders = eligible.filter((o) => sameId(r.sampleId, o.sampleId));
     const namedPatients = context.patients.filter((p) => sameId(r.patientRef, p.recordNumber) || sameId(r.sampleId, p.recordNumber));
     const T = r.arrivedAt.getTime();
-    return eligible.map((o) => {
+    // The weight of order o for this reading; with `reasons`, also why. Every order is weighed, but only the
+    // few candidates shown get their reasons written (weighed again, the same way): writing them for every
+    // pair took most of the time with many readings waiting.
+    const weigh = (o: MatchOrder, reasons?: Reason[]) => {
       const patient = patients.get(o.patientId)!;
-      const reasons: Reason[] = [];
       let weight = 1;
 
       // IDs printed on the reading.
       if (sameId(r.sampleId, o.sampleId)) {
         weight *= MODEL.sampleIdMatch;
-        reasons.push({ code: 'sample-id-match', effect: 'for', text: `Sample ID ${r.sampleId!.trim()} on the reading matches this order's tube label.` });
+        reasons?.push({ code: 'sample-id-match', effect: 'for', text: `Sample ID ${r.sampleId!.trim()} on the reading matches this order's tube label.` });
       } else if (r.sampleId && o.sampleId && !sameId(r.sampleId, patient.recordNumber)) {
         weight *= MODEL.sampleIdDiffers;
-        reasons.push({ code: 'sample-id-differs', effect: 'against', text: `The reading's sample ID ${r.sampleId.trim()} differs from this order's tube label ${o.sampleId.trim()}.` });
+        reasons?.push({ code: 'sample-id-differs', effect: 'against', text: `The reading's sample ID ${r.sampleId.trim()} differs from this order's tube label ${o.sampleId.trim()}.` });
       }
       if (namedPatients.some((p) => p.id === patient.id)) {
         weight *= MODEL.recordIdMatch;
-        reasons.push({ code: 'record-id-match', effect: 'for', text: `The reading names record ${patient.recordNumber}, this patient's record number.` });
+        reasons?.push({ code: 'record-id-match', effect: 'for', text: `The reading names record ${patient.recordNumber}, this patient's record number.` });
       }
       const namedHere = namedOrders.some((n) => n.id === o.id) || namedPatients.some((p) => p.id === patient.id);
       const other = namedOrders.find((n) => n.patientId !== patient.id) ?? null;
       const otherPatient = other ? patients.get(other.patientId) : namedPatients.find((p) => p.id !== patient.id);
       if (!namedHere && otherPatient) {
         weight *= MODEL.idNamesOther;
-        reasons.push({ code: 'id-names-other', effect: 'against', text: `The ID printed on the reading names ${otherPatient.name} (${otherPatient.recordNumber}), not this patient.` });
+        reasons?.push({ code: 'id-names-other', effect: 'against', text: `The ID printed on the reading names ${otherPatient.name} (${otherPatient.recordNumber}), not this patient.` });
       }
 
       // The reader.
@@ -516,24 +535,26 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
       const onReader = o.instrumentId ?? r.instrumentId;
       if (!o.instrumentId) {
         weight *= onReaderShare(o, r.instrumentId, T - o.runSeconds * 1000 - timing.offsetSeconds * 1000);
-        reasons.push({ code: 'instrument-unknown', effect: 'neutral', text: 'No reader was named when the test was started: it could have run on any reader for this test.' });
+        reasons?.push({ code: 'instrument-unknown', effect: 'neutral', text: 'No reader was named when the test was started: it could have run on any reader for this test.' });
       } else if (o.instrumentId === r.instrumentId) {
-        reasons.push({ code: 'instrument-match', effect: 'for', text: `Started on ${instrument?.name ?? 'this reader'}, the one that sent the reading.` });
+        reasons?.push({ code: 'instrument-match', effect: 'for', text: `Started on ${instrument?.name ?? 'this reader'}, the one that sent the reading.` });
       } else {
         weight *= MODEL.wrongReader;
-        reasons.push({ code: 'instrument-differs', effect: 'against', text: `Started on ${instrument?.name ?? 'another reader'}, not the one that sent the reading.` });
+        reasons?.push({ code: 'instrument-differs', effect: 'against', text: `Started on ${instrument?.name ?? 'another reader'}, not the one that sent the reading.` });
       }
 
       // Timing against the full protocol.
       const offset = (T - dueOf(o)) / 1000;
       weight *= timingDensity(offset, timing);
-      const z = Math.abs(offset - timing.offsetSeconds) / sd;
-      const when = Math.abs(offset) < 1 ? 'right at the due time' : `${formatDuration(offset)} ${offset < 0 ? 'before' : 'after'} the due time`;
-      reasons.push({
-        code: 'timing',
-        effect: z <= 2 ? 'for' : z <= 4 ? 'neutral' : 'against',
-        text: `Arrived ${when} (${clock(new Date(dueOf(o)))}); readings here usually arrive within ${formatDuration(2 * sd)} of it.`,
-      });
+      if (reasons) {
+        const z = Math.abs(offset - timing.offsetSeconds) / sd;
+        const when = Math.abs(offset) < 1 ? 'right at the due time' : `${formatDuration(offset)} ${offset < 0 ? 'before' : 'after'} the due time`;
+        reasons.push({
+          code: 'timing',
+          effect: z <= 2 ? 'for' : z <= 4 ? 'neutral' : 'against',
+          text: `Arrived ${when} (${clock(new Date(dueOf(o)))}); readings here usually arrive within ${formatDuration(2 * sd)} of it.`,
+        });
+      }
 
       // One run per channel.
       if (onReader && singleChannel(onReader)) {
@@ -544,13 +565,13 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
           weight *= f;
           const bp = patients.get(b.patientId);
           if (f < 0.5) {
-            reasons.push({
+            reasons?.push({
               code: 'reader-busy',
               effect: 'against',
               text: `${bp?.name ?? 'Another patient'}'s run was started on ${readerName} at ${clock(b.startedAt)}, while this one would still have been running.`,
             });
           } else if ((unseenBy.get(b.id) ?? 1) < 0.5 && b.startedAt.getTime() < began) {
-            reasons.push({
+            reasons?.push({
               code: 'earlier-run-probably-aborted',
               effect: 'neutral',
               text: `${bp?.name ?? 'Another patient'}'s earlier run on ${readerName} (${clock(b.startedAt)}) has no reading and is probably aborted.`,
@@ -560,8 +581,18 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
       }
 
       weight /= unseenBy.get(o.id) ?? 1;
-      return { order: o, weight, reasons };
-    });
+      return weight;
+    };
+    return eligible.map((o) => ({
+      order: o,
+      weight: weigh(o),
+      named: sameId(r.sampleId, o.sampleId) || namedPatients.some((p) => p.id === o.patientId),
+      reasons: () => {
+        const reasons: Reason[] = [];
+        weigh(o, reasons);
+        return reasons;
+      },
+    }));
   };
 
   // Readings by test; within a test, readings that share a candidate are weighed jointly.
@@ -576,9 +607,9 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
     const candidates: Candidate[] = [];
     for (const e of edges.get(r.id)!) {
       const probability = m.byOrder.get(e.order.id) ?? 0;
-      if (probability < MODEL.showAbove && !e.reasons.some((x) => x.code === 'sample-id-match' || x.code === 'record-id-match')) continue;
+      if (probability < MODEL.showAbove && !e.named) continue;
       const patient = patients.get(e.order.patientId)!;
-      const reasons = [...e.reasons];
+      const reasons = e.reasons();
       const lost = m.lostTo.get(e.order.id);
       if (lost && lost > 0.5) reasons.push({ code: 'another-reading-fits', effect: 'against', text: 'Another waiting reading fits this run better; one run gives one reading.' });
       candidates.push({ patientId: patient.id, patientName: patient.name, recordNumber: patient.recordNumber, orderId: e.order.id, probability, reasons, speciesWarning: speciesWarning(analyte, patient) });
