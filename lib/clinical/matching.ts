@@ -283,8 +283,12 @@ interface Edge {
 
 const dueOf = (o: MatchOrder) => o.startedAt.getTime() + o.runSeconds * 1000;
 
-/** Suggestions for every waiting reading, weighed together. */
-export function suggestMatches(readings: MatchReading[], context: MatchContext): Map<string, Suggestion> {
+/** Suggestions for every waiting reading (or only those in `only`, with their `top` candidates), all weighed together. */
+export function suggestMatches(
+  readings: MatchReading[],
+  context: MatchContext,
+  options: { only?: ReadonlySet<string>; top?: number } = {},
+): Map<string, Suggestion> {
   // The same few due times are written into the reasons of every waiting reading: format each once.
   const clockOf = clockIn(context.timeZone);
   const clocked = new Map<number, string>();
@@ -602,17 +606,19 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
   const analytes = new Map(context.analytes.map((a) => [a.code, a]));
   const result = new Map<string, Suggestion>();
   for (const r of readings) {
+    if (options.only && !options.only.has(r.id)) continue;
     const m = marginals.get(r.id)!;
     const analyte = analytes.get(r.analyte);
     const candidates: Candidate[] = [];
+    // Reasons are written once the candidates are ranked, for those kept.
+    const unwritten = new Map<Candidate, Edge>();
     for (const e of edges.get(r.id)!) {
       const probability = m.byOrder.get(e.order.id) ?? 0;
       if (probability < MODEL.showAbove && !e.named) continue;
       const patient = patients.get(e.order.patientId)!;
-      const reasons = e.reasons();
-      const lost = m.lostTo.get(e.order.id);
-      if (lost && lost > 0.5) reasons.push({ code: 'another-reading-fits', effect: 'against', text: 'Another waiting reading fits this run better; one run gives one reading.' });
-      candidates.push({ patientId: patient.id, patientName: patient.name, recordNumber: patient.recordNumber, orderId: e.order.id, probability, reasons, speciesWarning: speciesWarning(analyte, patient) });
+      const candidate: Candidate = { patientId: patient.id, patientName: patient.name, recordNumber: patient.recordNumber, orderId: e.order.id, probability, reasons: [], speciesWarning: speciesWarning(analyte, patient) };
+      unwritten.set(candidate, e);
+      candidates.push(candidate);
     }
     // A record number printed on the reading names a patient even without an open order: offered, never confident.
     for (const patient of context.patients) {
@@ -635,7 +641,15 @@ export function suggestMatches(readings: MatchReading[], context: MatchContext):
     const [first, second] = candidates;
     const runnerUp = Math.max(second?.orderId ? second.probability : 0, m.none);
     const confident = !!first?.orderId && first.probability >= MODEL.confidentAt && first.probability - runnerUp >= MODEL.confidentMargin;
-    result.set(r.id, { readingId: r.id, candidates, noneProbability: m.none, confident });
+    const kept = options.top === undefined ? candidates : candidates.slice(0, options.top);
+    for (const candidate of kept) {
+      const e = unwritten.get(candidate);
+      if (!e) continue;
+      candidate.reasons = e.reasons();
+      const lost = m.lostTo.get(e.order.id);
+      if (lost && lost > 0.5) candidate.reasons.push({ code: 'another-reading-fits', effect: 'against', text: 'Another waiting reading fits this run better; one run gives one reading.' });
+    }
+    result.set(r.id, { readingId: r.id, candidates: kept, noneProbability: m.none, confident });
   }
   return result;
 }

@@ -157,13 +157,13 @@ export async function suggestionsFor(actor: Actor, readingId: string): Promise<{
       .where(and(eq(analyteSettings.clinicId, actor.clinicId), eq(analyteSettings.code, reading.analyte)));
     return { readingId, suggestion: empty, analyte: analyte ?? null };
   }
-  const { ranked, context } = await rankWaiting(actor.clinicId, [reading.analyte]);
+  const { ranked, context } = await rankWaiting(actor.clinicId, [reading.analyte], [readingId]);
   const analyte = context?.analytes.find((a) => a.code === reading.analyte) ?? null;
   return { readingId, suggestion: ranked.get(readingId) ?? empty, analyte };
 }
 
-/** Every waiting reading of these analytes (all when none given), weighed together. */
-async function rankWaiting(clinicId: string, analytes?: string[]) {
+/** Every waiting reading of these analytes (all when none given), weighed together; suggestions for `shown` (all when not given). */
+async function rankWaiting(clinicId: string, analytes?: string[], shown?: readonly string[], top?: number) {
   const database = await db();
   const conditions = [eq(readings.clinicId, clinicId), eq(readings.status, 'unassigned')];
   if (analytes) conditions.push(inArray(readings.analyte, analytes));
@@ -176,13 +176,16 @@ async function rankWaiting(clinicId: string, analytes?: string[]) {
     [...new Set(waiting.map((r) => r.analyte))],
     waiting.flatMap((r) => [r.sampleId, r.patientRef]).filter((x): x is string => !!x),
   );
-  return { ranked: suggestMatches(waiting.map(toMatchReading), context), context };
+  return { ranked: suggestMatches(waiting.map(toMatchReading), context, { only: shown ? new Set(shown) : undefined, top }), context };
 }
 
-/** The top few candidates for every unassigned reading, for the Intake board in one request. */
-export async function suggestionsForUnassigned(actor: Actor, perReading = 3): Promise<Record<string, Suggestion>> {
-  const { ranked } = await rankWaiting(actor.clinicId);
-  return Object.fromEntries([...ranked].map(([id, s]) => [id, { ...s, candidates: s.candidates.slice(0, perReading) }]));
+/**
+ * The top few candidates for the unassigned readings Intake shows (`shown`; every one when not given), for
+ * the board in one request. All waiting readings are weighed together either way: one run gives one reading.
+ */
+export async function suggestionsForUnassigned(actor: Actor, perReading = 3, shown?: readonly string[]): Promise<Record<string, Suggestion>> {
+  const { ranked } = await rankWaiting(actor.clinicId, undefined, shown, perReading);
+  return Object.fromEntries(ranked);
 }
 
 /**

@@ -141,6 +141,16 @@ export const waitingQuery = z.object({
 });
 export type WaitingQuery = z.infer<typeof waitingQuery>;
 
+/** Intake's suggestions for the readings it shows (its page), comma-separated; without it, every waiting reading. */
+export const suggestionsQuery = z.object({
+  readings: z
+    .string()
+    .max(200 * 37)
+    .optional()
+    .transform((v) => (v ? v.split(',').filter(Boolean) : undefined))
+    .pipe(z.array(z.uuid('Not a valid reading id.')).max(200, 'At most 200 readings.').optional()),
+});
+
 const readingIdList = z.array(z.uuid()).min(1, 'Name the readings of the panel.').max(200);
 
 /** A whole panel (the readings of one specimen the person saw) onto one patient. */

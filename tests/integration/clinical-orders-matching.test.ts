@@ -127,6 +127,12 @@ describe('suggestions for an anonymous reading', () => {
     expect(suggestion.candidates[0].reasons.map((r: { code: string }) => r.code)).toEqual(['instrument-match', 'timing', 'reader-busy']);
     const board = await body(await allSuggestions.GET(request('/api/readings/suggestions', { cookie: cookies.tech }), undefined));
     expect(board.suggestions[readingId].candidates[0].patientId).toBe(ids.juniper);
+    // Intake asks for the readings on its page: the same suggestion and no other; a bad id is a 400.
+    const page = await body(await allSuggestions.GET(request(`/api/readings/suggestions?readings=${readingId}`, { cookie: cookies.tech }), undefined));
+    expect(Object.keys(page.suggestions)).toEqual([readingId]);
+    expect(page.suggestions[readingId]).toEqual(board.suggestions[readingId]);
+    const bad = await allSuggestions.GET(request('/api/readings/suggestions?readings=not-a-reading', { cookie: cookies.tech }), undefined);
+    expect(bad.status).toBe(400);
 
     // Confirming the suggestion fulfils the order; the order cannot take a second reading (409).
     const confirmed = await assign.POST(

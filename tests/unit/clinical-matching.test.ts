@@ -173,6 +173,14 @@ describe('probabilities for an anonymous reading (worked cases)', () => {
     expect(s.get('r2')!.candidates[0].orderId).toBe('o-2');
     // r2 would fit o-1 only very late; o-1 is r1's, so r2 does not take it.
     expect(probabilities(s.get('r2')!)['o-1'] ?? 0).toBeLessThan(0.001);
+    // Intake asks only for the readings on its page: r2's suggestion is the same, still weighed with r1.
+    const page = suggestMatches([r1, r2], context(orders), { only: new Set(['r2']) });
+    expect([...page.keys()]).toEqual(['r2']);
+    expect(page.get('r2')).toEqual(s.get('r2'));
+    expect(suggestMatches([r2], context(orders)).get('r2')).not.toEqual(s.get('r2'));
+    // Only the top candidate kept: the same as the first of the whole list, reasons included.
+    const top = suggestMatches([r1, r2], context(orders), { top: 1 }).get('r1')!;
+    expect(top).toEqual({ ...s.get('r1')!, candidates: s.get('r1')!.candidates.slice(0, 1) });
   });
 
   it('an aborted run must have fitted on the reader between its previous reading and the next run', () => {

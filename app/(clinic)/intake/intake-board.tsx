@@ -96,15 +96,18 @@ export function IntakeBoard() {
   }, [listen]);
   query.set('v', String(settled));
   const list = useSWR<Waiting>(`/api/readings/waiting?${query}`, fetcher, { refreshInterval: 60_000, keepPreviousData: true });
-  // Suggestions live under /api/readings, so every reading and order event refreshes them.
-  const suggestions = useSWR<{ suggestions: Record<string, Suggestion> }>('/api/readings/suggestions', fetcher, {
+  const specimens = useMemo(() => list.data?.specimens ?? [], [list.data]);
+  // Suggestions for the readings on this page (every waiting reading is weighed on the server). They live
+  // under /api/readings, so every reading and order event refreshes them.
+  const shownReadings = specimens.flatMap((s) => s.readings.map((r) => r.id)).join(',');
+  const suggestions = useSWR<{ suggestions: Record<string, Suggestion> }>(shownReadings ? `/api/readings/suggestions?readings=${shownReadings}` : null, fetcher, {
     refreshInterval: 60_000,
+    keepPreviousData: true,
   });
   const [assigning, setAssigning] = useState<IntakeSpecimen | null>(null);
   const [voiding, setVoiding] = useState<IntakeSpecimen | null>(null);
   const [done, setDone] = useState<string | null>(null);
   const [failure, setFailure] = useState<string | null>(null);
-  const specimens = useMemo(() => list.data?.specimens ?? [], [list.data]);
   const fresh = useArrivals(list.data ? specimens.map((s) => s.id) : undefined);
   const [now, setNow] = useState(() => Date.now());
   useEffect(() => {

@@ -129,7 +129,10 @@ export async function benchInProcess(report: Report, dataDir: string, batches: n
   const clinic = await first<{ id: string }>(`select id from clinics order by created_at limit 1`);
   const tech = await first<Actor>(`select id as "userId", clinic_id as "clinicId", role, display_name as "displayName", email from staff_users where email = 'vet@fernhollow.example'`);
   const heavy = await first<{ id: string }>(`select id from patients where record_number = $1`, [HEAVY_PATIENT]);
-  const ids = { heavyPatientId: heavy.id };
+  const { listWaiting } = await import('@/lib/readings/queries');
+  const { waitingQuery } = await import('@/lib/validation/api');
+  const intakePage = (await listWaiting(tech, waitingQuery.parse({}))).specimens.flatMap((s) => s.readings.map((r) => r.id));
+  const ids = { heavyPatientId: heavy.id, intakePage };
 
   // BENCH_PARTS (as for the server section): without "reads", only ingest is measured here.
   const parts = process.env.BENCH_PARTS?.split(',');

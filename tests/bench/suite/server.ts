@@ -334,7 +334,9 @@ export async function benchServer(report: Report, dataDir: string, options: { ra
 
     const vet = await signIn(server.url, 'vet@fernhollow.example');
     const heavy = await (await fetch(`${server.url}/api/patients?q=${HEAVY_PATIENT}`, { headers: { cookie: vet } })).json();
-    const ids = { heavyPatientId: heavy.patients[0].id as string };
+    const waiting = await (await fetch(`${server.url}/api/readings/waiting`, { headers: { cookie: vet } })).json();
+    const intakePage = (waiting.specimens as { readings: { id: string }[] }[]).flatMap((s) => s.readings.map((r) => r.id));
+    const ids = { heavyPatientId: heavy.patients[0].id as string, intakePage };
     if (wantPart('reads')) {
     const paths = await readPaths();
     const health = paths.find((p) => p.name === 'health');

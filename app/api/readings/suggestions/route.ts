@@ -1,9 +1,14 @@
 import { requireActor } from '@/lib/auth/guards';
-import { apiRoute, json } from '@/lib/http';
+import { apiRoute, json, readQuery } from '@/lib/http';
 import { suggestionsForUnassigned } from '@/lib/readings/suggestions';
+import { suggestionsQuery } from '@/lib/validation/api';
 
-/** The top candidates for every reading waiting in Intake (one request for the whole board). */
+/**
+ * The top candidates for waiting readings, weighed together: for the readings Intake shows (`readings`, its
+ * page) or, without it, for every waiting reading.
+ */
 export const GET = apiRoute(async (request) => {
   const actor = await requireActor(request, 'readResults');
-  return json({ suggestions: await suggestionsForUnassigned(actor) });
+  const { readings } = readQuery(request, suggestionsQuery);
+  return json({ suggestions: await suggestionsForUnassigned(actor, 3, readings) });
 });
