@@ -18,13 +18,22 @@ interface Kept {
   bytes: number;
 }
 
-/** Per database (tests open several in one process), each with its kept views and their size. */
-const stores = new WeakMap<object, { kept: Map<string, Kept>; bytes: number }>();
+type Store = { kept: Map<string, Kept>; bytes: number };
 
-function storeFor(database: object) {
+/** Per database (tests open several in one process), each with its kept views and their size. */
+const stores = new WeakMap<object, Store>();
+
+function storeFor(database: object): Store {
   let store = stores.get(database);
   if (!store) stores.set(database, (store = { kept: new Map(), bytes: 0 }));
   return store;
+}
+
+function forget(store: Store, key: string) {
+  const old = store.kept.get(key);
+  if (!old) return;
+  store.kept.delete(key);
+  store.bytes -= old.bytes;
 }
 
 /** The kept view, or a fresh one when a scope's version moved since it was kept. */
@@ -41,13 +50,7 @@ async function keptView(key: string, scopes: string[], compute: () => Promise<un
     return entry;
   }
   const body = JSON.stringify(await compute());
-  const forget = (k: string) => {
-    const old = store.kept.get(k);
-    if (!old) return;
-    store.kept.delete(k);
-    store.bytes -= old.bytes;
-  };
-  forget(key);
+  forget(store, key);
   // Two bytes a character: the JSON holds typographic characters (−, ’), so V8 keeps it as a two-byte string.
   const fresh: Kept = { versions, body, bytes: body.length * 2 };
   if (fresh.bytes <= MAX_BYTES / 4) {
@@ -55,7 +58,7 @@ async function keptView(key: string, scopes: string[], compute: () => Promise<un
     store.bytes += fresh.bytes;
     for (const oldest of store.kept.keys()) {
       if (store.bytes <= MAX_BYTES) break;
-      forget(oldest);
+      forget(store, oldest);
     }
   }
   return fresh;

@@ -4,7 +4,7 @@
 // source. Checked three ways: every table the views read carries a version trigger (from the SQL the views
 // run and the catalog, so a new table read without one fails here); a column left out of a column-list
 // trigger is a decision named here; and after each kind of write the answers served equal fresh ones.
-import { eq } from 'drizzle-orm';
+import { eq, sql } from 'drizzle-orm';
 import { beforeAll, describe, expect, it } from 'vitest';
 import { ingestOne, patientByRecord, staffByEmail } from './support';
 import { GET as chartRoute } from '@/app/api/patients/[patientId]/results/route';
@@ -86,22 +86,25 @@ describe('kept views (chart, Review list)', () => {
     read.delete('record_versions');
     // The views read at least the tables the chart is made of (sanity for the capture itself).
     expect([...read]).toEqual(expect.arrayContaining(['readings', 'patients', 'reference_intervals', 'analyte_settings', 'result_reviews']));
-    const triggered = await database.db.execute<{ relname: string }>(
-      `select distinct c.relname from pg_trigger t join pg_class c on c.oid = t.tgrelid join pg_proc p on p.oid = t.tgfoid where p.proname like 'record_versions_bump_%'` as never,
-    );
-    const withTrigger = new Set(('rows' in triggered ? triggered.rows : (triggered as { relname: string }[])).map((r) => r.relname));
+    const triggered = await database.db
+      .execute<{ relname: string }>(
+        sql`select distinct c.relname from pg_trigger t join pg_class c on c.oid = t.tgrelid join pg_proc p on p.oid = t.tgfoid where p.proname like 'record_versions_bump_%'`,
+      )
+      .then((r) => r.rows);
+    const withTrigger = new Set(triggered.map((r) => r.relname));
     expect([...read].filter((table) => !withTrigger.has(table))).toEqual([]);
   });
 
   it('column-list triggers leave out only the columns no view reads (link health, last sign-in)', async () => {
-    const result = await database.db.execute<{ table: string; column: string }>(
-      `select c.relname as "table", a.attname as "column"
-         from pg_trigger t join pg_class c on c.oid = t.tgrelid join pg_proc p on p.oid = t.tgfoid
-         join pg_attribute a on a.attrelid = c.oid and a.attnum > 0 and not a.attisdropped
-        where p.proname like 'record_versions_bump_%' and cardinality(t.tgattr::int2[]) > 0 and not (a.attnum = any (t.tgattr::int2[]))
-        order by 1, 2` as never,
-    );
-    const rows = 'rows' in result ? result.rows : (result as { table: string; column: string }[]);
+    const rows = await database.db
+      .execute<{ table: string; column: string }>(
+        sql`select c.relname as "table", a.attname as "column"
+              from pg_trigger t join pg_class c on c.oid = t.tgrelid join pg_proc p on p.oid = t.tgfoid
+              join pg_attribute a on a.attrelid = c.oid and a.attnum > 0 and not a.attisdropped
+             where p.proname like 'record_versions_bump_%' and cardinality(t.tgattr::int2[]) > 0 and not (a.attnum = any (t.tgattr::int2[]))
+             order by 1, 2`,
+      )
+      .then((r) => r.rows);
     // A new column on these tables lands here: add it to the trigger's list (migration), or here if no view reads it.
     expect(rows.map((r) => `${r.table}.${r.column}`)).toEqual(['instruments.health', 'staff_users.last_sign_in_at']);
   });
