@@ -291,7 +291,11 @@ export const specimens = pgTable(
     splitFrom: uuid().references((): AnyPgColumn => specimens.id, { onDelete: 'restrict' }),
     createdAt: createdAt(),
   },
-  (t) => [index('specimens_clinic_sample_idx').on(t.clinicId, t.instrumentCode, sql`lower(${t.sampleId})`, t.receivedAt)],
+  (t) => [
+    index('specimens_clinic_sample_idx').on(t.clinicId, t.instrumentCode, sql`lower(${t.sampleId})`, t.receivedAt),
+    // A message's specimen (no sample ID) is looked up among its instrument's recent unlabelled ones only.
+    index('specimens_message_idx').on(t.clinicId, t.instrumentCode, t.receivedAt).where(sql`${t.sampleId} is null and ${t.splitFrom} is null`),
+  ],
 );
 
 export const readings = pgTable(
@@ -361,7 +365,8 @@ export const readings = pgTable(
     index('readings_record_order_idx')
       .on(t.patientId, sql`(coalesce(${t.measuredAt}, ${t.receivedAt})) desc`, sql`${t.receivedAt} desc`, t.arrival, t.id)
       .where(sql`${t.status} = 'assigned'`),
-    index('readings_specimen_idx').on(t.specimenId, t.status),
+    // A specimen's readings; with the measurement time, the message lookup at ingest reads no reading it rejects.
+    index('readings_specimen_idx').on(t.specimenId, t.measuredAt),
     check('readings_comparator_valid', sql`${t.comparator} is null or ${t.comparator} in ('<', '>')`),
     check(
       'readings_one_kind_of_value',
