@@ -120,13 +120,17 @@ export async function storeRecords(tx: Tx, source: IngestSource, received: Bridg
 
   // Arrival numbers in the order the bridge sent the records (the analyzer's own order), drawn from the
   // column's sequence and handed out sorted, so a panel lists its tests as the analyzer printed them.
+  // The sequence is looked up once (not per number), and the numbers come back as one text.
   const arrivals = fresh.length
-    ? (
-        await tx.execute<{ n: string }>(
-          sql`select nextval(pg_get_serial_sequence('readings', 'arrival')) as n from generate_series(1, ${fresh.length})`,
-        )
-      ).rows
-        .map((r) => Number(r.n))
+    ? String(
+        (
+          await tx.execute<{ n: string }>(
+            sql`select string_agg(nextval(q.s)::text, ',') as n from (select pg_get_serial_sequence('readings', 'arrival')::regclass as s offset 0) as q cross join generate_series(1, ${fresh.length})`,
+          )
+        ).rows[0].n,
+      )
+        .split(',')
+        .map(Number)
         .sort((a, b) => a - b)
     : [];
   // Every column set on every row (the JSON insert leaves none to a default).
