@@ -13,8 +13,8 @@ interface DemoTest {
   /** Control targets (level 1, level 2) as an insert would give them: mean and SD. */
   levels: [[number, number], [number, number]];
   decimals: number;
-  /** Allowable total error, % (ASVCP TEa guidelines, Harr KE et al., Vet Clin Pathol 2013;42:424–436 for chemistry and
-   * Nabity MB et al., Vet Clin Pathol 2018;47:9–21 for haematology; values from memory, verify before relying on them). */
+  /** Allowable total error, % (ASVCP TEa guidelines, Vet Clin Pathol 2013;42:424–436 for chemistry and
+   * Vet Clin Pathol 2018;47:9–21 for haematology; values from memory, verify before relying on them). */
   tea: number;
 }
 
@@ -77,7 +77,7 @@ export async function seedLabQuality(
         source:
           t.code === 'cCRP'
             ? 'Clinic choice (no published veterinary TEa for CRP known to us): 20 %, to be reviewed.'
-            : `ASVCP allowable total error guideline (${inst.code === 'hema-analyzer' ? 'Nabity et al., Vet Clin Pathol 2018' : 'Harr et al., Vet Clin Pathol 2013'}); value from memory, verify.`,
+            : `ASVCP allowable total error guideline (${inst.code === 'hema-analyzer' ? 'Vet Clin Pathol 2018;47:9–21' : 'Vet Clin Pathol 2013;42:424–436'}); value from memory, verify.`,
       })),
     ),
   );

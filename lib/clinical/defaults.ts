@@ -47,7 +47,7 @@ export const DEFAULT_ANALYTES: DefaultAnalyte[] = [
     decimals: 1,
     validatedSpecies: ['dog'],
     speciesNote:
-      'CRP is a major acute-phase protein in dogs but not in cats (Cerón JJ, Eckersall PD, Martínez-Subiela S. Acute phase proteins in dogs and cats: current knowledge and future perspectives. Vet Clin Pathol 2005;34:85–99; cited from memory).',
+      'CRP is a major acute-phase protein in dogs but not in cats (“Acute phase proteins in dogs and cats: current knowledge and future perspectives”, Vet Clin Pathol 2005;34:85–99; cited from memory).',
     deltaAbsolute: 20,
     deltaPercent: 270,
     deltaWindowHours: 72,
@@ -89,14 +89,14 @@ export const DEFAULT_INTERVALS: DefaultInterval[] = [
       { label: 'Markedly raised', from: 100, to: null },
     ],
     source:
-      'Upper limit 10 mg/L: from memory, a limit in common use for canine-specific CRP assays; healthy dogs were below 5 mg/L in Caspi D et al., C-reactive protein in dogs, Am J Vet Res 1987;48:919–921 (citation from memory). Band and critical limit at 100 mg/L: concentrations > 100 mg/L studied as "extremely high" in BMC Vet Res 2020, doi:10.1186/s12917-020-02367-7 (citation from memory, not checked); using it as a critical limit is a clinic policy placeholder, no published source. Check against your instrument’s validated interval.',
+      'Upper limit 10 mg/L: from memory, a limit in common use for canine-specific CRP assays; healthy dogs were below 5 mg/L in “C-reactive protein in dogs”, Am J Vet Res 1987;48:919–921 (citation from memory). Band and critical limit at 100 mg/L: concentrations > 100 mg/L studied as "extremely high" in BMC Vet Res 2020, doi:10.1186/s12917-020-02367-7 (citation from memory, not checked); using it as a critical limit is a clinic policy placeholder, no published source. Check against your instrument’s validated interval.',
   },
 ];
 
 // Chemistry and haematology analytes of the demo's in-clinic analyzers, with reference intervals for
 // dogs and cats. The limits are textbook-typical adult values in SI units, FROM MEMORY, NOT CHECKED
 // against a published table: verify each against your analyzer's validated intervals (reference
-// intervals differ by method and population, ASVCP guidelines, Friedrichs KR et al., Vet Clin Pathol
+// intervals differ by method and population, ASVCP guidelines, Vet Clin Pathol
 // 2012;41:441–453, citation from memory) before relying on a flag. No critical limits are set here: a
 // clinic sets its own.
 const PANEL_SOURCE =

@@ -1,5 +1,5 @@
 // Verifying a published or manufacturer reference interval with the clinic's own healthy animals.
-// Rule (CLSI EP28-A3c; ASVCP reference-interval guideline, Friedrichs KR et al., Vet Clin Pathol 2012;41:441–453;
+// Rule (CLSI EP28-A3c; ASVCP reference-interval guideline, Vet Clin Pathol 2012;41:441–453;
 // both from memory, verify): test 20 reference samples; the interval is accepted when no more than 2 fall
 // outside it. With 3 or more outside, test a second set of 20: accepted when that set has no more than 2
 // outside, otherwise the interval is not verified for this clinic and should be re-established.

@@ -1,5 +1,5 @@
-// Westgard multirule QC (Westgard JO, Barry PL, Hunt MR, Groth T. A multi-rule Shewhart chart for quality
-// control in clinical chemistry. Clin Chem 1981;27:493–501; citation and rule wording from memory, verify).
+// Westgard multirule QC (“A multi-rule Shewhart chart for quality control in clinical chemistry”,
+// Clin Chem 1981;27:493–501; citation and rule wording from memory, verify).
 // Pure: no database, no clock. Used by the QC page, the Levey-Jennings chart and the "QC failed" mark.
 //
 // Rules as defined there (control observations expressed as z = (value − target mean) / target SD):

@@ -1,4 +1,4 @@
-// The QC page in a real browser: a control run beyond 3 SD (Westgard 1-3s; Westgard et al., Clin Chem
+// The QC page in a real browser: a control run beyond 3 SD (Westgard 1-3s; Clin Chem
 // 1981;27:493–501, from memory) arrives from the bridge, the page shows the rejection naming the rule, and
 // the next patient result of that test carries a visible "QC failed" mark in Intake and on the chart.
 import { describe, expect, it } from 'vitest';

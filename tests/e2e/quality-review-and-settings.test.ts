@@ -1,5 +1,5 @@
 // In a real browser: the Review list shows a result's lab-quality mark ("QC failed" after a 1-3s rejection:
-// one control beyond 3 SD, Westgard et al., Clin Chem 1981;27:493–501, from memory) in the chart's words,
+// one control beyond 3 SD, Clin Chem 1981;27:493–501, from memory) in the chart's words,
 // and Admin's lab-quality settings form refuses a QC pattern the linear-time engine cannot run (RE2 syntax:
 // no backreferences, github.com/google/re2/wiki/Syntax, from memory) on its field, then saves a valid one.
 import { describe, expect, it } from 'vitest';

@@ -222,7 +222,7 @@ describe('auto-assign on an exact sample ID (opt-in)', () => {
       const readingId = await reading(new Date(), payload);
       expect((await database.db.select().from(readings).where(eq(readings.id, readingId)))[0].status, JSON.stringify(payload)).toBe('unassigned');
     }
-    // A cat for a dog-validated test (CRP: Cerón et al., Vet Clin Pathol 2005;34:85–99) is left for a person.
+    // A cat for a dog-validated test (CRP: Vet Clin Pathol 2005;34:85–99) is left for a person.
     await closeAll();
     await startOrder({ patientId: ids.willow, instrumentId: ids.reader, sampleId: 'T-8001', startedAt: started });
     const catReading = await reading(new Date(), { sampleId: 'T-8001' });

@@ -18,7 +18,7 @@ import { readPdf } from '../helpers/pdf';
 
 // Result reports: the PDF of a visit (read back with PDF.js), and a reviewed report sent by e-mail through
 // the real local SMTP sink with the PDF attached. Demo data: Biscuit's invented CRP series (seed).
-// Canine CRP interval 0–10 mg/L: from memory (Caspi et al., Am J Vet Res 1987;48:919–921), verify.
+// Canine CRP interval 0–10 mg/L: from memory (Am J Vet Res 1987;48:919–921), verify.
 
 let database: Database;
 let clinicId: string;

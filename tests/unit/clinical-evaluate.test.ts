@@ -4,7 +4,7 @@ import { DEFAULT_ANALYTES, DEFAULT_INTERVALS } from '@/lib/clinical/defaults';
 import { evaluateResult, formatMeasured, pickInterval, type IntervalContext } from '@/lib/clinical/evaluate';
 import { revalidates } from '@/app/(clinic)/live';
 
-// Canine CRP defaults: upper limit 10 mg/L (from memory; healthy dogs < 5 mg/L in Caspi et al., Am J Vet
+// Canine CRP defaults: upper limit 10 mg/L (from memory; healthy dogs < 5 mg/L in Am J Vet
 // Res 1987;48:919–921), critical 100 mg/L (clinic policy placeholder, no published source). Unit
 // arithmetic is UCUM's (1 mg/dL = 10 mg/L, unitsofmeasure.org: prefix d = 10^-1).
 const crp = { ...DEFAULT_ANALYTES[0], speciesNote: DEFAULT_ANALYTES[0].speciesNote };

@@ -3,7 +3,7 @@ import { DEFAULT_ANALYTES, DEFAULT_INTERVALS } from '@/lib/clinical/defaults';
 import { bandFor, bandsFromLimits, changeBetween, intervalCentre, deltaCheck, FLAG_CODE, flagResult, summarise, valueRange, type Limits } from '@/lib/clinical/flags';
 
 // Canine CRP limits used below are the app's defaults: upper limit 10 mg/L (from memory, a limit in
-// common use; healthy dogs < 5 mg/L in Caspi et al., Am J Vet Res 1987;48:919–921) and a critical limit
+// common use; healthy dogs < 5 mg/L in Am J Vet Res 1987;48:919–921) and a critical limit
 // of 100 mg/L (clinic policy placeholder, no published source).
 const crp = DEFAULT_INTERVALS.find((i) => i.analyte === 'cCRP' && i.species === 'dog')!;
 const exact = (value: number) => ({ value, comparator: null });
@@ -122,7 +122,7 @@ describe('delta check (large change since the last result)', () => {
   });
 
   // Falls count as much as rises: with a log-normal reference change value the limits are symmetric on a
-  // log scale, a rise by ×(1 + x) matching a fall by ÷(1 + x) (log-normal RCV, Fokkema MR et al., Clin Chem
+  // log scale, a rise by ×(1 + x) matching a fall by ÷(1 + x) (log-normal RCV, Clin Chem
   // 2006;52:1224–1231; from memory, verify). 152 → 3 mg/L is ÷50.7, beyond ÷3.7, and −149 mg/L beyond 20.
   it('flags a fall as it flags a rise: 152 → 3 mg/L within 24 h', () => {
     const d = deltaCheck({ ...exact(152), at: h(0) }, { ...exact(3), at: h(24) }, rule);

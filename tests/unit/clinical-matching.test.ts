@@ -16,7 +16,7 @@ import {
 // Worked cases for the probabilistic matcher. The facts behind them: a single-test point-of-care CRP
 // reader runs one test at a time and prints its reading about 12 min after the start (mixing, re-insertion,
 // incubation and measurement; common practice, no published source; the default protocol takes 725 s);
-// CRP is a major acute-phase protein in dogs but not in cats (Cerón, Eckersall, Martínez-Subiela, Vet Clin
+// CRP is a major acute-phase protein in dogs but not in cats (Vet Clin
 // Pathol 2005;34:85–99, from memory). Timings: start 10:00:00 + 725 s = due 10:12:05.
 
 const T0 = Date.UTC(2026, 11, 1, 10, 0, 0);

@@ -1,4 +1,4 @@
-// Westgard multirule on sequences built from the rule definitions in Westgard JO, Barry PL, Hunt MR, Groth T,
+// Westgard multirule on sequences built from the rule definitions in the multirule paper,
 // Clin Chem 1981;27:493–501 (citation and rule wording from memory, verify). Every control has target mean 100
 // and SD 10, so an observation at z SD is the value 100 + 10·z.
 import { describe, expect, it } from 'vitest';
